@@ -1,0 +1,1 @@
+"""The reviewer dashboard (Streamlit)."""

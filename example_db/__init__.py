@@ -1,0 +1,1 @@
+"""The invented demo intercomparison: its contract and a seeded generator of submissions."""

@@ -1,0 +1,1 @@
+"""The submission contract: its files, units, GWP values, the database schema and indicator definitions."""

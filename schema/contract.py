@@ -1,0 +1,381 @@
+"""The submission contract: plain TOML/CSV files in a folder, resolved (with `extends`) into one frozen object.
+
+A contract folder holds `contract.toml` (name, years, tolerances, GWP set, units), `variables.toml`,
+`regions.toml`, and optionally `reference.csv` (base-year reference values) and `bounds.csv` (plausibility
+bounds). Only loading and resolving lives here; `milepost.validate.contract_lint` says whether it is sound.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import json
+import re
+import tomllib
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+from typing import Any
+
+CORE_DIR = Path(__file__).parent / "core"
+NAME_PATTERN = re.compile(r"^[a-z0-9_]+(\.[a-z0-9_]+)*$")
+SIGNS = ("any", "non-negative")
+AGGREGATIONS = ("sum", "none", "zero")
+FILES = ("contract.toml", "variables.toml", "regions.toml", "reference.csv", "bounds.csv")
+
+
+class ContractError(Exception):
+    """A contract folder that cannot be read or resolved (missing file, bad TOML, wrong type)."""
+
+
+@dataclass(frozen=True)
+class Part:
+    """One addend of a variable: `factor` converts its contract unit into the total's unit."""
+
+    variable: str
+    factor: float
+    gwp: str | None = None
+
+
+@dataclass(frozen=True)
+class Variable:
+    name: str
+    unit: str
+    description: str = ""
+    required: bool = False
+    sign: str = "any"
+    regions: str = "sum"
+    parts: tuple[Part, ...] = ()
+
+
+@dataclass(frozen=True)
+class Region:
+    name: str
+    parts: tuple[str, ...] = ()
+    description: str = ""
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    sum_relative: float = 0.01
+    sum_absolute: float = 0.001
+    base_year_relative: float = 0.10
+
+
+@dataclass(frozen=True)
+class Reference:
+    region: str
+    variable: str
+    unit: str
+    year: int
+    value: float
+
+
+@dataclass(frozen=True)
+class Bound:
+    variable: str
+    region: str | None
+    year_from: int | None
+    year_to: int | None
+    low: float | None
+    high: float | None
+
+
+@dataclass(frozen=True)
+class Contract:
+    name: str
+    description: str
+    sources: tuple[str, ...]
+    first_year: int
+    last_year: int
+    base_year: int
+    milestones: tuple[int, ...]
+    required_regions: tuple[str, ...]
+    variables: dict[str, Variable]
+    regions: dict[str, Region]
+    countries: bool
+    tolerance: Tolerance
+    gwp_set: str
+    gwp: dict[str, float]
+    discount_rate: float
+    carbon_to_co2: bool
+    deflators: tuple[tuple[str, str, float], ...]
+    severity: dict[str, str]
+    reference: tuple[Reference, ...]
+    bounds: tuple[Bound, ...]
+    problems: tuple[str, ...] = field(default=(), compare=False)
+    hash: str = ""
+    units: Any = field(default=None, compare=False, repr=False)
+
+    def to_dict(self) -> dict[str, Any]:
+        """The resolved contract as plain data (the shape of `milepost contract show --format json`)."""
+        return {
+            "name": self.name,
+            "hash": self.hash,
+            "description": self.description,
+            "sources": list(self.sources),
+            "base_year": self.base_year,
+            "milestones": list(self.milestones),
+            "years": {"first": self.first_year, "last": self.last_year},
+            "required_regions": list(self.required_regions),
+            "variables": [
+                {
+                    "name": v.name,
+                    "unit": v.unit,
+                    "description": v.description,
+                    "required": v.required,
+                    "sign": v.sign,
+                    "regions": v.regions,
+                    "parts": [{"variable": p.variable, "factor": p.factor, "gwp": p.gwp} for p in v.parts],
+                }
+                for v in self.variables.values()
+            ],
+            "regions": [{"name": r.name, "parts": list(r.parts)} for r in self.regions.values()],
+            "countries": self.countries,
+            "tolerance": asdict(self.tolerance),
+            "gwp": {"set": self.gwp_set, "values": self.gwp},
+            "discount_rate": self.discount_rate,
+            "units": {"carbon_to_co2": self.carbon_to_co2, "deflators": [list(d) for d in self.deflators]},
+            "severity": self.severity,
+            "reference": [asdict(r) for r in self.reference],
+            "bounds": [asdict(b) for b in self.bounds],
+        }
+
+    def is_region(self, name: str) -> bool:
+        """True if `name` is a region of the contract or (when countries are allowed) an ISO 3166-1 alpha-3 code."""
+        return name in self.regions or (self.countries and name in iso3_codes())
+
+    def leaf_parts(self, region: str) -> tuple[str, ...]:
+        """The direct parts of a region (its sum-of-regions addends)."""
+        return self.regions[region].parts if region in self.regions else ()
+
+
+def iso3_codes() -> frozenset[str]:
+    """All current ISO 3166-1 alpha-3 codes, from pycountry's bundled ISO data."""
+    import pycountry
+
+    return frozenset(c.alpha_3 for c in pycountry.countries)
+
+
+def _read_toml(path: Path) -> dict[str, Any]:
+    if not path.exists():
+        return {}
+    try:
+        return tomllib.loads(path.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as e:
+        raise ContractError(f"{path}: not valid TOML: {e}") from None
+
+
+def _read_csv(path: Path, columns: tuple[str, ...]) -> list[dict[str, str]]:
+    if not path.exists():
+        return []
+    with path.open(encoding="utf-8-sig", newline="") as f:
+        rows = list(csv.DictReader(f))
+    if rows and not set(columns) <= set(rows[0]):
+        missing = sorted(set(columns) - set(rows[0]))
+        raise ContractError(f"{path}: missing columns {', '.join(missing)} (expected {', '.join(columns)})")
+    return rows
+
+
+def _resolve_extends(value: str, here: Path) -> Path:
+    if value == "core":
+        return CORE_DIR
+    p = (here / value).resolve()
+    if not (p / "contract.toml").exists():
+        raise ContractError(f"{here / 'contract.toml'}: extends {value!r}, but {p} has no contract.toml")
+    return p
+
+
+def _merged_layers(path: Path, seen: tuple[Path, ...] = ()) -> list[Path]:
+    path = path.resolve()
+    if path in seen:
+        raise ContractError(f"{path}: contracts extend each other in a loop")
+    if not (path / "contract.toml").exists():
+        raise ContractError(f"{path}: not a contract folder (no contract.toml)")
+    head = _read_toml(path / "contract.toml")
+    parent = head.get("extends")
+    layers = _merged_layers(_resolve_extends(parent, path), (*seen, path)) if parent else []
+    return [*layers, path]
+
+
+def _number(value: Any, where: str) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise ContractError(f"{where}: expected a number, got {value!r}")
+    return float(value)
+
+
+def _optional_number(text: str | None, where: str) -> float | None:
+    if text is None or text.strip() == "":
+        return None
+    try:
+        return float(text)
+    except ValueError:
+        raise ContractError(f"{where}: expected a number, got {text!r}") from None
+
+
+def _gwp_values(metric: str) -> dict[str, float]:
+    import globalwarmingpotentials as gwp
+
+    if metric not in gwp.data:
+        known = ", ".join(sorted(gwp.data))
+        raise ContractError(f"gwp = {metric!r} is not a published set known to globalwarmingpotentials ({known})")
+    table = gwp.data[metric]
+    return {"CO2": 1.0, "CH4": float(table["CH4"]), "N2O": float(table["N2O"])}
+
+
+def load(path: str | Path | None = None) -> Contract:
+    """Read a contract folder (default: the core contract), follow `extends`, and resolve it."""
+    root = Path(path) if path is not None else CORE_DIR
+    layers = _merged_layers(root)
+    head: dict[str, Any] = {}
+    variables: dict[str, dict[str, Any]] = {}
+    regions: dict[str, dict[str, Any]] = {}
+    countries = False
+    reference: dict[tuple[str, str, int], Reference] = {}
+    bounds: list[Bound] = []
+    for layer in layers:
+        top = _read_toml(layer / "contract.toml")
+        for key, value in top.items():
+            if isinstance(value, dict) and isinstance(head.get(key), dict):
+                head[key] = {**head[key], **value}
+            else:
+                head[key] = value
+        for name, spec in _read_toml(layer / "variables.toml").items():
+            if not isinstance(spec, dict):
+                raise ContractError(f"{layer / 'variables.toml'}: [{name}] must be a table")
+            variables[name] = {**spec, "_file": str(layer / "variables.toml")}
+        reg = _read_toml(layer / "regions.toml")
+        countries = bool(reg.pop("countries", countries))
+        for name, spec in reg.items():
+            if not isinstance(spec, dict):
+                raise ContractError(f"{layer / 'regions.toml'}: [{name}] must be a table")
+            regions[name] = spec
+        ref_path = layer / "reference.csv"
+        for i, row in enumerate(_read_csv(ref_path, ("region", "variable", "unit", "year", "value")), start=2):
+            where = f"{ref_path}:{i}"
+            try:
+                year = int(row["year"])
+            except ValueError:
+                raise ContractError(f"{where}: year {row['year']!r} is not a whole number") from None
+            value = _optional_number(row["value"], where)
+            if value is None:
+                raise ContractError(f"{where}: value is empty")
+            r = Reference(row["region"].strip(), row["variable"].strip(), row["unit"].strip(), year, value)
+            reference[(r.region, r.variable, r.year)] = r
+        bnd_path = layer / "bounds.csv"
+        for i, row in enumerate(_read_csv(bnd_path, ("variable", "low", "high")), start=2):
+            where = f"{bnd_path}:{i}"
+            yf, yt = _optional_number(row.get("year_from"), where), _optional_number(row.get("year_to"), where)
+            bounds.append(
+                Bound(
+                    variable=row["variable"].strip(),
+                    region=(row.get("region") or "").strip() or None,
+                    year_from=int(yf) if yf is not None else None,
+                    year_to=int(yt) if yt is not None else None,
+                    low=_optional_number(row["low"], where),
+                    high=_optional_number(row["high"], where),
+                )
+            )
+    return _resolve(head, variables, regions, countries, reference, bounds, layers)
+
+
+def _resolve(
+    head: dict[str, Any],
+    variables: dict[str, dict[str, Any]],
+    regions: dict[str, dict[str, Any]],
+    countries: bool,
+    reference: dict[tuple[str, str, int], Reference],
+    bounds: list[Bound],
+    layers: list[Path],
+) -> Contract:
+    from milepost.schema.units import Deflator, UnitError, Units
+
+    where = str(layers[-1] / "contract.toml")
+    years = head.get("years", {})
+    try:
+        first, last, base = int(years["first"]), int(years["last"]), int(years["base"])
+        milestones = tuple(int(y) for y in years.get("milestones", ()))
+    except (KeyError, TypeError, ValueError) as e:
+        raise ContractError(f"{where}: [years] needs whole numbers first, last, base (and milestones): {e}") from None
+    tol = head.get("tolerance", {})
+    tolerance = Tolerance(**{k: _number(v, f"{where} [tolerance] {k}") for k, v in tol.items()
+                             if k in Tolerance.__dataclass_fields__})
+    unknown_tol = sorted(set(tol) - set(Tolerance.__dataclass_fields__))
+    if unknown_tol:
+        raise ContractError(f"{where}: [tolerance] has unknown keys {', '.join(unknown_tol)}")
+    units_cfg = head.get("units", {})
+    deflators = tuple(
+        (str(d["from"]), str(d["to"]), _number(d["factor"], f"{where} [[units.deflators]]"))
+        for d in units_cfg.get("deflators", ())
+    )
+    carbon = bool(units_cfg.get("carbon_to_co2", False))
+    gwp_set = str(head.get("gwp", "AR6GWP100"))
+    gwp = _gwp_values(gwp_set)
+    units = Units(tuple(Deflator(*d) for d in deflators), carbon_to_co2=carbon)
+
+    problems: list[str] = []
+    resolved: dict[str, Variable] = {}
+    for name, spec in variables.items():
+        vfile = spec.get("_file", "variables.toml")
+        if "unit" not in spec:
+            raise ContractError(f"{vfile}: [{name}] has no unit")
+        parts = []
+        for p in spec.get("parts", ()):
+            if isinstance(p, str):
+                p = {"variable": p}
+            if not isinstance(p, dict) or "variable" not in p:
+                raise ContractError(f"{vfile}: [{name}] parts must be names or {{variable = ..., factor = ...}}")
+            gas = p.get("gwp")
+            factor = _number(p.get("factor", 1.0), f"{vfile}: [{name}] part {p['variable']} factor")
+            if gas is not None:
+                if gas not in gwp:
+                    problems.append(f"{vfile}: [{name}] part {p['variable']}: no GWP for gas {gas!r} in {gwp_set}")
+                else:
+                    part_spec = variables.get(p["variable"], {})
+                    try:
+                        unit_factor = units.factor(units.as_co2e(part_spec.get("unit", ""), gas), spec["unit"])
+                        factor *= gwp[gas] * unit_factor
+                    except UnitError as e:
+                        problems.append(f"{vfile}: [{name}] part {p['variable']}: {e}")
+            parts.append(Part(str(p["variable"]), factor, gas))
+        resolved[name] = Variable(
+            name=name,
+            unit=str(spec["unit"]),
+            description=str(spec.get("description", "")),
+            required=bool(spec.get("required", False)),
+            sign=str(spec.get("sign", "any")),
+            regions=str(spec.get("regions", "sum")),
+            parts=tuple(parts),
+        )
+    resolved_regions = {
+        name: Region(name, tuple(str(x) for x in spec.get("parts", ())), str(spec.get("description", "")))
+        for name, spec in regions.items()
+    }
+    severity = {str(k): str(v) for k, v in head.get("severity", {}).items()}
+    contract = Contract(
+        name=str(head.get("name", layers[-1].name)),
+        description=str(head.get("description", "")),
+        sources=tuple(str(p) for p in layers),
+        first_year=first,
+        last_year=last,
+        base_year=base,
+        milestones=milestones,
+        required_regions=tuple(years.get("required_regions", ("World",))),
+        variables=resolved,
+        regions=resolved_regions,
+        countries=countries,
+        tolerance=tolerance,
+        gwp_set=gwp_set,
+        gwp=gwp,
+        discount_rate=_number(head.get("discount_rate", 5.0), f"{where} discount_rate"),
+        carbon_to_co2=carbon,
+        deflators=deflators,
+        severity=severity,
+        reference=tuple(reference.values()),
+        bounds=tuple(bounds),
+        problems=tuple(problems),
+        units=units,
+    )
+    payload = {k: v for k, v in contract.to_dict().items() if k not in ("hash", "sources")}
+    digest = hashlib.sha256(json.dumps(payload, sort_keys=True, separators=(",", ":")).encode()).hexdigest()
+    object.__setattr__(contract, "hash", digest)
+    return contract

@@ -1,0 +1,157 @@
+"""Units of the contract: a pint registry where gas species and currency years are dimensions of their own.
+
+Mt CO2 and Mt CH4 never convert into each other, CO2e is its own dimension (gases become CO2e only through
+GWP factors in a variable's parts), carbon converts to CO2 only in the `carbon_to_co2` context, and currencies
+convert across price years only through deflators the contract gives.
+"""
+
+from __future__ import annotations
+
+import functools
+import re
+from dataclasses import dataclass
+from typing import Any
+
+# IUPAC/CIAAW 2021 abridged standard atomic weights: C 12.011, O 15.999 -> M(CO2) = 44.009.
+ATOMIC_WEIGHT_C = 12.011
+MOLAR_MASS_CO2 = 44.009
+CO2_PER_C = MOLAR_MASS_CO2 / ATOMIC_WEIGHT_C
+
+SPECIES = {
+    "CO2e": "carbon_dioxide_equivalent",
+    "CO2": "carbon_dioxide",
+    "CH4": "methane",
+    "N2O": "nitrous_oxide",
+    "C": "carbon",
+}
+CARBON_CONTEXT = "carbon_to_co2"
+
+_CURRENCY = re.compile(r"(?:US\$|USD)[ _]?((?:19|20)\d\d)")
+_CO2E = re.compile(r"CO2[-_ ]?(?:equiv(?:alent)?|eq|e)\b", re.IGNORECASE)
+_MASS_SPECIES = re.compile(r"\b([kMGT]?t)(CO2e|CO2|CH4|N2O|C)\b")
+_PER_YEAR = re.compile(r"/\s*(?:year|a)\b")
+
+
+class UnitError(ValueError):
+    """A unit string that cannot be parsed or converted."""
+
+
+def normalise(unit: str) -> str:
+    """Rewrite common spellings into the contract's own: `MtCO2/yr` -> `Mt CO2/yr`, `US$2015` -> `USD_2015`."""
+    s = " ".join(str(unit).split())
+    s = _CURRENCY.sub(lambda m: f"USD_{m.group(1)}", s)
+    s = _CO2E.sub("CO2e", s)
+    s = _MASS_SPECIES.sub(r"\1 \2", s)
+    s = _PER_YEAR.sub("/yr", s)
+    s = re.sub(r"\s*/\s*", "/", s)
+    return s
+
+
+def _group_denominators(s: str) -> str:
+    # pint binds "USD_2015/t CO2" as USD_2015 * CO2 / t; a unit string means everything after "/" is below.
+    if "(" in s or "/" not in s:
+        return s
+    head, *tails = s.split("/")
+    return head + "".join(f"/({t.strip()})" for t in tails)
+
+
+def _currency_years(units: tuple[str, ...]) -> set[str]:
+    return {m.group(0) for u in units for m in re.finditer(r"USD_\d{4}", u)}
+
+
+@dataclass(frozen=True)
+class Deflator:
+    """`1 source` = `factor` `target`, e.g. 1 USD_2010 = 1.1 USD_2015."""
+
+    source: str
+    target: str
+    factor: float
+
+
+class Units:
+    """A unit registry for one contract: parsing, compatibility and conversion factors."""
+
+    def __init__(self, deflators: tuple[Deflator, ...] = (), carbon_to_co2: bool = False) -> None:
+        import pint
+
+        self.pint = pint
+        self.carbon_to_co2 = carbon_to_co2
+        reg = pint.UnitRegistry(
+            on_redefinition="ignore", preprocessors=[_group_denominators], cache_folder=None
+        )
+        for symbol, name in SPECIES.items():
+            reg.define(f"{name} = [{name}] = {symbol}")
+        for d in ("kilotonne = 1e3 * tonne = kt", "billion = 1e9", "million = 1e6", "thousand = 1e3"):
+            reg.define(d)
+        self._currencies: set[str] = set()
+        for d in deflators:
+            self._ensure_currency(reg, d.target)
+            reg.define(f"{d.source} = {d.factor!r} * {d.target}")
+            self._currencies.add(d.source)
+        self.reg = reg
+        self._context: tuple[str, ...] = ()
+        if carbon_to_co2:
+            ctx = pint.Context(CARBON_CONTEXT)
+            self._ctx = ctx
+            reg.add_context(ctx)
+            self._context = (CARBON_CONTEXT,)
+
+    def _ensure_currency(self, reg: Any, code: str) -> None:
+        if code not in self._currencies:
+            reg.define(f"{code} = [currency_{code}]")
+            self._currencies.add(code)
+
+    def _prepare(self, *units: str) -> None:
+        for code in sorted(_currency_years(units)):
+            self._ensure_currency(self.reg, code)
+        if self.carbon_to_co2:
+            for u in units:
+                self._add_carbon_pair(u)
+
+    def _add_carbon_pair(self, unit: str) -> None:
+        # pint contexts map whole dimensionalities, so each unit shape that carries carbon gets its own pair.
+        dim = self.reg.parse_units(unit).dimensionality
+        for a, b, f in (("[carbon]", "[carbon_dioxide]", CO2_PER_C), ("[carbon_dioxide]", "[carbon]", 1 / CO2_PER_C)):
+            k = dim.get(a, 0)
+            if k:
+                src, dst = dim, dim.remove([a]).add(b, k)
+                self._ctx.add_transformation(src, dst, lambda reg, q, f=f, k=k: q * f**k)
+                self._ctx.add_transformation(dst, src, lambda reg, q, f=f, k=k: q / f**k)
+
+    def parse(self, unit: str) -> Any:
+        """The pint unit of a (normalised) unit string; raises UnitError if it is unknown or malformed."""
+        s = normalise(unit)
+        try:
+            self._prepare(s)
+            return self.reg.parse_units(s)
+        except (self.pint.errors.PintError, TypeError, ValueError, AttributeError, SyntaxError) as e:
+            raise UnitError(f"unknown unit {unit!r}: {e}") from None
+
+    @functools.lru_cache(maxsize=4096)  # noqa: B019 - one registry per contract, kept for the process
+    def factor(self, source: str, target: str) -> float:
+        """Multiply values in `source` by this to get `target`; raises UnitError if they do not convert."""
+        src, dst = self.parse(source), self.parse(target)
+        try:
+            return float(self.reg.Quantity(1.0, src).to(dst, *self._context).magnitude)
+        except self.pint.errors.DimensionalityError:
+            raise UnitError(f"{source!r} does not convert to {target!r}") from None
+
+    def compatible(self, source: str, target: str) -> bool:
+        """True if `source` converts into `target` under this contract."""
+        try:
+            self.factor(source, target)
+        except UnitError:
+            return False
+        return True
+
+    def dimensionality(self, unit: str) -> dict[str, float]:
+        """The dimensions of a unit, e.g. {'[carbon_dioxide]': 1, '[mass]': 1, '[time]': -1}."""
+        return dict(self.parse(unit).dimensionality)
+
+    def as_co2e(self, unit: str, gas: str) -> str:
+        """The unit string with the gas symbol replaced by CO2e: `kt N2O/yr` -> `kt CO2e/yr`."""
+        s = normalise(unit)
+        out = re.sub(rf"\b{re.escape(gas)}\b", "CO2e", s)
+        if out == s and gas != "CO2e":
+            raise UnitError(f"unit {unit!r} does not name the gas {gas}")
+        return out

@@ -1,0 +1,87 @@
+"""Structure: files that cannot be read, missing or unexpected columns, and cells that are empty or not numbers."""
+
+from __future__ import annotations
+
+from milepost.validate.checks.context import Context, sql_str
+from milepost.validate.findings import Finding, shorten
+from milepost.validate.readers import KEY_TEXT, LONG_COLUMNS, MISSING_TOKENS
+
+_MISSING = "(" + ", ".join(sql_str(t) for t in MISSING_TOKENS) + ")"
+_ROW = "path, sheet, line, model, scenario, region, variable, unit, year"
+
+
+def file_findings(ctx: Context) -> list[Finding]:
+    """unreadable-file, missing-column, unexpected-column: one finding per file (or per unparseable line)."""
+    out: list[Finding] = []
+    for inp in ctx.inputs:
+        if inp.kind == "unreadable":
+            out.append(Finding("unreadable-file", "error", path=inp.path, line=inp.error_line,
+                               message=f"cannot read {inp.path}: {inp.error}",
+                               hint="Save the table as CSV (UTF-8), XLSX or Parquet in long format with columns "
+                                    + ", ".join(LONG_COLUMNS) + "."))
+            continue
+        for line, why in inp.rejects:
+            out.append(Finding("unreadable-file", "error", path=inp.path, line=line,
+                               message=f"line {line} cannot be split into columns: {why}",
+                               hint="Check quoting and the number of delimiters on this line."))
+        if inp.missing_columns:
+            found = list(inp.columns.values()) + inp.extra_columns
+            hint = "Name the columns " + ", ".join(LONG_COLUMNS) + " (case and spaces do not matter)."
+            if len(found) == 1:
+                hint += " The header has a single column: is the delimiter a comma, semicolon or tab?"
+            out.append(Finding("missing-column", "error", path=inp.path, line=1, sheet=inp.sheet,
+                               value=shorten(found), expected=", ".join(LONG_COLUMNS),
+                               message=f"{inp.path} has no column {', '.join(inp.missing_columns)}; "
+                                       f"its header is: {shorten(found)}",
+                               hint=hint))
+        if inp.extra_columns and inp.kind == "data":
+            out.append(Finding("unexpected-column", "warning", path=inp.path, line=1, sheet=inp.sheet,
+                               value=shorten(inp.extra_columns), expected=", ".join(LONG_COLUMNS),
+                               message=f"column(s) {shorten(inp.extra_columns)} are not part of the long format "
+                                       "and were ignored",
+                               hint="Move scenario attributes into a scenarios table (model, scenario, ...)."))
+    return out
+
+
+def check_missing_cells(ctx: Context) -> list[str]:
+    """missing-value: an empty key cell, an empty year, or a value that is empty or a 'no value' token."""
+    key_tests = [f"SELECT {_ROW}, {sql_str(c)} AS col, NULL AS raw FROM obs WHERE {c} IS NULL OR trim({c}) = ''" for c in KEY_TEXT]
+    year_test = f"SELECT {_ROW}, 'year' AS col, NULL AS raw FROM obs WHERE year IS NULL AND (year_raw IS NULL OR year_raw = '')"
+    value_test = (f"SELECT {_ROW}, 'value' AS col, value_raw AS raw FROM obs WHERE value IS NULL "
+                  f"AND (value_raw IS NULL OR lower(value_raw) IN {_MISSING})")
+    union = " UNION ALL ".join([*key_tests, year_test, value_test])
+    return [
+        f"SELECT 'missing-value' AS rule, {_ROW}, "
+        "CASE WHEN raw IS NULL OR trim(raw) = '' THEN 'empty ' || col || ' cell' "
+        "ELSE col || ' ' || raw || ' marks a missing value' END AS message, raw AS value, 'a ' || col AS expected, "
+        "CASE WHEN col = 'value' THEN 'Leave out rows without a value, or fill it in.' "
+        "ELSE 'Fill in the ' || col || ' of this row.' END AS hint "
+        f"FROM ({union})"
+    ]
+
+
+def check_bad_year(ctx: Context) -> list[str]:
+    """bad-year: a year that is not a whole number, or outside the contract's year range."""
+    c = ctx.contract
+    rng = f"{c.first_year}–{c.last_year}"
+    return [
+        f"SELECT 'bad-year' AS rule, {_ROW}, year_raw AS value, 'a whole year in {rng}' AS expected, "
+        "'year ' || year_raw || ' is not a whole number' AS message, "
+        "'Write years as whole numbers, e.g. 2030.' AS hint "
+        "FROM obs WHERE year IS NULL AND year_raw IS NOT NULL AND year_raw <> ''",
+        f"SELECT 'bad-year' AS rule, {_ROW}, CAST(year AS VARCHAR) AS value, '{rng}' AS expected, "
+        f"'year ' || year || ' is outside the contract''s range {rng}' AS message, "
+        f"'Report only the years {rng}.' AS hint "
+        f"FROM obs WHERE year NOT BETWEEN {c.first_year} AND {c.last_year}",
+    ]
+
+
+def check_bad_value(ctx: Context) -> list[str]:
+    """bad-value: a value that is text, infinite or too large for a double."""
+    return [
+        f"SELECT 'bad-value' AS rule, {_ROW}, value_raw AS value, 'a finite number' AS expected, "
+        "'value ' || value_raw || ' is not a finite number' AS message, "
+        "CASE WHEN TRY_CAST(value_raw AS DOUBLE) IS NOT NULL THEN 'Infinite or overflowing values cannot be "
+        "compared; check the model output.' ELSE 'Use a plain number with a decimal point, e.g. 1234.5.' END AS hint "
+        f"FROM obs WHERE value IS NULL AND value_raw IS NOT NULL AND lower(value_raw) NOT IN {_MISSING}"
+    ]

@@ -1,0 +1,60 @@
+"""Units: a unit that does not convert into the contract's (error), or one that does and was converted (warning).
+
+Units are compared once per distinct (variable, unit) pair, not per row; the resulting `unit_map` table gives the
+factor the runner multiplies values by when it builds `checked`.
+"""
+
+from __future__ import annotations
+
+from milepost.schema.units import UnitError, normalise
+from milepost.validate.checks.context import Context
+
+_ROW = "o.path, o.sheet, o.line, o.model, o.scenario, o.region, o.variable, o.unit, o.year"
+
+
+def build_unit_map(ctx: Context) -> None:
+    """TEMP table unit_map(variable, unit, factor, status, target, why): status same|spelling|converted|wrong."""
+    pairs = ctx.con.execute(
+        "SELECT DISTINCT o.variable, o.unit FROM obs o JOIN c_variables v ON o.variable = v.variable "
+        "WHERE o.unit IS NOT NULL AND trim(o.unit) <> ''").fetchall()
+    units = ctx.contract.units
+    rows = []
+    for variable, unit in pairs:
+        target = ctx.contract.variables[variable].unit
+        if unit == target:
+            rows.append((variable, unit, 1.0, "same", target, None))
+            continue
+        try:
+            factor = units.factor(unit, target)
+        except UnitError as e:
+            rows.append((variable, unit, None, "wrong", target, str(e)))
+            continue
+        spelling = normalise(unit) == normalise(target) or (abs(factor - 1.0) < 1e-12 and
+                                                            units.parse(unit) == units.parse(target))
+        rows.append((variable, unit, factor, "spelling" if spelling else "converted", target, None))
+    ctx.con.execute("CREATE OR REPLACE TEMP TABLE unit_map (variable VARCHAR, unit VARCHAR, factor DOUBLE, "
+                    "status VARCHAR, target VARCHAR, why VARCHAR)")
+    if rows:
+        ctx.con.executemany("INSERT INTO unit_map VALUES (?, ?, ?, ?, ?, ?)", rows)
+
+
+def check_units(ctx: Context) -> list[str]:
+    """wrong-unit (does not convert) and converted-unit (converts; a note when only the spelling differs)."""
+    build_unit_map(ctx)
+    return [
+        f"SELECT 'wrong-unit' AS rule, {_ROW}, o.unit AS value, m.target AS expected, "
+        "'unit ' || o.unit || ' does not convert to ' || m.target || ' (' || o.variable || ')' AS message, "
+        "'Report ' || o.variable || ' in ' || m.target || '.' AS hint "
+        "FROM obs o JOIN unit_map m USING (variable, unit) WHERE m.status = 'wrong'",
+        # One finding per file and (variable, unit): a file reported in Gt instead of Mt is one fact, not 10,000.
+        "SELECT 'converted-unit' AS rule, CASE WHEN any_value(m.status) = 'spelling' THEN 'note' END AS severity, "
+        "o.path, any_value(o.sheet) AS sheet, min(o.line) AS line, o.variable, o.unit, o.unit AS value, "
+        "any_value(m.target) AS expected, "
+        "CASE WHEN any_value(m.status) = 'spelling' THEN 'unit ' || o.unit || ' read as ' || any_value(m.target) "
+        "ELSE 'unit ' || o.unit || ' converted to ' || any_value(m.target) || ' (factor ' "
+        "|| printf('%.6g', any_value(m.factor)) || ')' END || ' in ' || count(*) || ' row(s) from line ' "
+        "|| min(o.line) AS message, 'Report ' || o.variable || ' in ' || any_value(m.target) "
+        "|| ' to avoid the conversion.' AS hint "
+        "FROM obs o JOIN unit_map m USING (variable, unit) WHERE m.status IN ('spelling', 'converted') "
+        "GROUP BY o.path, o.variable, o.unit",
+    ]

@@ -1,0 +1,79 @@
+"""`milepost check` and `milepost rules`: check submission files against a contract and report the findings."""
+
+from __future__ import annotations
+
+import sys
+from enum import Enum
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from milepost.validate.cli_common import EXIT_FINDINGS, EXIT_OK, ContractOption, fail, handle_errors, load_contract
+
+
+class Format(str, Enum):
+    text = "text"
+    json = "json"
+    xlsx = "xlsx"
+
+
+class FailOn(str, Enum):
+    error = "error"
+    warning = "warning"
+
+
+@handle_errors
+def check(
+    files: Annotated[list[Path], typer.Argument(help="Submission files: CSV/TSV, XLSX or Parquet data tables, "
+                                                     "and optionally a scenarios table.", show_default=False)],
+    contract: ContractOption = None,
+    fmt: Annotated[Format, typer.Option("--format", "-f", help="Report format.")] = Format.text,
+    output: Annotated[Path | None, typer.Option("--output", "-o", help="Write the report here (xlsx needs it; "
+                                                "text and json default to standard output).", dir_okay=False)] = None,
+    fail_on: Annotated[FailOn, typer.Option("--fail-on", help="Exit 1 when findings of this severity (or worse) "
+                                            "exist.")] = FailOn.error,
+    limit: Annotated[int, typer.Option(help="Findings shown in the text report.", min=0)] = 200,
+) -> None:
+    """Check submission files against the contract. Exit 0: passed; 1: findings at the fail level; 2: usage error."""
+    from milepost.validate.reports import print_text, to_json, to_xlsx, to_text
+    from milepost.validate.runner import run_check
+
+    c = load_contract(contract)
+    if fmt is Format.xlsx and output is None:
+        fail("--format xlsx needs --output FILE.xlsx")
+    result = run_check(files, c, progress=True)
+    if fmt is Format.json:
+        text = to_json(result, fail_on.value)
+        if output:
+            output.write_text(text + "\n", encoding="utf-8")
+        else:
+            sys.stdout.write(text + "\n")
+    elif fmt is Format.xlsx:
+        assert output is not None
+        to_xlsx(result, output, fail_on.value)
+        typer.echo(f"wrote {output}", err=True)
+    if fmt is Format.text:
+        if output:
+            output.write_text("\n".join(to_text(result, fail_on.value, limit)) + "\n", encoding="utf-8")
+        else:
+            print_text(result, fail_on.value, limit)
+    elif output is not None or fmt is Format.json:
+        verdict = "passed" if result.passed(fail_on.value) else "failed"
+        typer.echo(f"{verdict}: {result.counts['error']} errors, {result.counts['warning']} warnings, "
+                   f"{result.counts['note']} notes in {result.rows} rows", err=True)
+    raise typer.Exit(EXIT_OK if result.passed(fail_on.value) else EXIT_FINDINGS)
+
+
+def rules() -> None:
+    """List every rule id with its default severity and meaning."""
+    from milepost.validate.findings import RULES
+
+    for r in RULES.values():
+        typer.echo(f"{r.id:<22}{r.severity:<9}{r.category:<10}{r.summary}")
+
+
+def register(app: typer.Typer) -> None:
+    """Add `check` and `rules` to the app."""
+    app.command("check")(check)
+    app.command("rules")(rules)

@@ -1,0 +1,92 @@
+"""`milepost contract lint|show|template`: inspect a contract folder."""
+
+from __future__ import annotations
+
+import json
+from enum import Enum
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from milepost.validate.cli_common import EXIT_FINDINGS, EXIT_OK, fail, handle_errors, load_contract
+
+contract_app = typer.Typer(help="Inspect a contract: lint it, show it resolved, or write a submission template.",
+                           no_args_is_help=True)
+DirArg = Annotated[Path | None, typer.Argument(help="Contract folder (default: the core contract).",
+                                               file_okay=False, show_default=False)]
+
+
+class ShowFormat(str, Enum):
+    text = "text"
+    json = "json"
+
+
+@contract_app.command("lint")
+@handle_errors
+def lint_cmd(directory: DirArg = None) -> None:
+    """Find cycles in parts, parts whose units do not match their total, unknown units and bad references."""
+    from milepost.validate.contract_lint import lint
+    from milepost.validate.reports import finding_line
+
+    c = load_contract(directory, strict=False)
+    problems = lint(c)
+    for p in problems:
+        typer.echo(finding_line(p))
+    if problems:
+        typer.echo(f"FAILED: contract {c.name} has {len(problems)} problem(s)")
+        raise typer.Exit(EXIT_FINDINGS)
+    typer.echo(f"PASSED: contract {c.name} ({c.hash[:12]}): {len(c.variables)} variables, {len(c.regions)} regions, "
+               f"{len(c.reference)} reference values, {len(c.bounds)} bounds")
+    raise typer.Exit(EXIT_OK)
+
+
+@contract_app.command("show")
+@handle_errors
+def show_cmd(directory: DirArg = None,
+             fmt: Annotated[ShowFormat, typer.Option("--format", "-f")] = ShowFormat.text) -> None:
+    """Print the resolved contract (after `extends`), with its hash."""
+    c = load_contract(directory, strict=False)
+    if fmt is ShowFormat.json:
+        typer.echo(json.dumps(c.to_dict(), indent=2, ensure_ascii=False))
+        return
+    typer.echo(f"contract {c.name}  hash {c.hash}")
+    typer.echo(f"  {c.description}")
+    typer.echo(f"  sources: {' <- '.join(c.sources)}")
+    typer.echo(f"  years {c.first_year}–{c.last_year}, base {c.base_year}, milestones "
+               f"{', '.join(map(str, c.milestones))}; required in {', '.join(c.required_regions)}")
+    t = c.tolerance
+    typer.echo(f"  tolerance: sums ±{t.sum_relative * 100:g} % (floor {t.sum_absolute:g}), base year "
+               f"±{t.base_year_relative * 100:g} %; GWP set {c.gwp_set}; discount rate {c.discount_rate:g} %/yr")
+    typer.echo("")
+    typer.echo(f"{'variable':<34}{'unit':<22}{'req':<5}{'sign':<14}{'regions':<8}parts")
+    for v in c.variables.values():
+        parts = ", ".join(p.variable + (f" ×{p.factor:g}" if p.factor != 1 else "") for p in v.parts)
+        typer.echo(f"{v.name:<34}{v.unit:<22}{'yes' if v.required else '':<5}{v.sign:<14}{v.regions:<8}{parts}")
+    typer.echo("")
+    for r in c.regions.values():
+        typer.echo(f"region {r.name}" + (f" = {' + '.join(r.parts)}" if r.parts else ""))
+    if c.countries:
+        typer.echo("regions may also be ISO 3166-1 alpha-3 country codes")
+
+
+@contract_app.command("template")
+@handle_errors
+def template_cmd(
+    directory: DirArg = None,
+    output: Annotated[Path, typer.Option("--output", "-o", help="FILE.xlsx (with drop-down lists) or FILE.csv.",
+                                         dir_okay=False)] = Path("submission-template.xlsx"),
+) -> None:
+    """Write an empty long-format submission template for the contract."""
+    from milepost.validate.template import write_template
+
+    if output.suffix.lower() not in (".xlsx", ".csv"):
+        fail(f"{output}: the template is written as .xlsx or .csv")
+    c = load_contract(directory)
+    write_template(c, output)
+    typer.echo(f"wrote {output} for contract {c.name}")
+
+
+def register(app: typer.Typer) -> None:
+    """Add the `contract` command group."""
+    app.add_typer(contract_app, name="contract")
