@@ -310,7 +310,8 @@ def _resolve(
     carbon = bool(units_cfg.get("carbon_to_co2", False))
     gwp_set = str(head.get("gwp", "AR6GWP100"))
     gwp = _gwp_values(gwp_set)
-    units = Units(tuple(Deflator(*d) for d in deflators), carbon_to_co2=carbon)
+    shapes = tuple(sorted({str(spec.get("unit", "")) for spec in variables.values() if "CO2" in str(spec.get("unit"))}))
+    units = Units(tuple(Deflator(*d) for d in deflators), carbon_to_co2=carbon, shapes=shapes)
 
     problems: list[str] = []
     resolved: dict[str, Variable] = {}

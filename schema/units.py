@@ -71,7 +71,9 @@ class Deflator:
 class Units:
     """A unit registry for one contract: parsing, compatibility and conversion factors."""
 
-    def __init__(self, deflators: tuple[Deflator, ...] = (), carbon_to_co2: bool = False) -> None:
+    def __init__(self, deflators: tuple[Deflator, ...] = (), carbon_to_co2: bool = False,
+                 shapes: tuple[str, ...] = ("Mt CO2/yr", "t CO2", "USD_2015/t CO2")) -> None:
+        """`shapes`: units (usually the contract's) whose carbon counterparts may convert when carbon_to_co2 is on."""
         import pint
 
         self.pint = pint
@@ -91,8 +93,20 @@ class Units:
         self.reg = reg
         self._context: tuple[str, ...] = ()
         if carbon_to_co2:
+            # pint fixes a context's graph when it is added, so every unit shape is given its pair up front.
             ctx = pint.Context(CARBON_CONTEXT)
-            self._ctx = ctx
+            seen = set()
+            for u in shapes:
+                self._prepare(u)
+                dim = reg.parse_units(normalise(u)).dimensionality
+                # The factor carries units (C per CO2) so the transformed quantity lands in the target dimension.
+                for a, b, f in (("[carbon_dioxide]", "[carbon]", reg.Quantity(1 / CO2_PER_C, "C/CO2")),):
+                    k = dim.get(a, 0)
+                    if k and dim not in seen:
+                        seen.add(dim)
+                        src, dst = dim, dim.remove([a]).add(b, k)
+                        ctx.add_transformation(src, dst, lambda reg, q, f=f, k=k: q * f**k)
+                        ctx.add_transformation(dst, src, lambda reg, q, f=f, k=k: q / f**k)
             reg.add_context(ctx)
             self._context = (CARBON_CONTEXT,)
 
@@ -104,19 +118,6 @@ class Units:
     def _prepare(self, *units: str) -> None:
         for code in sorted(_currency_years(units)):
             self._ensure_currency(self.reg, code)
-        if self.carbon_to_co2:
-            for u in units:
-                self._add_carbon_pair(u)
-
-    def _add_carbon_pair(self, unit: str) -> None:
-        # pint contexts map whole dimensionalities, so each unit shape that carries carbon gets its own pair.
-        dim = self.reg.parse_units(unit).dimensionality
-        for a, b, f in (("[carbon]", "[carbon_dioxide]", CO2_PER_C), ("[carbon_dioxide]", "[carbon]", 1 / CO2_PER_C)):
-            k = dim.get(a, 0)
-            if k:
-                src, dst = dim, dim.remove([a]).add(b, k)
-                self._ctx.add_transformation(src, dst, lambda reg, q, f=f, k=k: q * f**k)
-                self._ctx.add_transformation(dst, src, lambda reg, q, f=f, k=k: q / f**k)
 
     def parse(self, unit: str) -> Any:
         """The pint unit of a (normalised) unit string; raises UnitError if it is unknown or malformed."""

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import sys
-from enum import Enum
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated
 
@@ -12,13 +12,13 @@ import typer
 from milepost.validate.cli_common import EXIT_FINDINGS, EXIT_OK, ContractOption, fail, handle_errors, load_contract
 
 
-class Format(str, Enum):
+class Format(StrEnum):
     text = "text"
     json = "json"
     xlsx = "xlsx"
 
 
-class FailOn(str, Enum):
+class FailOn(StrEnum):
     error = "error"
     warning = "warning"
 
@@ -36,7 +36,7 @@ def check(
     limit: Annotated[int, typer.Option(help="Findings shown in the text report.", min=0)] = 200,
 ) -> None:
     """Check submission files against the contract. Exit 0: passed; 1: findings at the fail level; 2: usage error."""
-    from milepost.validate.reports import print_text, to_json, to_xlsx, to_text
+    from milepost.validate.reports import print_text, to_json, to_text, to_xlsx
     from milepost.validate.runner import run_check
 
     c = load_contract(contract)

@@ -60,6 +60,8 @@ def load_contract(path: Path | None, *, strict: bool = True) -> Contract:
         problems = lint(contract)
         if problems:
             first = problems[0].message
-            more = f" (and {len(problems) - 1} more; run `milepost contract lint {path or ''}`)" if len(problems) > 1 else ""
+            more = ""
+            if len(problems) > 1:
+                more = f" (and {len(problems) - 1} more; run `milepost contract lint {path or ''}`)"
             fail(f"the contract {contract.name} is invalid: {first}{more}")
     return contract

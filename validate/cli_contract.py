@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import json
-from enum import Enum
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated
 
@@ -17,7 +17,7 @@ DirArg = Annotated[Path | None, typer.Argument(help="Contract folder (default: t
                                                file_okay=False, show_default=False)]
 
 
-class ShowFormat(str, Enum):
+class ShowFormat(StrEnum):
     text = "text"
     json = "json"
 

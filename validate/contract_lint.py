@@ -82,7 +82,8 @@ def lint(contract: Contract) -> list[Finding]:
         out.append(_f("contract-cycle", "variables are parts of themselves: " + " -> ".join(cyc), path=src))
     for cyc in _cycles({r.name: r.parts for r in contract.regions.values()}):
         out.append(_f("contract-cycle", "regions are parts of themselves: " + " -> ".join(cyc), path=src))
-    isos = iso3_codes() if any(len(p) == 3 and p.isupper() for r in contract.regions.values() for p in r.parts) else set()
+    uses_codes = any(len(p) == 3 and p.isupper() for r in contract.regions.values() for p in r.parts)
+    isos = iso3_codes() if uses_codes else frozenset()
     for r in contract.regions.values():
         for p in r.parts:
             if p not in contract.regions and p not in isos:

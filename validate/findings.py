@@ -10,7 +10,7 @@ SEVERITIES = ("error", "warning", "note")
 
 @dataclass(frozen=True)
 class Rule:
-    """A check rule: its stable id, default severity, whether it concerns the contract or the data, and what it means."""
+    """A check rule: stable id, default severity, whether it concerns the contract or the data, and its meaning."""
 
     id: str
     severity: str
@@ -24,6 +24,7 @@ RULES: dict[str, Rule] = {
         Rule("unreadable-file", "error", "data", "The file cannot be read as a table (format, encoding, damage)."),
         Rule("missing-column", "error", "data", "A required column (model, scenario, region, variable, unit, year, "
              "value) is absent."),
+        Rule("empty-table", "error", "data", "The file has a header but no data rows."),
         Rule("unexpected-column", "warning", "data", "A column the long format does not have; it is ignored."),
         Rule("bad-year", "error", "data", "The year is not a whole number inside the contract's year range."),
         Rule("bad-value", "error", "data", "The value is not a finite number."),

@@ -166,6 +166,9 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
         inp.rows = len(inp.scenarios)
         return
     _set_columns(inp, found, extra)
+    # Positional names: DuckDB trims and dedupes header names, which would break the case/space-insensitive match.
+    positional = [f"c{i}" for i in range(len(d.header))]
+    by_position = {k: positional[d.header.index(v)] for k, v in found.items()}
     if d.encoding == "latin-1":
         inp.notes.append("read as Latin-1 (not valid UTF-8)")
     if d.decimal_comma:
@@ -177,16 +180,19 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
     src = (
         f"read_csv({_sql_str(str(path))}, header = true, all_varchar = true, delim = {_sql_str(d.delimiter)}, "
         f"encoding = {_sql_str(d.encoding)}, store_rejects = true, rejects_table = {_sql_str(rejects)}, "
-        f"rejects_scan = {_sql_str(rejects + '_scan')}, strict_mode = false)"
+        f"rejects_scan = {_sql_str(rejects + '_scan')}, "
+        f"names = [{', '.join(_sql_str(p) for p in positional)}])"
     )
-    con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(found, src, 'NULL::BIGINT', d.decimal_comma)}")
-    bad = con.execute(f"SELECT line, error_message FROM {rejects} ORDER BY line").fetchall()
+    con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS "
+                f"{_typed_select(by_position, src, 'NULL::BIGINT', d.decimal_comma)}")
+    bad = con.execute(f"SELECT line, string_agg(DISTINCT error_message, '; ') FROM {rejects} GROUP BY line "
+                      "ORDER BY line").fetchall()
     inp.rejects = [(int(line), str(msg)) for line, msg in bad]
     # Rows are stored in file order, so the row id gives the line; rejected lines shift the rows after them.
     con.execute(f"UPDATE {table} SET line = rowid + 2")
     if inp.rejects:
         con.execute(f"CREATE TEMP TABLE {table}_shift AS SELECT line - (row_number() OVER (ORDER BY line) - 1) AS at "
-                    f"FROM {rejects}")
+                    f"FROM (SELECT DISTINCT line FROM {rejects})")
         con.execute(f"UPDATE {table} SET line = line + (SELECT count(*) FROM {table}_shift s WHERE s.at <= line)")
     inp.rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]
 

@@ -106,7 +106,8 @@ def print_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LI
         console.print(marked)
 
 
-def _raw_rows(result: CheckResult, path: str, sheet: str | None, limit: int) -> tuple[list[str], list[tuple[int, list]]]:
+def _raw_rows(result: CheckResult, path: str, sheet: str | None,
+             limit: int) -> tuple[list[str], list[tuple[int, list]]]:
     """Header and (line, cells) of a submission file as it stands, for the highlighted copy."""
     p = Path(path)
     if p.suffix.lower() in (".xlsx", ".xlsm"):
@@ -124,17 +125,24 @@ def _raw_rows(result: CheckResult, path: str, sheet: str | None, limit: int) -> 
         finally:
             wb.close()
         return header, rows
-    con = result.con
     if p.suffix.lower() in (".parquet", ".pq"):
-        rel = con.execute(f"SELECT * FROM read_parquet(?) LIMIT {limit}", [str(p)])
-    else:
-        from milepost.validate.readers import sniff_csv
+        rel = result.con.execute(f"SELECT * FROM read_parquet(?) LIMIT {limit}", [str(p)])
+        return [d[0] for d in rel.description], [(n, list(r)) for n, r in enumerate(rel.fetchall(), start=2)]
+    import csv
 
-        d = sniff_csv(p)
-        rel = con.execute(f"SELECT * FROM read_csv(?, header = true, all_varchar = true, delim = ?, encoding = ?, "
-                          f"strict_mode = false, ignore_errors = true) LIMIT {limit}", [str(p), d.delimiter, d.encoding])
-    header = [d[0] for d in rel.description]
-    return header, [(n, list(r)) for n, r in enumerate(rel.fetchall(), start=2)]
+    from milepost.validate.readers import sniff_csv
+
+    d = sniff_csv(p)
+    # The csv module keeps physical line numbers (reader.line_num), so the copy's rows are the file's lines.
+    with p.open(encoding="utf-8-sig" if d.encoding == "utf-8" else d.encoding, newline="") as f:
+        reader = csv.reader(f, delimiter=d.delimiter)
+        header = next(reader, [])
+        rows = []
+        for cells in reader:
+            if len(rows) >= limit:
+                break
+            rows.append((reader.line_num, cells))
+    return header, rows
 
 
 def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Path:
@@ -148,7 +156,8 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
     ws = wb.active
     ws.title = "summary"
     s = summary(result, fail_on)
-    for row in (["milepost", result.version], ["contract", result.contract.name], ["contract hash", result.contract.hash],
+    for row in (["milepost", result.version], ["contract", result.contract.name],
+                ["contract hash", result.contract.hash],
                 ["verdict", "PASSED" if s["passed"] else "FAILED"], ["rows", s["rows"]], ["errors", s["errors"]],
                 ["warnings", s["warnings"]], ["notes", s["notes"]], [], ["input", "kind", "rows", "sha256"]):
         ws.append(row)

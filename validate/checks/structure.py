@@ -11,7 +11,7 @@ _ROW = "path, sheet, line, model, scenario, region, variable, unit, year"
 
 
 def file_findings(ctx: Context) -> list[Finding]:
-    """unreadable-file, missing-column, unexpected-column: one finding per file (or per unparseable line)."""
+    """unreadable-file, missing-column, empty-table, unexpected-column: per file (or per unparseable line)."""
     out: list[Finding] = []
     for inp in ctx.inputs:
         if inp.kind == "unreadable":
@@ -34,6 +34,10 @@ def file_findings(ctx: Context) -> list[Finding]:
                                message=f"{inp.path} has no column {', '.join(inp.missing_columns)}; "
                                        f"its header is: {shorten(found)}",
                                hint=hint))
+        if inp.kind == "data" and inp.rows == 0 and not inp.rejects:
+            out.append(Finding("empty-table", "error", path=inp.path, line=2, sheet=inp.sheet,
+                               expected="at least one data row", message=f"{inp.path} has a header but no data rows",
+                               hint="Export the data rows too, below the header."))
         if inp.extra_columns and inp.kind == "data":
             out.append(Finding("unexpected-column", "warning", path=inp.path, line=1, sheet=inp.sheet,
                                value=shorten(inp.extra_columns), expected=", ".join(LONG_COLUMNS),
@@ -45,8 +49,10 @@ def file_findings(ctx: Context) -> list[Finding]:
 
 def check_missing_cells(ctx: Context) -> list[str]:
     """missing-value: an empty key cell, an empty year, or a value that is empty or a 'no value' token."""
-    key_tests = [f"SELECT {_ROW}, {sql_str(c)} AS col, NULL AS raw FROM obs WHERE {c} IS NULL OR trim({c}) = ''" for c in KEY_TEXT]
-    year_test = f"SELECT {_ROW}, 'year' AS col, NULL AS raw FROM obs WHERE year IS NULL AND (year_raw IS NULL OR year_raw = '')"
+    key_tests = [f"SELECT {_ROW}, {sql_str(c)} AS col, NULL AS raw FROM obs WHERE {c} IS NULL OR trim({c}) = ''"
+                 for c in KEY_TEXT]
+    year_test = (f"SELECT {_ROW}, 'year' AS col, NULL AS raw FROM obs "
+                 "WHERE year IS NULL AND (year_raw IS NULL OR year_raw = '')")
     value_test = (f"SELECT {_ROW}, 'value' AS col, value_raw AS raw FROM obs WHERE value IS NULL "
                   f"AND (value_raw IS NULL OR lower(value_raw) IN {_MISSING})")
     union = " UNION ALL ".join([*key_tests, year_test, value_test])

@@ -41,7 +41,8 @@ def check_sum_of_regions(ctx: Context) -> list[str]:
         "AS detail FROM checked c JOIN c_region_parts rp ON c.region = rp.part "
         "JOIN c_variables v ON c.variable = v.variable WHERE v.regions IN ('sum', 'zero') GROUP BY ALL"
     )
-    full = f"WITH r AS ({grouped}), f AS (SELECT r.* FROM r JOIN c_region_counts k ON r.parent = k.parent AND r.n = k.n) "
+    full = (f"WITH r AS ({grouped}), "
+            "f AS (SELECT r.* FROM r JOIN c_region_counts k ON r.parent = k.parent AND r.n = k.n) ")
     return [
         full + f"SELECT 'sum-of-regions' AS rule, {_T}, {fmt('t.value')} AS value, {fmt('f.expected')} AS expected, "
         "t.region || ' ' || t.variable || ' is ' || " + fmt("t.value") + " || ' but its regions sum to ' || "

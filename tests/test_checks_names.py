@@ -1,0 +1,51 @@
+"""Names family: unknown-region and unknown-variable, with did-you-mean hints."""
+
+from __future__ import annotations
+
+import pytest
+
+from milepost.validate.checks.names import suggest
+
+from builders import consistent_rows, write_csv
+from conftest import rules_at
+
+
+@pytest.mark.parametrize(("bad", "hint"), [("emisions.co2", "emissions.co2"), ("Emissions.CO2", "emissions.co2"),
+                                           ("energy_primary_coal", "energy.primary.coal")])
+def test_unknown_variable_with_hint(tmp_path, basic, check, bad, hint):
+    rows = consistent_rows(basic)
+    rows[20]["variable"] = bad
+    (f,) = rules_at(check(write_csv(tmp_path / "v.csv", rows), basic), "unknown-variable")
+    assert (f.line, f.value, f.expected) == (22, bad, hint)
+    assert f.hint == f"Did you mean {hint}?"
+
+
+def test_unknown_variable_without_close_match(tmp_path, basic, check):
+    rows = consistent_rows(basic)
+    rows[1]["variable"] = "zzz.qqq"
+    (f,) = rules_at(check(write_csv(tmp_path / "v.csv", rows), basic), "unknown-variable")
+    assert f.line == 3 and "contract show" in f.hint
+
+
+@pytest.mark.parametrize(("bad", "hint"), [("Ardenna", "Ardena"), ("world", "World"), ("Belmora ", "Belmora")])
+def test_unknown_region_with_hint(tmp_path, basic, check, bad, hint):
+    rows = consistent_rows(basic)
+    i = next(i for i, r in enumerate(rows) if r["region"] == hint.strip())
+    rows[i]["region"] = bad
+    found = rules_at(check(write_csv(tmp_path / "r.csv", rows), basic), "unknown-region")
+    assert [(f.line, f.value) for f in found] == [(i + 2, bad)]
+    assert found[0].hint == f"Did you mean {hint}?"
+
+
+def test_iso_codes_are_regions_only_where_the_contract_allows(tmp_path, basic, core, check):
+    rows = [r for r in consistent_rows(core) if r["variable"] == "population"]
+    rows.append(dict(rows[0], region="FRA"))
+    assert rules_at(check(write_csv(tmp_path / "a.csv", rows), core), "unknown-region") == []
+    found = rules_at(check(write_csv(tmp_path / "b.csv", rows), basic), "unknown-region")
+    assert [f.value for f in found] == ["FRA"]
+
+
+def test_suggest_prefers_case_and_separator_fixes():
+    assert suggest("GDP.PPP", ["gdp.ppp", "gdp.mer"]) == "gdp.ppp"
+    assert suggest("popultion", ["population", "price.carbon"]) == "population"
+    assert suggest("xyz", ["population"]) is None

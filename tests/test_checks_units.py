@@ -1,0 +1,60 @@
+"""Units family: wrong-unit and converted-unit (values converted with the factor given)."""
+
+from __future__ import annotations
+
+import pytest
+
+from builders import consistent_rows, write_csv
+from conftest import rules_at
+
+
+def _one(rows, variable):
+    return next(i for i, r in enumerate(rows) if r["variable"] == variable and r["region"] == "World")
+
+
+def test_wrong_unit_names_the_contract_unit(tmp_path, basic, check):
+    rows = consistent_rows(basic)
+    i = _one(rows, "emissions.ch4")
+    rows[i]["unit"] = "EJ/yr"
+    result = check(write_csv(tmp_path / "w.csv", rows), basic)
+    (f,) = rules_at(result, "wrong-unit")
+    assert (f.line, f.value, f.expected) == (i + 2, "EJ/yr", "Mt CH4/yr")
+
+
+def test_species_never_convert_into_each_other(tmp_path, basic, check):
+    rows = consistent_rows(basic)
+    i = _one(rows, "emissions.ch4")
+    rows[i]["unit"] = "Mt CO2/yr"
+    (f,) = rules_at(check(write_csv(tmp_path / "s.csv", rows), basic), "wrong-unit")
+    assert f.line == i + 2
+
+
+def test_converted_unit_converts_the_value(tmp_path, basic, check):
+    rows = consistent_rows(basic)
+    idx = [i for i, r in enumerate(rows) if r["variable"] == "emissions.co2.land"]
+    for i in idx:
+        rows[i]["unit"], rows[i]["value"] = "Gt CO2/yr", rows[i]["value"] / 1000
+    result = check(write_csv(tmp_path / "c.csv", rows), basic)
+    (f,) = rules_at(result, "converted-unit")
+    assert (f.severity, f.line, f.value, f.expected) == ("warning", idx[0] + 2, "Gt CO2/yr", "Mt CO2/yr")
+    assert "factor 1000" in f.message and f"{len(idx)} row(s)" in f.message
+    # Converted values add up again: no sum finding.
+    assert rules_at(result, "sum-of-parts") == [] and result.counts["error"] == 0
+
+
+@pytest.mark.parametrize("spelling", ["MtCO2/yr", "Mt CO2 / yr", "Mt CO2/year"])
+def test_spelling_is_a_note(tmp_path, basic, check, spelling):
+    rows = consistent_rows(basic)
+    i = _one(rows, "emissions.co2.land")
+    rows[i]["unit"] = spelling
+    (f,) = rules_at(check(write_csv(tmp_path / "n.csv", rows), basic), "converted-unit")
+    assert (f.severity, f.line) == ("note", i + 2)
+    assert "read as Mt CO2/yr" in f.message
+
+
+def test_currency_year_does_not_convert_without_deflator(tmp_path, basic, check):
+    rows = consistent_rows(basic)
+    i = _one(rows, "gdp.mer")
+    rows[i]["unit"] = "billion USD_2010/yr"
+    (f,) = rules_at(check(write_csv(tmp_path / "d.csv", rows), basic), "wrong-unit")
+    assert f.expected == "billion USD_2015/yr"

@@ -1,0 +1,131 @@
+"""The contract: loading and extends, the JSON shape, GWP100 and ISO 3166 against reference packages, lint."""
+
+from __future__ import annotations
+
+import json
+import shutil
+
+import globalwarmingpotentials as gwp
+import pycountry
+import pytest
+
+from milepost.schema.contract import CORE_DIR, ContractError, iso3_codes, load
+from milepost.validate.contract_lint import lint
+
+from conftest import BASIC_CONTRACT, DEMO_CONTRACT
+
+
+def test_core_has_the_agreed_variables(core):
+    expected = {"emissions.ghg": "Mt CO2e/yr", "emissions.co2": "Mt CO2/yr", "emissions.co2.fossil": "Mt CO2/yr",
+                "emissions.co2.land": "Mt CO2/yr", "emissions.ch4": "Mt CH4/yr", "emissions.n2o": "kt N2O/yr",
+                "energy.primary": "EJ/yr", "energy.final": "EJ/yr", "population": "million",
+                "gdp.ppp": "billion USD_2015/yr", "gdp.mer": "billion USD_2015/yr",
+                "consumption": "billion USD_2015/yr", "price.carbon": "USD_2015/t CO2",
+                "cost.abatement": "billion USD_2015/yr", "trade.permits": "Mt CO2e/yr"}
+    assert {k: core.variables[k].unit for k in expected} == expected
+    assert core.variables["price.carbon"].regions == "none"
+    assert core.variables["trade.permits"].regions == "zero"
+    assert [p.variable for p in core.variables["energy.final"].parts] == [
+        "energy.final.industry", "energy.final.transport", "energy.final.buildings"]
+
+
+@pytest.mark.parametrize("metric", ["AR6GWP100", "AR5GWP100", "AR4GWP100", "SARGWP100"])
+def test_gwp_factors_come_from_the_published_set(tmp_path, metric):
+    # IPCC GWP100 tables as shipped by globalwarmingpotentials (AR6: Table 7.SM.7; AR5: Table 8.7; AR4: Table
+    # 2.14; SAR 1995). CH4 in Mt and N2O in kt against a Mt CO2e total: factors GWP and GWP/1000.
+    folder = tmp_path / metric
+    folder.mkdir()
+    (folder / "contract.toml").write_text(f'name = "g"\nextends = "core"\ngwp = "{metric}"\n')
+    parts = {p.variable: p.factor for p in load(folder).variables["emissions.ghg"].parts}
+    assert parts["emissions.co2"] == 1.0
+    assert parts["emissions.ch4"] == pytest.approx(gwp.data[metric]["CH4"])
+    assert parts["emissions.n2o"] == pytest.approx(gwp.data[metric]["N2O"] / 1000)
+
+
+def test_ar6_values_are_the_ones_published(core):
+    # IPCC AR6 WGI Table 7.SM.7: CH4 27.9, N2O 273 (shared/reference-values.md rows 28-29, confirmed via the library).
+    assert core.gwp == {"CO2": 1.0, "CH4": 27.9, "N2O": 273.0}
+
+
+def test_unknown_gwp_set_is_a_contract_error(tmp_path):
+    (tmp_path / "contract.toml").write_text('name = "x"\nextends = "core"\ngwp = "AR9GWP100"\n')
+    with pytest.raises(ContractError, match="AR9GWP100"):
+        load(tmp_path)
+
+
+def test_iso_codes_match_pycountry():
+    codes = iso3_codes()
+    assert len(codes) == len(pycountry.countries) == 249  # ISO 3166-1 entries in pycountry 26.2.16
+    assert {"DEU", "BRA", "IND"} <= codes
+    assert pycountry.countries.get(alpha_3="XKX") is None and "XKX" not in codes  # Kosovo has no ISO code
+
+
+def test_extends_resolves_and_hash_is_stable(demo_contract):
+    again = load(DEMO_CONTRACT)
+    assert again.hash == demo_contract.hash and len(again.hash) == 64
+    assert demo_contract.sources[0] == str(CORE_DIR.resolve())
+    assert demo_contract.regions["World"].parts == ("Ardena", "Belmora", "Cendral", "Dovania", "Estrel")
+    assert set(demo_contract.variables) == set(load().variables)
+
+
+def test_hash_changes_with_content(tmp_path):
+    shutil.copytree(BASIC_CONTRACT, tmp_path / "c")
+    before = load(tmp_path / "c").hash
+    p = tmp_path / "c" / "contract.toml"
+    p.write_text(p.read_text().replace("2100]", "2090]"))
+    assert load(tmp_path / "c").hash != before
+
+
+def test_show_json_shape(demo_contract):
+    d = json.loads(json.dumps(demo_contract.to_dict()))
+    assert {"name", "hash", "base_year", "milestones", "years", "variables", "regions", "tolerance"} <= set(d)
+    assert d["years"] == {"first": 2010, "last": 2100}
+    v = next(v for v in d["variables"] if v["name"] == "emissions.co2")
+    assert set(v) >= {"name", "unit", "required", "sign", "regions", "parts"}
+    assert v["parts"] == [{"variable": "emissions.co2.fossil", "factor": 1.0, "gwp": None},
+                          {"variable": "emissions.co2.land", "factor": 1.0, "gwp": None}]
+
+
+def test_shipped_contracts_lint_clean(core, demo_contract):
+    assert lint(core) == []
+    assert lint(demo_contract) == []
+
+
+def _broken(tmp_path, variables: str, regions: str = "", reference: str | None = None):
+    (tmp_path / "contract.toml").write_text('name = "broken"\n[years]\nfirst = 2010\nlast = 2100\nbase = 2020\n'
+                                            'milestones = [2030]\n')
+    (tmp_path / "variables.toml").write_text(variables)
+    (tmp_path / "regions.toml").write_text(regions or '["World"]\n')
+    if reference is not None:
+        (tmp_path / "reference.csv").write_text(reference)
+    return {f.rule for f in lint(load(tmp_path))}, lint(load(tmp_path))
+
+
+def test_lint_finds_a_cycle(tmp_path):
+    rules, found = _broken(tmp_path, '["a.x"]\nunit = "EJ/yr"\nparts = ["a.y"]\n["a.y"]\nunit = "EJ/yr"\n'
+                                     'parts = ["a.x"]\n')
+    assert "contract-cycle" in rules
+    assert any("a.x -> a.y -> a.x" in f.message for f in found)
+
+
+def test_lint_finds_part_units_that_do_not_match(tmp_path):
+    rules, _ = _broken(tmp_path, '["a"]\nunit = "EJ/yr"\nparts = ["a.b"]\n["a.b"]\nunit = "Mt CO2/yr"\n')
+    assert rules == {"contract-unit"}
+
+
+def test_lint_finds_unknown_units_names_and_parts(tmp_path):
+    rules, _ = _broken(tmp_path, '["a"]\nunit = "furlongs of CO2"\n["B.c"]\nunit = "EJ/yr"\nparts = ["nope"]\n')
+    assert rules == {"contract-unit", "contract-name", "contract-part"}
+
+
+def test_lint_finds_bad_references(tmp_path):
+    rules, found = _broken(tmp_path, '["a"]\nunit = "EJ/yr"\n', reference="region,variable,unit,year,value\n"
+                           "World,a,Mt CO2/yr,2020,1\nMars,a,EJ/yr,2020,1\nWorld,zz,EJ/yr,2020,1\n")
+    assert rules == {"contract-reference"}
+    assert len(found) == 3
+
+
+def test_broken_toml_is_a_contract_error(tmp_path):
+    (tmp_path / "contract.toml").write_text("name = \n")
+    with pytest.raises(ContractError, match="not valid TOML"):
+        load(tmp_path)

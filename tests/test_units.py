@@ -1,0 +1,73 @@
+"""Units against outside references: IUPAC atomic weights, SI energy, the IEA tonne of oil equivalent."""
+
+from __future__ import annotations
+
+import periodictable
+import pytest
+
+from milepost.schema.units import CO2_PER_C, UnitError, Units, normalise
+
+
+@pytest.fixture(scope="module")
+def units():
+    return Units()
+
+
+@pytest.fixture(scope="module")
+def carbon_units():
+    return Units(carbon_to_co2=True, shapes=("Mt CO2/yr", "USD_2015/t CO2"))
+
+
+def test_co2_per_carbon_is_the_iupac_molar_mass_ratio(carbon_units):
+    # IUPAC/CIAAW 2021 standard atomic weights via periodictable: C 12.011, CO2 44.009 -> 3.66406.
+    ratio = periodictable.formula("CO2").mass / periodictable.C.mass
+    assert pytest.approx(ratio, rel=1e-6) == CO2_PER_C
+    assert pytest.approx(3.66406, abs=1e-5) == CO2_PER_C
+    assert carbon_units.factor("Mt C/yr", "Mt CO2/yr") == pytest.approx(ratio, rel=1e-6)
+    assert carbon_units.factor("Gt C/yr", "Mt CO2/yr") == pytest.approx(1000 * ratio, rel=1e-6)
+    assert carbon_units.factor("USD_2015/t C", "USD_2015/t CO2") == pytest.approx(1 / ratio, rel=1e-6)
+
+
+def test_carbon_converts_only_where_the_contract_allows(units):
+    with pytest.raises(UnitError):
+        units.factor("Mt C/yr", "Mt CO2/yr")
+
+
+def test_energy_units(units):
+    # SI: 1 Wh = 3600 J, so 1 EJ = 277.78 TWh; IEA: 1 toe = 41.868 GJ (10^7 kcal_IT), so 1 Mtoe = 41.868 PJ.
+    assert units.factor("EJ/yr", "TWh/yr") == pytest.approx(1e18 / 3.6e15)
+    assert units.factor("Mtoe/yr", "PJ/yr") == pytest.approx(41.868)
+    assert units.factor("PJ/yr", "EJ/yr") == pytest.approx(1e-3)
+
+
+@pytest.mark.parametrize(("a", "b"), [("Mt CH4/yr", "Mt CO2/yr"), ("Mt CO2/yr", "Mt CO2e/yr"),
+                                      ("kt N2O/yr", "Mt CH4/yr"), ("EJ/yr", "Mt CO2/yr"),
+                                      ("billion USD_2010/yr", "billion USD_2015/yr")])
+def test_dimensions_that_never_convert(units, a, b):
+    assert not units.compatible(a, b)
+
+
+def test_deflator_makes_currency_years_convert():
+    from milepost.schema.units import Deflator
+
+    u = Units((Deflator("USD_2010", "USD_2015", 1.08),))
+    assert u.factor("billion USD_2010/yr", "billion USD_2015/yr") == pytest.approx(1.08)
+
+
+@pytest.mark.parametrize(("raw", "norm"), [("MtCO2/yr", "Mt CO2/yr"), ("Mt CO2 / yr", "Mt CO2/yr"),
+                                           ("GtCO2e/yr", "Gt CO2e/yr"), ("Mt CO2-equiv/yr", "Mt CO2e/yr"),
+                                           ("US$2015/t CO2", "USD_2015/t CO2"), ("kt N2O/year", "kt N2O/yr")])
+def test_common_spellings_normalise(units, raw, norm):
+    assert normalise(raw) == norm
+    assert units.factor(raw, norm) == pytest.approx(1.0)
+
+
+def test_scale_prefixes(units):
+    assert units.factor("Gt CO2/yr", "Mt CO2/yr") == pytest.approx(1000)
+    assert units.factor("kt CH4/yr", "Mt CH4/yr") == pytest.approx(1e-3)
+    assert units.factor("billion USD_2015/yr", "USD_2015/yr") == pytest.approx(1e9)
+
+
+def test_unknown_unit_is_a_unit_error(units):
+    with pytest.raises(UnitError):
+        units.parse("Mt BC/yr")
