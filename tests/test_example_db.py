@@ -1,0 +1,379 @@
+"""Tests of the invented demo intercomparison generator (milepost.example_db.generate)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from milepost.example_db import generate as gen
+from milepost.schema.contract import Contract
+
+KEYS = ["model", "scenario", "region", "year"]
+MIXED_KEYS = ["model", "scenario", "variable", "year"]
+
+
+@pytest.fixture(scope="module")
+def con() -> Contract:
+    return gen.contract()
+
+
+@pytest.fixture(scope="module")
+def frame() -> pd.DataFrame:
+    return gen.ensemble_frame()
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory: pytest.TempPathFactory) -> gen.DemoFiles:
+    return gen.write_demo(tmp_path_factory.mktemp("demo"))
+
+
+def parts_table(con: Contract) -> pd.DataFrame:
+    """One row per (total, part, factor) from the resolved contract."""
+    rows = [(v.name, p.variable, p.factor) for v in con.variables.values() for p in v.parts]
+    return pd.DataFrame(rows, columns=["total", "variable", "factor"])
+
+
+def parts_gaps(df: pd.DataFrame, con: Contract) -> pd.DataFrame:
+    """Every total next to the factor-weighted sum of its parts (computed with groupby, not with the generator)."""
+    parts = df.merge(parts_table(con), on="variable")
+    parts["weighted"] = parts["value"] * parts["factor"]
+    summed = parts.groupby([*KEYS, "total"], as_index=False)["weighted"].sum()
+    totals = df.rename(columns={"variable": "total"})[[*KEYS, "total", "value"]]
+    out = totals.merge(summed, on=[*KEYS, "total"], how="inner")
+    out["gap"] = (out["value"] - out["weighted"]).abs()
+    return out
+
+
+def region_gaps(df: pd.DataFrame, con: Contract) -> pd.DataFrame:
+    """World next to the sum of the five regions, for variables that aggregate by sum or net to zero."""
+    how = {name: v.regions for name, v in con.variables.items()}
+    sub = df[df["variable"].map(how).isin(["sum", "zero"])]
+    regional = sub[sub["region"].isin(gen.REGIONS)].groupby(MIXED_KEYS, as_index=False)["value"].sum()
+    world = sub[sub["region"] == gen.WORLD][[*MIXED_KEYS, "value"]]
+    out = world.merge(regional, on=MIXED_KEYS, suffixes=("", "_regions"))
+    out["gap"] = (out["value"] - out["value_regions"]).abs()
+    return out
+
+
+def failing(gaps: pd.DataFrame, con: Contract, value: str = "value") -> pd.DataFrame:
+    tol = con.tolerance
+    allowed = np.maximum(tol.sum_absolute, tol.sum_relative * gaps[value].abs())
+    return gaps[gaps["gap"] > allowed]
+
+
+def world(df: pd.DataFrame, variable: str) -> pd.DataFrame:
+    """World values of one variable as a (model, scenario) x year table."""
+    sub = df[(df["region"] == gen.WORLD) & (df["variable"] == variable)]
+    return sub.pivot_table(index=["model", "scenario"], columns="year", values="value")
+
+
+# --- files ----------------------------------------------------------------------------------------------------
+
+def test_same_bytes_twice(demo: gen.DemoFiles, tmp_path: Path) -> None:
+    again = gen.write_demo(tmp_path)
+    first, second = demo.all_paths(), again.all_paths()
+    assert [p.name for p in first] == [p.name for p in second]
+    for a, b in zip(first, second, strict=True):
+        assert a.read_bytes() == b.read_bytes(), a.name
+
+
+def test_files_by_role(demo: gen.DemoFiles) -> None:
+    assert set(demo.submissions) == set(gen.MODELS)
+    assert [p.suffix for p in demo.submissions[gen.XLSX_MODEL]] == [".xlsx"]
+    for model in set(gen.MODELS) - {gen.XLSX_MODEL}:
+        data, scen = demo.submissions[model]
+        assert data.read_text().splitlines()[0] == ",".join(gen.COLUMNS)
+        assert scen.read_text().splitlines()[0] == ",".join(gen.SCENARIO_COLUMNS)
+    assert len(demo.flawed) == 2 and len(demo.revision) == 2
+    assert all(p.exists() and p.parent == demo.out_dir for p in demo.all_paths())
+
+
+def test_csv_round_trips(demo: gen.DemoFiles, frame: pd.DataFrame) -> None:
+    model = gen.MODELS[0]
+    back = pd.read_csv(demo.submissions[model][0])
+    want = frame[frame["model"] == model].reset_index(drop=True)
+    pd.testing.assert_frame_equal(back, want)
+
+
+def test_xlsx_round_trips(demo: gen.DemoFiles, frame: pd.DataFrame) -> None:
+    (path,) = demo.submissions[gen.XLSX_MODEL]
+    sheets = pd.read_excel(path, sheet_name=None, engine="openpyxl")
+    assert list(sheets) == ["data", "scenarios"]
+    want = frame[frame["model"] == gen.XLSX_MODEL].reset_index(drop=True)
+    pd.testing.assert_frame_equal(sheets["data"], want)
+    scen = gen.scenario_frame()
+    scen = scen[scen["model"] == gen.XLSX_MODEL].reset_index(drop=True)
+    got = sheets["scenarios"]
+    assert list(got.columns) == list(gen.SCENARIO_COLUMNS)
+    assert got["scenario"].tolist() == scen["scenario"].tolist()
+    assert got["reference"].fillna("").tolist() == scen["reference"].fillna("").tolist()
+    assert got["family"].tolist() == scen["family"].tolist()
+
+
+# --- completeness and consistency of the clean ensemble -------------------------------------------------------
+
+def test_every_variable_for_every_scenario_region_year(frame: pd.DataFrame, con: Contract) -> None:
+    assert not frame.duplicated(["model", "scenario", "region", "variable", "year"]).any()
+    assert set(frame["variable"]) == set(con.variables)
+    assert set(frame["region"]) == set(gen.ALL_REGIONS) == set(con.regions)
+    assert sorted(frame["year"].unique()) == list(range(2020, 2101, 5))
+    per_run = frame.groupby(["model", "scenario"]).size()
+    assert len(per_run) == len(gen.MODELS) * len(gen.PROTOCOL)
+    assert (per_run == len(con.variables) * 6 * 17).all()
+    units = frame["variable"].map({n: v.unit for n, v in con.variables.items()})
+    assert (frame["unit"] == units).all()
+    assert frame["value"].notna().all()
+
+
+def test_parts_add_up(frame: pd.DataFrame, con: Contract) -> None:
+    gaps = parts_gaps(frame, con)
+    totals = {v.name for v in con.variables.values() if v.parts}
+    assert set(gaps["total"]) == totals
+    assert len(gaps) == len(totals) * len(gen.MODELS) * len(gen.PROTOCOL) * 6 * 17
+    assert failing(gaps, con).empty
+    # Stricter than the contract: even near-zero totals (net CO2 around its zero crossing) add up.
+    assert gaps["gap"].max() <= con.tolerance.sum_absolute
+
+
+def test_world_is_sum_of_regions(frame: pd.DataFrame, con: Contract) -> None:
+    gaps = region_gaps(frame, con)
+    assert gaps["gap"].max() <= con.tolerance.sum_absolute
+    permits = frame[frame["variable"] == "trade.permits"]
+    assert (permits.loc[permits["region"] == gen.WORLD, "value"] == 0).all()
+    assert (permits["value"] != 0).any()
+    price = frame[frame["variable"] == "price.carbon"]
+    spread = price.groupby(["model", "scenario", "year"])["value"].agg(["min", "max"])
+    assert (spread["max"] - spread["min"]).max() == 0
+
+
+def test_ghg_is_ar6_gwp100_weighting(frame: pd.DataFrame) -> None:
+    gwp = pytest.importorskip("globalwarmingpotentials")
+    # IPCC AR6 WGI Ch. 7 Table 7.SM.7 GWP100, as shipped by the globalwarmingpotentials package (27.9 and 273).
+    ch4, n2o = gwp.data["AR6GWP100"]["CH4"], gwp.data["AR6GWP100"]["N2O"]
+    wide = frame.pivot_table(index=KEYS, columns="variable", values="value")
+    # N2O is reported in kt, the total in Mt CO2e: divide by 1000.
+    expected = wide["emissions.co2"] + ch4 * wide["emissions.ch4"] + n2o / 1000.0 * wide["emissions.n2o"]
+    assert (wide["emissions.ghg"] - expected).abs().max() <= 1e-3
+
+
+def test_signs(frame: pd.DataFrame, con: Contract) -> None:
+    nonneg = [n for n, v in con.variables.items() if v.sign == "non-negative"]
+    assert (frame.loc[frame["variable"].isin(nonneg), "value"] >= 0).all()
+    land = frame[frame["variable"] == "emissions.co2.land"]
+    assert (land["value"] < 0).any()
+    co2 = world(frame, "emissions.co2")
+    assert (co2.xs("act-max", level="scenario")[2100] < 0).all()
+    assert (co2.xs(gen.REFERENCE_NAME, level="scenario") > 0).all().all()
+
+
+def test_bounds_hold(frame: pd.DataFrame, con: Contract) -> None:
+    assert con.bounds, "bounds.csv should give a few plausibility bounds"
+    for b in con.bounds:
+        sel = frame["variable"] == b.variable
+        if b.region is not None:
+            sel &= frame["region"] == b.region
+        if b.year_from is not None:
+            sel &= frame["year"] >= b.year_from
+        if b.year_to is not None:
+            sel &= frame["year"] <= b.year_to
+        values = frame.loc[sel, "value"]
+        assert len(values) > 0, b
+        assert b.low is None or values.min() >= b.low, b
+        assert b.high is None or values.max() <= b.high, b
+
+
+# --- base year and reference data -----------------------------------------------------------------------------
+
+def test_contract_tables_match_generator() -> None:
+    ref = pd.read_csv(gen.CONTRACT_DIR / "reference.csv")
+    pd.testing.assert_frame_equal(ref, gen.reference_frame(), check_dtype=False)
+    bnd = pd.read_csv(gen.CONTRACT_DIR / "bounds.csv")
+    pd.testing.assert_frame_equal(bnd, gen.bounds_frame(), check_dtype=False)
+
+
+def _base_deviation(df: pd.DataFrame, con: Contract) -> pd.DataFrame:
+    ref = pd.DataFrame([vars(r) for r in con.reference])
+    assert set(ref["year"]) == {con.base_year}
+    out = df.merge(ref, on=["region", "variable", "unit", "year"], suffixes=("", "_ref"))
+    out["deviation"] = (out["value"] / out["value_ref"] - 1.0).abs()
+    return out
+
+
+def test_base_year_within_reference(frame: pd.DataFrame, con: Contract) -> None:
+    dev = _base_deviation(frame, con)
+    assert set(dev["variable"]) == set(gen.REFERENCE_VARIABLES)
+    assert set(dev["region"]) == set(gen.ALL_REGIONS)
+    assert dev["deviation"].max() <= con.tolerance.base_year_relative
+
+
+def test_base_year_is_of_realistic_magnitude(frame: pd.DataFrame, con: Contract) -> None:
+    base = frame[(frame["region"] == gen.WORLD) & (frame["year"] == 2020)]
+    v = base.groupby("variable")["value"].agg(["min", "max"])
+    ch4, n2o = (p.factor for p in con.variables["emissions.ghg"].parts[1:])
+    # 2019 emissions by gas, AR6 WGIII Ch. 2 Sect. 2.2.2.1 Table 2.1 (Gt CO2e, AR6 GWP100): CO2-FFI 38 +- 3,
+    # CO2-LULUCF 6.6 +- 4.6, CH4 11 +- 3.2, N2O 2.7 +- 1.6. A 2019 range is a magnitude check for 2020 values.
+    def within(var: str, low: float, high: float, factor: float = 1.0) -> bool:
+        return low <= factor * v.loc[var, "min"] and factor * v.loc[var, "max"] <= high
+
+    assert within("emissions.co2.fossil", 35_000, 41_000)
+    assert within("emissions.co2.land", 2_000, 11_200)
+    assert within("emissions.ch4", 7_800, 14_200, ch4)
+    assert within("emissions.n2o", 1_100, 4_300, n2o)
+    # World population 2020 about 7.8 billion (UN World Population Prospects; from memory), +-5 %.
+    assert within("population", 7_400, 8_200)
+
+
+# --- scenario design ------------------------------------------------------------------------------------------
+
+def cagr(v0: float, v1: float, years: int) -> float:
+    """Compound annual growth rate via numpy_financial.rate (fv = pv * (1 + r)^n with no payments)."""
+    npf = pytest.importorskip("numpy_financial")
+    return float(npf.rate(years, 0.0, -v0, v1))
+
+
+def test_cagr_helper_matches_definition() -> None:
+    # US BEA definition: (V_end / V_start)^(1/n) - 1.  100 -> 121 over 2 years is exactly 10 %/yr.
+    assert cagr(100.0, 121.0, 2) == pytest.approx(0.10, abs=1e-9)
+    assert cagr(50_000.0, 25_000.0, 20) == pytest.approx(0.5 ** (1 / 20) - 1, abs=1e-9)
+
+
+def test_delayed_follow_reference_until_2030(frame: pd.DataFrame) -> None:
+    early = frame[frame["year"] <= 2030].set_index(["model", "region", "variable", "year", "scenario"])["value"]
+    ref = early.xs(gen.REFERENCE_NAME, level="scenario")
+    for name, family, *_ in gen.PROTOCOL:
+        if family == "delayed":
+            pd.testing.assert_series_equal(early.xs(name, level="scenario"), ref)
+    late = frame[(frame["year"] == 2035) & (frame["variable"] == "emissions.co2") & (frame["region"] == gen.WORLD)]
+    late = late.set_index(["model", "scenario"])["value"]
+    for model in gen.MODELS:
+        assert late[(model, "wait-firm")] < late[(model, gen.REFERENCE_NAME)]
+
+
+def test_delay_raises_post_2030_cuts_and_costs(frame: pd.DataFrame) -> None:
+    ghg, cost = world(frame, "emissions.ghg"), world(frame, "cost.abatement")
+    immediate = [s for s, f, *_ in gen.PROTOCOL if f == "immediate"]
+    delayed = [s for s, f, *_ in gen.PROTOCOL if f == "delayed"]
+    for model in gen.MODELS:
+        g, c = ghg.loc[model], cost.loc[model]
+        for d in delayed:
+            near = min(immediate, key=lambda s, d=d: abs(g.loc[s, 2050] - g.loc[d, 2050]))
+            assert g.loc[d, 2030] > g.loc[near, 2030], (model, d, near)
+            assert cagr(g.loc[d, 2030], g.loc[d, 2050], 20) < cagr(g.loc[near, 2030], g.loc[near, 2050], 20)
+            assert c.loc[d, 2035:].sum() > c.loc[near, 2035:].sum(), (model, d, near)
+        for amb in ("firm", "bold"):  # these delayed ones land close to their immediate sibling in 2050
+            d, i = g.loc[f"wait-{amb}", 2050], g.loc[f"act-{amb}", 2050]
+            assert abs(d - i) / i < 0.2, (model, amb)
+
+
+def test_wide_spread_in_2030(frame: pd.DataFrame) -> None:
+    ghg = world(frame, "emissions.ghg")
+    base = ghg[2020].mean()
+    assert ghg[2030].min() < 0.7 * base and ghg[2030].max() > 1.1 * base
+
+
+def test_prices_costs_and_gdp(frame: pd.DataFrame) -> None:
+    price, cost = world(frame, "price.carbon"), world(frame, "cost.abatement")
+    ref = gen.REFERENCE_NAME
+    assert (price.xs(ref, level="scenario") == 0).all().all()
+    assert (cost.xs(ref, level="scenario") == 0).all().all()
+    assert price.max().max() > 1000
+    starts = {name: (2025 if fam == "immediate" else 2035) for name, fam, *_ in gen.PROTOCOL if fam != "reference"}
+    allcost = frame[frame["variable"] == "cost.abatement"]
+    for name, start in starts.items():
+        sel = (allcost["scenario"] == name) & (allcost["year"] >= start)
+        assert (allcost.loc[sel, "value"] > 0).all(), name
+    order = ["act-mild", "act-firm", "act-bold", "act-deep", "act-max"]
+    for var in ("gdp.mer", "consumption"):
+        w = world(frame, var)
+        for model in gen.MODELS:
+            loss = 1.0 - w.loc[model, 2050] / w.loc[(model, ref), 2050]
+            assert (loss.drop(ref) > 0).all() and (loss.drop(ref) < 0.05).all()
+            assert loss[order].is_monotonic_increasing, (var, model)
+            assert loss["wait-firm"] > loss["act-firm"] and loss["wait-bold"] > loss["act-bold"], (var, model)
+    scen = gen.scenario_frame()
+    refs = scen.set_index(["model", "scenario"])["reference"]
+    assert refs.xs(ref, level="scenario").isna().all()
+    assert (refs.drop(ref, level="scenario") == ref).all()
+
+
+# --- the flawed submission and the revision -------------------------------------------------------------------
+
+def test_flawed_submission_has_exactly_the_planted_flaws(demo: gen.DemoFiles, con: Contract) -> None:
+    data = pd.read_csv(demo.flawed[0])
+    assert set(data["model"]) == {gen.FLAWED_MODEL}
+    unknown = set(data["variable"]) - set(con.variables)
+    assert unknown == {"consumtion"}
+    units = data["variable"].map({n: v.unit for n, v in con.variables.items()})
+    wrong = data[units.notna() & (data["unit"] != units)]
+    assert set(zip(wrong["variable"], wrong["unit"], wrong["region"], strict=True)) == {
+        ("emissions.ch4", "EJ/yr", "Estrel")}
+    negative = data[(data["variable"] == "emissions.ch4") & (data["value"] < 0)]
+    assert len(negative) == 1 and negative["region"].iloc[0] == "Dovania"
+    parts = failing(parts_gaps(data, con), con)
+    assert set(zip(parts["region"], parts["total"], parts["year"], strict=True)) == {
+        ("Belmora", "emissions.co2.fossil", 2050), (gen.WORLD, "emissions.co2.fossil", 2050)}
+    regions = failing(region_gaps(data, con), con)
+    assert set(zip(regions["variable"], regions["year"], strict=True)) == {("population", 2050)}
+    dev = _base_deviation(data, con)
+    off = dev[dev["deviation"] > con.tolerance.base_year_relative]
+    assert set(zip(off["region"], off["variable"], strict=True)) == {("Cendral", "population")}
+
+
+def test_revision_changes_two_scenarios(demo: gen.DemoFiles, frame: pd.DataFrame, con: Contract) -> None:
+    new = pd.read_csv(demo.revision[0])
+    assert set(new["model"]) == {gen.REVISED_MODEL}
+    assert set(new["scenario"]) == set(gen.REVISED_SCENARIOS)
+    old = frame[(frame["model"] == gen.REVISED_MODEL) & frame["scenario"].isin(gen.REVISED_SCENARIOS)]
+    both = old.merge(new, on=["model", "scenario", "region", "variable", "unit", "year"], suffixes=("_v1", "_v2"))
+    assert len(both) == len(old) == len(new)
+    changed = both["value_v1"] != both["value_v2"]
+    assert not changed[both["year"] == 2020].any()
+    assert changed[both["variable"] == "emissions.co2"].sum() > 20
+    assert failing(parts_gaps(new, con), con).empty and failing(region_gaps(new, con), con).empty
+    scen = pd.read_csv(demo.revision[1])
+    assert set(scen["scenario"]) == set(gen.REVISED_SCENARIOS)
+
+
+# --- benchmark inputs -----------------------------------------------------------------------------------------
+
+def test_synthetic_file_is_valid_and_seeded(tmp_path: Path, con: Contract) -> None:
+    a = gen.write_synthetic(tmp_path / "a.csv", rows=10_000, seed=3)
+    b = gen.write_synthetic(tmp_path / "b.csv", rows=10_000, seed=3)
+    c = gen.write_synthetic(tmp_path / "c.csv", rows=10_000, seed=4)
+    assert a.read_bytes() == b.read_bytes() != c.read_bytes()
+    df = pd.read_csv(a)
+    assert list(df.columns) == list(gen.COLUMNS) and len(df) == 10_000
+    assert not df.duplicated(["model", "scenario", "region", "variable", "year"]).any()
+    assert set(df["variable"]) == set(con.variables)
+    assert set(df["region"]) <= set(con.regions)
+    assert (df["unit"] == df["variable"].map({n: v.unit for n, v in con.variables.items()})).all()
+    assert df["year"].between(con.first_year, con.last_year).all() and (df["value"] >= 0).all()
+
+
+@pytest.mark.slow
+def test_synthetic_two_million_rows_in_seconds(tmp_path: Path) -> None:
+    import time
+
+    t0 = time.perf_counter()
+    path = gen.write_synthetic(tmp_path / "big.csv", rows=2_000_000)
+    assert time.perf_counter() - t0 < 30  # measured about 3 s on 2 cores
+    with path.open() as f:
+        assert sum(1 for _ in f) == 2_000_001
+
+
+@pytest.mark.parametrize("fmt", ["csv", "parquet"])
+def test_many_scenarios_are_consistent(tmp_path: Path, con: Contract, fmt: str) -> None:
+    paths = gen.write_many_scenarios(tmp_path, n_scenarios=40, fmt=fmt)
+    data_paths = [p for p in paths if not p.name.endswith("-scenarios.csv")]
+    assert len(data_paths) == len(gen.MODELS) and all(p.suffix == f".{fmt}" for p in data_paths)
+    read = pd.read_csv if fmt == "csv" else pd.read_parquet
+    df = pd.concat([read(p) for p in data_paths], ignore_index=True)
+    scen = pd.concat([pd.read_csv(p) for p in paths if p.name.endswith("-scenarios.csv")], ignore_index=True)
+    assert len(scen) == 40 and df.groupby(["model", "scenario"]).ngroups == 40
+    assert set(scen["family"]) == {"reference", "immediate", "delayed"}
+    assert (df.groupby(["model", "scenario"]).size() == len(con.variables) * 6 * 17).all()
+    assert failing(parts_gaps(df, con), con).empty
+    assert region_gaps(df, con)["gap"].max() <= con.tolerance.sum_absolute
