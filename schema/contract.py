@@ -287,7 +287,7 @@ def _resolve(
     bounds: list[Bound],
     layers: list[Path],
 ) -> Contract:
-    from milepost.schema.units import Deflator, UnitError, Units
+    from milepost.schema.units import Deflator, LazyUnits, UnitError, as_co2e, scale_factor
 
     where = str(layers[-1] / "contract.toml")
     years = head.get("years", {})
@@ -311,7 +311,7 @@ def _resolve(
     gwp_set = str(head.get("gwp", "AR6GWP100"))
     gwp = _gwp_values(gwp_set)
     shapes = tuple(sorted({str(spec.get("unit", "")) for spec in variables.values() if "CO2" in str(spec.get("unit"))}))
-    units = Units(tuple(Deflator(*d) for d in deflators), carbon_to_co2=carbon, shapes=shapes)
+    units = LazyUnits(deflators=tuple(Deflator(*d) for d in deflators), carbon_to_co2=carbon, shapes=shapes)
 
     problems: list[str] = []
     resolved: dict[str, Variable] = {}
@@ -333,7 +333,10 @@ def _resolve(
                 else:
                     part_spec = variables.get(p["variable"], {})
                     try:
-                        unit_factor = units.factor(units.as_co2e(part_spec.get("unit", ""), gas), spec["unit"])
+                        co2e = as_co2e(part_spec.get("unit", ""), gas)
+                        unit_factor = scale_factor(co2e, spec["unit"])
+                        if unit_factor is None:
+                            unit_factor = units.factor(co2e, spec["unit"])
                         factor *= gwp[gas] * unit_factor
                     except UnitError as e:
                         problems.append(f"{vfile}: [{name}] part {p['variable']}: {e}")

@@ -151,8 +151,43 @@ class Units:
 
     def as_co2e(self, unit: str, gas: str) -> str:
         """The unit string with the gas symbol replaced by CO2e: `kt N2O/yr` -> `kt CO2e/yr`."""
-        s = normalise(unit)
-        out = re.sub(rf"\b{re.escape(gas)}\b", "CO2e", s)
-        if out == s and gas != "CO2e":
-            raise UnitError(f"unit {unit!r} does not name the gas {gas}")
-        return out
+        return as_co2e(unit, gas)
+
+
+def as_co2e(unit: str, gas: str) -> str:
+    """The unit string with the gas symbol replaced by CO2e: `kt N2O/yr` -> `kt CO2e/yr`."""
+    s = normalise(unit)
+    out = re.sub(rf"\b{re.escape(gas)}\b", "CO2e", s)
+    if out == s and gas != "CO2e":
+        raise UnitError(f"unit {unit!r} does not name the gas {gas}")
+    return out
+
+
+_MASS_PREFIX = {"": 1.0, "k": 1e3, "M": 1e6, "G": 1e9, "T": 1e12}
+_TONNES = re.compile(r"^([kMGT]?)t (.+)$")
+
+
+def scale_factor(source: str, target: str) -> float | None:
+    """The factor between two spellings that differ at most in the tonne prefix (`kt X/yr` vs `Mt X/yr`), found
+    without pint; None when the units differ in any other way (then ask `Units.factor`)."""
+    a, b = normalise(source), normalise(target)
+    if a == b:
+        return 1.0
+    ma, mb = _TONNES.match(a), _TONNES.match(b)
+    if ma and mb and ma.group(2) == mb.group(2):
+        return _MASS_PREFIX[ma.group(1)] / _MASS_PREFIX[mb.group(1)]
+    return None
+
+
+class LazyUnits:
+    """A `Units` built on first use: importing pint costs half a second, and a submission reported in the
+    contract's own units never needs it."""
+
+    def __init__(self, **kwargs: Any) -> None:
+        self._kwargs = kwargs
+        self._units: Units | None = None
+
+    def __getattr__(self, name: str) -> Any:
+        if self._units is None:
+            self._units = Units(**self._kwargs)
+        return getattr(self._units, name)

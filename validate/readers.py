@@ -83,18 +83,20 @@ def _quote(name: str) -> str:
 def _typed_select(cols: dict[str, str], src: str, line: str, decimal_comma: bool = False) -> str:
     """SELECT turning raw text cells into typed year/value columns, keeping the text only where it is not clean."""
     key = ", ".join(f"CAST({_quote(cols[c])} AS VARCHAR) AS {c}" for c in KEY_TEXT)
-    year = f"trim(CAST({_quote(cols['year'])} AS VARCHAR))"
-    value = f"trim(CAST({_quote(cols['value'])} AS VARCHAR))"
+    year = f"CAST({_quote(cols['year'])} AS VARCHAR)"
+    value = f"CAST({_quote(cols['value'])} AS VARCHAR)"
     if decimal_comma:
         value = f"replace({value}, ',', '.')"
-    ynum, vnum = f"TRY_CAST({year} AS DOUBLE)", f"TRY_CAST({value} AS DOUBLE)"
+    inner = (f"SELECT {line} AS line, {key}, {year} AS y_text, {value} AS v_text, "
+             f"TRY_CAST(trim({year}) AS DOUBLE) AS y_num, TRY_CAST(trim({value}) AS DOUBLE) AS v_num FROM {src}")
+    whole = "y_num = floor(y_num) AND abs(y_num) < 1e6"
     return (
-        f"SELECT {line} AS line, {key}, "
-        f"CASE WHEN {ynum} = floor({ynum}) AND abs({ynum}) < 1e6 THEN CAST({ynum} AS INTEGER) END AS year, "
-        f"CASE WHEN {ynum} = floor({ynum}) AND abs({ynum}) < 1e6 THEN NULL ELSE {year} END AS year_raw, "
-        f"CASE WHEN isfinite({vnum}) THEN {vnum} END AS value, "
-        f"CASE WHEN isfinite({vnum}) THEN NULL ELSE {value} END AS value_raw "
-        f"FROM {src}"
+        f"SELECT line, {', '.join(KEY_TEXT)}, "
+        f"CASE WHEN {whole} THEN CAST(y_num AS INTEGER) END AS year, "
+        f"CASE WHEN {whole} THEN NULL ELSE trim(y_text) END AS year_raw, "
+        "CASE WHEN isfinite(v_num) THEN v_num END AS value, "
+        "CASE WHEN isfinite(v_num) THEN NULL ELSE trim(v_text) END AS value_raw "
+        f"FROM ({inner})"
     )
 
 
@@ -188,9 +190,10 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
     bad = con.execute(f"SELECT line, string_agg(DISTINCT error_message, '; ') FROM {rejects} GROUP BY line "
                       "ORDER BY line").fetchall()
     inp.rejects = [(int(line), str(msg)) for line, msg in bad]
-    # Rows are stored in file order, so the row id gives the line; rejected lines shift the rows after them.
-    con.execute(f"UPDATE {table} SET line = rowid + 2")
+    # Rows are stored in file order, so the row id gives the line (the runner's view adds 2 where `line` is
+    # empty); only rejected lines, which shift the rows after them, need the lines written out.
     if inp.rejects:
+        con.execute(f"UPDATE {table} SET line = rowid + 2")
         con.execute(f"CREATE TEMP TABLE {table}_shift AS SELECT line - (row_number() OVER (ORDER BY line) - 1) AS at "
                     f"FROM (SELECT DISTINCT line FROM {rejects})")
         con.execute(f"UPDATE {table} SET line = line + (SELECT count(*) FROM {table}_shift s WHERE s.at <= line)")

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import time
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -12,7 +13,7 @@ from typing import Any
 import duckdb
 
 from milepost.schema.contract import Contract
-from milepost.schema.units import UnitError
+from milepost.schema.units import UnitError, scale_factor
 from milepost.validate import __version__
 from milepost.validate.checks import ROW_CHECKS, TABLE_CHECKS, Context
 from milepost.validate.checks.structure import file_findings
@@ -39,7 +40,7 @@ class CheckResult:
     truncated: bool = False
     version: str = __version__
     usable_rows: int = 0
-    notes: list[str] = field(default_factory=list)
+    timings: dict[str, float] = field(default_factory=dict)
 
     def passed(self, fail_on: str = "error") -> bool:
         """True when nothing reaches the fail level ('error', or 'warning' = warnings count too)."""
@@ -79,7 +80,8 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
         if v is None:
             continue  # contract lint reports it
         try:
-            ref.append((r.region, r.variable, r.year, r.value * units.factor(r.unit, v.unit)))
+            factor = scale_factor(r.unit, v.unit)
+            ref.append((r.region, r.variable, r.year, r.value * (factor or units.factor(r.unit, v.unit))))
         except UnitError:
             continue  # contract lint reports it
     if ref:
@@ -92,12 +94,16 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
 
 
 def _obs_view(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> None:
+    con.execute("CREATE OR REPLACE TEMP TABLE c_inputs (src INTEGER, path VARCHAR, sheet VARCHAR)")
+    con.executemany("INSERT INTO c_inputs VALUES (?, ?, ?)", [(i, inp.path, inp.sheet) for i, inp in enumerate(inputs)])
     parts = []
     for i, inp in enumerate(inputs):
         if inp.kind == "data" and inp.table:
             path = inp.path.replace("'", "''")
             sheet = f"'{inp.sheet}'" if inp.sheet else "NULL::VARCHAR"
-            parts.append(f"SELECT {i} AS src, '{path}' AS path, {sheet} AS sheet, * FROM {inp.table}")
+            # CSV tables leave `line` empty: rows are stored in file order, so the row id gives it for free.
+            parts.append(f"SELECT {i} AS src, '{path}' AS path, {sheet} AS sheet, coalesce(line, rowid + 2) AS line, "
+                         f"* EXCLUDE (line) FROM {inp.table}")
     if not parts:
         parts = ["SELECT NULL::INTEGER AS src, NULL::VARCHAR AS path, NULL::VARCHAR AS sheet, NULL::BIGINT AS line, "
                  + ", ".join(f"NULL::VARCHAR AS {c}" for c in ("model", "scenario", "region", "variable", "unit"))
@@ -106,26 +112,53 @@ def _obs_view(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> None:
     con.execute("CREATE OR REPLACE TEMP VIEW obs AS " + " UNION ALL ".join(parts))
 
 
+KEY = "model, scenario, region, variable, year"
+
+
+def _enum_type(con: duckdb.DuckDBPyConnection, sql: str) -> str:
+    values = sorted(r[0] for r in con.execute(sql).fetchall())
+    if not values:
+        return "VARCHAR"
+    return "ENUM(" + ", ".join("'" + v.replace("'", "''") + "'" for v in values) + ")"
+
+
 def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
-    """`checked`: the usable rows, converted into contract units, one row per key (the first occurrence wins)."""
-    order = "(o.src * 10000000000 + o.line)"
-    value = "(o.value * m.factor)"
+    """`checked`: the usable rows in contract units, one per key (the first occurrence wins); `dups`: repeated keys."""
+    # Key columns become ENUMs of the values seen: the same text to every reader, but grouping and joining on
+    # them (duplicates, sums) runs on small integers, several times faster than on strings.
+    enum = {c: _enum_type(con, f"SELECT DISTINCT {c} FROM combos WHERE {c} IS NOT NULL")
+            for c in ("model", "scenario", "region", "variable")}
+    enum["unit"] = _enum_type(con, "SELECT DISTINCT target FROM unit_map WHERE target IS NOT NULL")
     con.execute(
         "CREATE OR REPLACE TEMP TABLE checked AS "
-        "SELECT o.model, o.scenario, o.region, o.variable, any_value(m.target) AS unit, o.year, "
-        f"arg_min({value}, {order}) AS value, count(*) AS n, min({value}) AS vmin, max({value}) AS vmax, "
-        f"arg_min(o.path, {order}) AS path, arg_min(o.sheet, {order}) AS sheet, arg_min(o.line, {order}) AS line, "
-        f"arg_max(o.path, {order}) AS path_last, arg_max(o.line, {order}) AS line_last "
+        f"SELECT o.src, o.line, o.model::{enum['model']} AS model, o.scenario::{enum['scenario']} AS scenario, "
+        f"o.region::{enum['region']} AS region, o.variable::{enum['variable']} AS variable, "
+        f"m.target::{enum['unit']} AS unit, o.year, o.value * m.factor AS value "
         "FROM obs o JOIN unit_map m ON o.variable = m.variable AND o.unit = m.unit AND m.status <> 'wrong' "
         "JOIN c_regions r ON o.region = r.region "
         f"WHERE o.value IS NOT NULL AND o.year BETWEEN {contract.first_year} AND {contract.last_year} "
-        "AND trim(o.model) <> '' AND trim(o.scenario) <> '' "
-        "GROUP BY o.model, o.scenario, o.region, o.variable, o.year"
+        "AND trim(o.model) <> '' AND trim(o.scenario) <> ''"
     )
+    # Repeats are rare: find the keys with a narrow aggregate, then look only at their rows.
+    con.execute(f"CREATE OR REPLACE TEMP TABLE dup_keys AS SELECT {KEY} FROM checked GROUP BY ALL HAVING count(*) > 1")
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE dups AS SELECT c.model, c.scenario, c.region, c.variable, c.year, "
+        "any_value(c.unit) AS unit, count(*) AS n, min(c.value) AS vmin, max(c.value) AS vmax, "
+        "arg_min(c.src, (c.src, c.line)) AS src, arg_min(c.line, (c.src, c.line)) AS line, "
+        "arg_max(c.src, (c.src, c.line)) AS src_last, arg_max(c.line, (c.src, c.line)) AS line_last "
+        f"FROM checked c SEMI JOIN dup_keys k USING ({KEY}) GROUP BY c.model, c.scenario, c.region, c.variable, c.year"
+    )
+    if con.execute("SELECT count(*) FROM dups").fetchall()[0][0]:
+        con.execute(f"DELETE FROM checked c USING dups d WHERE c.model = d.model AND c.scenario = d.scenario "
+                    "AND c.region = d.region AND c.variable = d.variable AND c.year = d.year "
+                    "AND (c.src, c.line) <> (d.src, d.line)")
 
 
-def _insert(con: duckdb.DuckDBPyConnection, sql: str) -> None:
-    con.execute(f"INSERT INTO findings BY NAME {sql}")
+def _insert(con: duckdb.DuckDBPyConnection, sql: str, severity: str) -> None:
+    # Most checks leave severity to the rule table; one names a finer one itself (the spelling-only unit note).
+    if " AS severity" not in sql:
+        sql = f"SELECT NULL::VARCHAR AS severity, * FROM ({sql})"
+    con.execute(f"INSERT INTO findings BY NAME SELECT * REPLACE ({severity} AS severity) FROM ({sql})")
 
 
 def _scenarios(result_inputs: list[InputFile], con: duckdb.DuckDBPyConnection) -> tuple[Any, list[Finding]]:
@@ -179,30 +212,50 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
     big = progress and sum(p.stat().st_size for p in paths if p.is_file()) > PROGRESS_BYTES
     con.execute("CREATE OR REPLACE TEMP TABLE findings (" + ", ".join(
         f"{c} {'BIGINT' if c == 'line' else 'INTEGER' if c == 'year' else 'VARCHAR'}" for c in FINDING_COLUMNS) + ")")
+    timings: dict[str, float] = {}
+    clock = [time.perf_counter()]
+
+    def lap(name: str) -> None:
+        now = time.perf_counter()
+        timings[name] = timings.get(name, 0.0) + now - clock[0]
+        clock[0] = now
+
     with _steps(big) as step:
         _contract_tables(con, contract)
+        lap("contract tables")
         inputs: list[InputFile] = []
         for n, path in enumerate(paths):
             inputs += read_file(con, path, f"obs_{os.getpid()}_{n}")
+        lap("read")
         step("checking rows")
         _obs_view(con, inputs)
+        # One pass for every distinct key combination: name, unit and empty-cell checks look here first and
+        # touch the rows only when something is wrong.
+        con.execute("CREATE OR REPLACE TEMP TABLE combos AS SELECT src, model, scenario, region, variable, unit, "
+                    "count(*) AS n FROM obs GROUP BY ALL")
+        lap("combos")
         ctx = Context(con, contract, inputs)
         pre = file_findings(ctx)
+        severity_case = _severity_case(contract)
         for check in ROW_CHECKS:
             for sql in check(ctx):
-                _insert(con, sql)
+                _insert(con, sql, severity_case)
+            lap(check.__name__)
         step("checking sums and coverage")
         _build_checked(con, contract)
+        lap("checked")
         for check in TABLE_CHECKS:
             for sql in check(ctx):
-                _insert(con, sql)
+                _insert(con, sql, severity_case)
+            lap(check.__name__)
         step("collecting findings")
         scenarios, scen_findings = _scenarios(inputs, con)
         extra = pre + scen_findings
         if extra:
+            eff = effective_severity(contract)
             con.executemany(f"INSERT INTO findings VALUES ({', '.join('?' * len(FINDING_COLUMNS))})",
-                            [tuple(f.to_dict()[c] for c in FINDING_COLUMNS) for f in extra])
-        _apply_severity(con, contract)
+                            [tuple(f.to_dict()[c] if c != "severity" else eff.get(f.rule, f.severity)
+                                   for c in FINDING_COLUMNS) for f in extra])
     rule_counts = [(r, s, int(n)) for r, s, n in con.execute(
         "SELECT rule, severity, count(*) FROM findings GROUP BY 1, 2 ORDER BY 1, 2").fetchall()]
     counts = {s: 0 for s in SEVERITIES}
@@ -214,6 +267,7 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
         "ORDER BY path NULLS FIRST, line NULLS LAST, rule, model, scenario, region, variable, year").fetchall()
     findings = [Finding.from_row(r) for r in rows]
     usable = con.execute("SELECT count(*) FROM checked").fetchall()[0][0]
+    lap("collect")
     return CheckResult(
         contract=contract,
         inputs=inputs,
@@ -225,6 +279,7 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
         scenarios=scenarios,
         truncated=any(n > findings_per_rule for _, _, n in rule_counts),
         usable_rows=int(usable),
+        timings=timings,
     )
 
 
@@ -234,10 +289,9 @@ def effective_severity(contract: Contract) -> dict[str, str]:
             for r in RULES.values()}
 
 
-def _apply_severity(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
-    """Checks may set a finer severity (a spelling-only unit note); a contract override always wins."""
+def _severity_case(contract: Contract) -> str:
+    """SQL giving each finding its severity: a contract override, else the check's own, else the rule's default."""
     eff = effective_severity(contract)
-    cases = " ".join(f"WHEN '{rule}' THEN '{sev}'" for rule, sev in eff.items())
+    by_rule = "CASE rule " + " ".join(f"WHEN '{r}' THEN '{s}'" for r, s in eff.items()) + " END"
     forced = ", ".join(f"'{k}'" for k in contract.severity if k in eff) or "NULL"
-    con.execute(f"UPDATE findings SET severity = CASE rule {cases} ELSE 'error' END "
-                f"WHERE severity IS NULL OR rule IN ({forced})")
+    return f"CASE WHEN rule IN ({forced}) THEN {by_rule} ELSE coalesce(severity, {by_rule}) END"

@@ -14,10 +14,11 @@ from milepost.validate.readers import InputFile
 class Context:
     """One check run.
 
-    Tables in `con` (all TEMP): `obs` (every data row as read: src, path, sheet, line, key cells, year, year_raw,
-    value, value_raw), `unit_map` (variable, unit -> factor, status), `checked` (usable rows in contract units, one
-    per key, with the first line it came from), and the contract lookups `c_variables`, `c_parts`, `c_regions`,
-    `c_region_parts`, `c_reference`, `c_bounds`.
+    Tables in `con` (all TEMP): `obs` (view: every data row as read: src, path, sheet, line, key cells, year,
+    year_raw, value, value_raw), `c_inputs` (src -> path, sheet), `unit_map` (variable, unit -> factor, status),
+    `checked` (usable rows in contract units, one per key: src, line, key, unit, year, value), `dups` (keys that
+    occurred more than once), and the contract lookups `c_variables`, `c_parts`, `c_regions`, `c_region_parts`,
+    `c_reference`, `c_bounds`.
     """
 
     con: duckdb.DuckDBPyConnection

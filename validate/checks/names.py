@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import difflib
+from collections.abc import Callable
 
 from milepost.validate.checks.context import Context, sql_str
 
@@ -22,20 +23,22 @@ def suggest(name: str, known: list[str]) -> str | None:
     return close[0] if close else None
 
 
-def _hints_table(ctx: Context, table: str, column: str, known: list[str], is_known) -> None:
+def _hints_table(ctx: Context, table: str, column: str, known: list[str], is_known: Callable[[str], bool]) -> bool:
     names = [r[0] for r in ctx.con.execute(
-        f"SELECT DISTINCT {column} FROM obs WHERE {column} IS NOT NULL AND trim({column}) <> ''").fetchall()]
+        f"SELECT DISTINCT {column} FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> ''").fetchall()]
     unknown = [n for n in names if not is_known(n)]
     rows = [(n, suggest(n, known)) for n in unknown]
     ctx.con.execute(f"CREATE OR REPLACE TEMP TABLE {table} (name VARCHAR, suggestion VARCHAR)")
     if rows:
         ctx.con.executemany(f"INSERT INTO {table} VALUES (?, ?)", rows)
+    return bool(rows)
 
 
 def check_unknown_region(ctx: Context) -> list[str]:
     """unknown-region: the region is neither a contract region nor (where allowed) an ISO 3166-1 alpha-3 code."""
     c = ctx.contract
-    _hints_table(ctx, "unknown_regions", "region", list(c.regions), c.is_region)
+    if not _hints_table(ctx, "unknown_regions", "region", list(c.regions), c.is_region):
+        return []
     allowed = sorted(c.regions)
     listing = ", ".join(allowed[:8]) + (" …" if len(allowed) > 8 else "")
     if c.countries:
@@ -52,7 +55,8 @@ def check_unknown_region(ctx: Context) -> list[str]:
 def check_unknown_variable(ctx: Context) -> list[str]:
     """unknown-variable: the variable name is not in the contract."""
     known = list(ctx.contract.variables)
-    _hints_table(ctx, "unknown_variables", "variable", known, lambda n: n in ctx.contract.variables)
+    if not _hints_table(ctx, "unknown_variables", "variable", known, lambda n: n in ctx.contract.variables):
+        return []
     return [
         f"SELECT 'unknown-variable' AS rule, {_ROW}, o.variable AS value, "
         "coalesce(h.suggestion, 'a contract variable') AS expected, "

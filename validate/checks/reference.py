@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from milepost.validate.checks.context import Context, fmt
 
-_ROW = "c.path, c.sheet, c.line, c.model, c.scenario, c.region, c.variable, c.unit, c.year"
+_ROW = "i.path, i.sheet, c.line, c.model, c.scenario, c.region, c.variable, c.unit, c.year"
 
 
 def check_base_year(ctx: Context) -> list[str]:
@@ -18,5 +18,6 @@ def check_base_year(ctx: Context) -> list[str]:
         f"|| '; tolerance ±{tol * 100:g} %' AS message, "
         "'Calibrate the base year to the reference, or explain the difference in the submission note.' AS hint "
         "FROM checked c JOIN c_reference r ON c.region = r.region AND c.variable = r.variable AND c.year = r.year "
+        "JOIN c_inputs i ON i.src = c.src "
         f"WHERE abs(c.value - r.value) > CASE WHEN r.value = 0 THEN {ctx.tol_abs} ELSE {tol} * abs(r.value) END"
     ]

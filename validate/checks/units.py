@@ -12,10 +12,11 @@ from milepost.validate.checks.context import Context
 _ROW = "o.path, o.sheet, o.line, o.model, o.scenario, o.region, o.variable, o.unit, o.year"
 
 
-def build_unit_map(ctx: Context) -> None:
-    """TEMP table unit_map(variable, unit, factor, status, target, why): status same|spelling|converted|wrong."""
+def build_unit_map(ctx: Context) -> bool:
+    """TEMP table unit_map(variable, unit, factor, status, target, why): status same|spelling|converted|wrong.
+    Returns whether any unit differs from the contract's."""
     pairs = ctx.con.execute(
-        "SELECT DISTINCT o.variable, o.unit FROM obs o JOIN c_variables v ON o.variable = v.variable "
+        "SELECT DISTINCT o.variable, o.unit FROM combos o JOIN c_variables v ON o.variable = v.variable "
         "WHERE o.unit IS NOT NULL AND trim(o.unit) <> ''").fetchall()
     units = ctx.contract.units
     rows = []
@@ -36,11 +37,13 @@ def build_unit_map(ctx: Context) -> None:
                     "status VARCHAR, target VARCHAR, why VARCHAR)")
     if rows:
         ctx.con.executemany("INSERT INTO unit_map VALUES (?, ?, ?, ?, ?, ?)", rows)
+    return any(r[3] != "same" for r in rows)
 
 
 def check_units(ctx: Context) -> list[str]:
     """wrong-unit (does not convert) and converted-unit (converts; a note when only the spelling differs)."""
-    build_unit_map(ctx)
+    if not build_unit_map(ctx):
+        return []
     return [
         f"SELECT 'wrong-unit' AS rule, {_ROW}, o.unit AS value, m.target AS expected, "
         "'unit ' || o.unit || ' does not convert to ' || m.target || ' (' || o.variable || ')' AS message, "

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from milepost.validate.checks.context import Context, fmt
 
-_ROW = "c.path, c.sheet, c.line, c.model, c.scenario, c.region, c.variable, c.unit, c.year"
+_ROW = "i.path, i.sheet, c.line, c.model, c.scenario, c.region, c.variable, c.unit, c.year"
 
 
 def check_sign(ctx: Context) -> list[str]:
@@ -13,7 +13,8 @@ def check_sign(ctx: Context) -> list[str]:
         f"SELECT 'sign' AS rule, {_ROW}, {fmt('c.value')} AS value, '>= 0' AS expected, "
         "c.variable || ' must not be negative, but is ' || " + fmt("c.value") + " || ' ' || c.unit AS message, "
         "'Check the sign convention; net removals belong in a variable that may be negative.' AS hint "
-        "FROM checked c JOIN c_variables v ON c.variable = v.variable WHERE v.sign = 'non-negative' AND c.value < 0"
+        "FROM checked c JOIN c_variables v ON c.variable = v.variable JOIN c_inputs i ON i.src = c.src "
+        "WHERE v.sign = 'non-negative' AND c.value < 0"
     ]
 
 
@@ -27,5 +28,6 @@ def check_bounds(ctx: Context) -> list[str]:
         "FROM checked c JOIN c_bounds b ON c.variable = b.variable "
         "AND (b.region IS NULL OR b.region = c.region) "
         "AND c.year BETWEEN coalesce(b.year_from, -1000000) AND coalesce(b.year_to, 1000000) "
+        "JOIN c_inputs i ON i.src = c.src "
         "WHERE c.value < b.low OR c.value > b.high"
     ]
