@@ -9,7 +9,7 @@ import typer
 from milepost.validate import __version__
 
 # Each module exposes register(app). Keep the order: it is the order of `milepost --help`.
-COMMAND_MODULES = ("cli_check", "cli_contract", "cli_db")
+COMMAND_MODULES = ("cli_check", "cli_contract", "cli_db", "cli_dashboard")
 
 app = typer.Typer(
     add_completion=False,

@@ -149,7 +149,7 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
         f"FROM checked c SEMI JOIN dup_keys k USING ({KEY}) GROUP BY c.model, c.scenario, c.region, c.variable, c.year"
     )
     if con.execute("SELECT count(*) FROM dups").fetchall()[0][0]:
-        con.execute(f"DELETE FROM checked c USING dups d WHERE c.model = d.model AND c.scenario = d.scenario "
+        con.execute("DELETE FROM checked c USING dups d WHERE c.model = d.model AND c.scenario = d.scenario "
                     "AND c.region = d.region AND c.variable = d.variable AND c.year = d.year "
                     "AND (c.src, c.line) <> (d.src, d.line)")
 
