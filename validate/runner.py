@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import os
 import time
 from collections.abc import Iterator, Sequence
@@ -36,11 +37,24 @@ class CheckResult:
     rule_counts: list[tuple[str, str, int]]
     rows: int
     con: duckdb.DuckDBPyConnection
-    scenarios: Any = None
+    scenario_attributes: Any = None  # pandas frame from the scenarios tables given, if any
     truncated: bool = False
     version: str = __version__
     usable_rows: int = 0
     timings: dict[str, float] = field(default_factory=dict)
+
+    @functools.cached_property
+    def scenarios(self) -> Any:
+        """One row per (model, scenario) of the usable data, with `reference` and any other attributes given.
+        Built on first use: a plain check never needs pandas."""
+        pairs = self.con.execute("SELECT DISTINCT CAST(model AS VARCHAR) AS model, CAST(scenario AS VARCHAR) "
+                                 "AS scenario FROM checked ORDER BY 1, 2").df()
+        if self.scenario_attributes is None:
+            import pandas as pd
+
+            pairs["reference"] = pd.Series([None] * len(pairs), dtype="str")
+            return pairs
+        return pairs.merge(self.scenario_attributes, on=["model", "scenario"], how="left")
 
     def passed(self, fail_on: str = "error") -> bool:
         """True when nothing reaches the fail level ('error', or 'warning' = warnings count too)."""
@@ -161,28 +175,24 @@ def _insert(con: duckdb.DuckDBPyConnection, sql: str, severity: str) -> None:
     con.execute(f"INSERT INTO findings BY NAME SELECT * REPLACE ({severity} AS severity) FROM ({sql})")
 
 
-def _scenarios(result_inputs: list[InputFile], con: duckdb.DuckDBPyConnection) -> tuple[Any, list[Finding]]:
-    """One row per (model, scenario) of the data, with the attributes of any scenarios table given."""
+def _scenario_attributes(inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
+    """The scenarios tables given (validated), merged into one frame; None when there are none."""
+    tables = [i for i in inputs if i.kind == "scenarios" and i.scenarios is not None]
+    if not tables:
+        return None, []
     import pandas as pd
 
-    pairs = con.execute("SELECT DISTINCT model, scenario FROM checked ORDER BY 1, 2").df()
-    tables = [(i, i.scenarios) for i in result_inputs if i.kind == "scenarios" and i.scenarios is not None]
-    findings: list[Finding] = []
-    if not tables:
-        pairs["reference"] = pd.Series([None] * len(pairs), dtype="str")
-        return pairs, findings
     from milepost.validate.scenario_table import validate_scenarios
 
-    frames = []
-    for inp, frame in tables:
-        clean, found = validate_scenarios(frame, inp.path, inp.sheet)
+    frames, findings = [], []
+    for inp in tables:
+        clean, found = validate_scenarios(inp.scenarios, inp.path, inp.sheet)
         findings += found
         frames.append(clean)
     attrs = pd.concat(frames, ignore_index=True).drop_duplicates(["model", "scenario"], keep="first")
     if "reference" not in attrs.columns:
         attrs["reference"] = None
-    merged = pairs.merge(attrs, on=["model", "scenario"], how="left")
-    return merged, findings
+    return attrs, findings
 
 
 @contextmanager
@@ -249,7 +259,7 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
                 _insert(con, sql, severity_case)
             lap(check.__name__)
         step("collecting findings")
-        scenarios, scen_findings = _scenarios(inputs, con)
+        attributes, scen_findings = _scenario_attributes(inputs)
         extra = pre + scen_findings
         if extra:
             eff = effective_severity(contract)
@@ -276,7 +286,7 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
         rule_counts=rule_counts,
         rows=sum(i.rows for i in inputs if i.kind == "data"),
         con=con,
-        scenarios=scenarios,
+        scenario_attributes=attributes,
         truncated=any(n > findings_per_rule for _, _, n in rule_counts),
         usable_rows=int(usable),
         timings=timings,
