@@ -6,7 +6,7 @@ DEMO   := example_db/submissions
 DB     := example_db/demo.duckdb
 PORT   ?= 8501
 
-.PHONY: demo demo-check demo-db test lint bench clean
+.PHONY: demo demo-db test lint bench clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -24,13 +24,8 @@ $(VENV)/.installed-test: pyproject.toml | $(BIN)/python
 demo: demo-db
 	$(BIN)/milepost dashboard --db $(DB) --port $(PORT)
 
-demo-check: $(VENV)/.installed
-	$(BIN)/python -m milepost.example_db.generate $(DEMO)
-	-$(BIN)/milepost check --contract example_db/contract $(DEMO)/*
-
-demo-db: demo-check
-	rm -f $(DB)
-	$(BIN)/python -m milepost.example_db.load $(DEMO) --db $(DB)
+demo-db: $(VENV)/.installed
+	$(BIN)/python -m milepost.example_db.demo $(DEMO) --db $(DB)
 
 test: $(VENV)/.installed-test
 	$(BIN)/python -m pytest -q

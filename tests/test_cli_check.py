@@ -147,3 +147,14 @@ def test_every_command_has_help():
     for args in (["check"], ["rules"], ["contract", "lint"], ["contract", "show"], ["contract", "template"]):
         res = _run(*args, "--help")
         assert res.exit_code == 0 and len(res.stdout.strip()) > 40, args
+
+
+def test_text_report_folds_repeated_findings(tmp_path, basic):
+    rows = consistent_rows(basic)
+    for r in rows[10:20]:
+        r["variable"] = "emisions.co2"
+    path = write_csv(tmp_path / "many.csv", rows)
+    lines = _run("check", path, "--contract", BASIC_CONTRACT).stdout.splitlines()
+    shown = [line for line in lines if "unknown-variable: " in line]
+    assert [line.split(":")[1] for line in shown] == ["12", "13", "14"]
+    assert "  … and 7 more like it on lines 15–21" in lines

@@ -66,6 +66,36 @@ def finding_line(f: Finding) -> str:
     return text
 
 
+def _collapse(findings: list[Finding], keep: int = 3) -> list[tuple[Finding, list[Finding]]]:
+    """Runs of the same rule and message in one file: the first `keep` are shown, the rest folded into a count."""
+    out: list[tuple[Finding, list[Finding]]] = []
+    run: list[Finding] = []
+
+    def flush() -> None:
+        out.extend((f, []) for f in run[:keep])
+        if len(run) > keep:
+            out[-1] = (out[-1][0], run[keep:])
+
+    for f in findings:
+        if run and (f.path, f.rule, f.message) != (run[0].path, run[0].rule, run[0].message):
+            flush()
+            run = []
+        run.append(f)
+    flush()
+    return out
+
+
+def _ranges(lines: list[int | None]) -> str:
+    nums = sorted({n for n in lines if n is not None})
+    parts, start = [], None
+    for a, b in zip(nums, [*nums[1:], None], strict=True):
+        start = a if start is None else start
+        if b != a + 1:
+            parts.append(f"{start}–{a}" if a != start else f"{a}")
+            start = None
+    return ", ".join(parts[:6]) + (" …" if len(parts) > 6 else "")
+
+
 def to_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT) -> Iterator[str]:
     """Plain lines: inputs, a count per rule, the findings (up to `limit`), and a one-line verdict."""
     c = result.contract
@@ -80,8 +110,10 @@ def to_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT
             yield f"{rule:<24}{sev:<11}{n}"
         yield ""
     shown = result.findings[:limit]
-    for f in shown:
+    for f, repeats in _collapse(shown):
         yield finding_line(f)
+        if repeats:
+            yield f"  … and {len(repeats)} more like it on lines {_ranges([r.line for r in repeats])}"
     total = sum(result.counts.values())
     if total > len(shown):
         yield f"… {total - len(shown)} more findings (see --format json or xlsx)"
