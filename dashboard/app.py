@@ -1,0 +1,23 @@
+"""Milepost reviewer dashboard: run with `milepost dashboard` (or `streamlit run dashboard/app.py -- --db PATH`)."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from milepost.dashboard import ui
+
+st.set_page_config(page_title="Milepost", page_icon=":material/flag:", layout="wide")
+
+PAGES = [
+    st.Page("views/screen.py", title="Screen", icon=":material/filter_alt:", default=True),
+    st.Page("views/rates.py", title="Rates", icon=":material/trending_down:"),
+    st.Page("views/costs.py", title="Costs", icon=":material/payments:"),
+    st.Page("views/pathways.py", title="Pathways", icon=":material/timeline:"),
+    st.Page("views/submissions.py", title="Submissions", icon=":material/inventory_2:"),
+    st.Page("views/selfcheck.py", title="Self-check", icon=":material/fact_check:"),
+]
+
+page = st.navigation(PAGES)
+ui.begin_run()
+page.run()
+ui.publish_url()  # pages that end early call ui.stop(), which publishes first

@@ -1,0 +1,102 @@
+"""Benchmark: the Screen and Rates page queries on a 3,000-scenario database, as a ratio to a full indicators scan."""
+
+from __future__ import annotations
+
+import statistics
+import time
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import duckdb
+
+from milepost.dashboard import connection, queries
+
+N_SCENARIOS = 3000
+REPEATS = 7
+
+
+def build(workdir: Path, n_scenarios: int = N_SCENARIOS) -> Path:
+    """The benchmark database: the generator's many-scenario ensemble, ingested per model (reused if present)."""
+    from milepost.example_db.generate import CONTRACT_DIR, write_many_scenarios
+    from milepost.validate.ingest import ingest
+
+    db = Path(workdir) / f"dashboard-bench-{n_scenarios}.duckdb"
+    if db.exists():
+        return db
+    paths = write_many_scenarios(Path(workdir) / f"many-{n_scenarios}", n_scenarios)
+    partial = db.with_name(db.name + ".building")
+    partial.unlink(missing_ok=True)
+    for data, scenarios in zip(paths[::2], paths[1::2], strict=True):
+        result = ingest([data, scenarios], partial, CONTRACT_DIR)
+        if result.status != "accepted":
+            raise RuntimeError(f"bench input {data.name} was not accepted: {result.reason}")
+    partial.rename(db)
+    return db
+
+
+def _timed(fn: Callable[[], Any]) -> float:
+    t = time.perf_counter()
+    fn()
+    return time.perf_counter() - t
+
+
+def _ratio(fn: Callable[[], Any], floor: Callable[[], Any], repeats: int = REPEATS) -> tuple[float, float]:
+    """Median seconds of `fn` and of `floor`, timed alternately so that load from other processes hits both."""
+    fn(), floor()  # warm-up: first touch of the file's pages
+    pairs = [(_timed(fn), _timed(floor)) for _ in range(repeats)]
+    return statistics.median(p[0] for p in pairs), statistics.median(p[1] for p in pairs)
+
+
+def _on_cursor(con: duckdb.DuckDBPyConnection, fn: Callable[..., Any], *args: Any) -> Any:
+    cur = con.cursor()
+    cur.execute(f"USE {connection.CATALOG}")
+    try:
+        return fn(cur, *args)
+    finally:
+        cur.close()
+
+
+def run(workdir: Path) -> list[dict[str, Any]]:
+    """Time what the Screen and Rates pages query per interaction (default filters), and the per-version `choices`,
+    each as a ratio to a full scan of the indicators table."""
+    db = build(Path(workdir))
+    con = connection.open_read_only(db)
+    try:
+        ch = _on_cursor(con, queries.choices)
+        sel = queries.Selection()
+        later = [y for y in ch.milestones if y > sel.year]
+        n_scen = len(_on_cursor(con, queries.selected, queries.Selection(include_references=True)))
+        n_ind = _on_cursor(con, queries.full_scan)[0]
+
+        # the pages cache `choices` once per file version; it is timed on its own
+        def screen() -> None:
+            _on_cursor(con, queries.band_edges, sel)
+            _on_cursor(con, queries.screen_table, sel, ch.base_year, later[0] if later else None, ch.attributes)
+            _on_cursor(con, queries.variable_unit, sel.variable)
+
+        def rates() -> None:
+            periods = _on_cursor(con, queries.rate_periods, sel.variable, sel.region)
+            period = next(p for p in periods if p[0] == sel.year)
+            _on_cursor(con, queries.band_edges, sel)
+            queries.summarise(_on_cursor(con, queries.rates, sel, *period), ["kind", "band"])
+
+        rows = []
+        for name, fn in (("dashboard.screen", screen), ("dashboard.rates", rates),
+                         ("dashboard.choices", lambda: _on_cursor(con, queries.choices))):
+            seconds, floor = _ratio(fn, lambda: _on_cursor(con, queries.full_scan))
+            rows.append({
+                "name": name, "seconds": round(seconds, 4), "baseline": "count(*), sum(value) over indicators",
+                "baseline_seconds": round(floor, 4), "ratio": round(seconds / floor, 2),
+                "scenarios": n_scen, "indicator_rows": n_ind, "repeats": REPEATS,
+            })
+        return rows
+    finally:
+        con.close()
+
+
+if __name__ == "__main__":
+    import sys
+
+    for row in run(Path(sys.argv[1] if len(sys.argv) > 1 else ".")):
+        print(row)

@@ -1,0 +1,122 @@
+"""Altair chart builders for the dashboard, and their PNG/SVG export through vl-convert."""
+
+from __future__ import annotations
+
+import altair as alt
+import pandas as pd
+import vl_convert
+
+# page data is aggregated in DuckDB first; the largest frame (rate points, two kinds x 3,000 scenarios) exceeds
+# Altair's default 5,000-row guard, which exists to stop accidental huge embeds
+alt.data_transformers.disable_max_rows()
+
+PALETTE = ["#2b83ba", "#7fbf7b", "#fdae61", "#d7191c", "#984ea3", "#636363", "#a6761d"]
+
+
+def band_scale(labels: list[str]) -> alt.Scale:
+    """One colour per band, the same on every page (low = blue ... high = red for three bands)."""
+    if len(labels) == 3:
+        colours = [PALETTE[0], PALETTE[2], PALETTE[3]]
+    elif len(labels) == 2:
+        colours = [PALETTE[0], PALETTE[3]]
+    else:
+        colours = [PALETTE[i % len(PALETTE)] for i in range(len(labels))]
+    return alt.Scale(domain=labels, range=colours)
+
+
+def histogram(df: pd.DataFrame, edges: list[float], labels: list[str], title: str, unit: str) -> alt.LayerChart:
+    """Counts of the ensemble at the milestone, coloured by band, with the band edges as rules."""
+    bars = alt.Chart(df).mark_bar().encode(
+        x=alt.X("value:Q", bin=alt.Bin(maxbins=30), title=f"{title} [{unit}]"),
+        y=alt.Y("count():Q", title="scenarios", stack=True),
+        color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band"),
+        tooltip=[alt.Tooltip("band_label:N", title="band"), alt.Tooltip("count():Q", title="scenarios")],
+    )
+    rules = alt.Chart(pd.DataFrame({"edge": edges})).mark_rule(color="black", strokeDash=[4, 3]).encode(
+        x="edge:Q", tooltip=[alt.Tooltip("edge:Q", format=",.4~g", title="band edge")])
+    return alt.layer(bars, rules).properties(height=280)
+
+
+def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> alt.FacetChart:
+    """Per band, box plot and jittered points of the reduction rates; one panel per rate kind."""
+    base = alt.Chart().encode(
+        x=alt.X("band_label:N", sort=labels, title="band"),
+        color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, legend=None),
+    )
+    box = base.mark_boxplot(extent=1.5, opacity=0.45, size=40, outliers=False).encode(
+        y=alt.Y("value:Q", title=f"{title} [%/yr]"))
+    points = base.mark_circle(size=28, opacity=0.75).encode(
+        y="value:Q",
+        xOffset=alt.XOffset("jitter:Q", scale=alt.Scale(domain=[-1, 1])),
+        tooltip=[
+            alt.Tooltip("model:N"), alt.Tooltip("scenario:N"), alt.Tooltip("band_label:N", title="band"),
+            alt.Tooltip("value:Q", format=".2f", title="%/yr"),
+            alt.Tooltip("band_value:Q", format=",.4~g", title="milestone value"),
+        ],
+    ).transform_calculate(jitter="(random() - 0.5) * 1.2")
+    return alt.layer(box, points, data=df).properties(width=300, height=320).facet(
+        column=alt.Column("rate:N", title=None)).resolve_scale(y="independent")
+
+
+def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> alt.FacetChart:
+    """Per cost metric and year: the band medians (points) and interquartile ranges (bars), side by side.
+
+    Panels keep the order of `summary["panel"]`."""
+    base = alt.Chart().encode(
+        x=alt.X("year:O", title=None),
+        xOffset=alt.XOffset("band_label:N", sort=labels),
+        color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band",
+                        legend=alt.Legend(orient="top")),
+        tooltip=[
+            alt.Tooltip("metric:N"), alt.Tooltip("year:O"), alt.Tooltip("band_label:N", title="band"),
+            alt.Tooltip("n:Q"), alt.Tooltip("median:Q", format=",.4~g"),
+            alt.Tooltip("q25:Q", format=",.4~g"), alt.Tooltip("q75:Q", format=",.4~g"),
+        ],
+    )
+    iqr = base.mark_rule(strokeWidth=6, opacity=0.45).encode(y=alt.Y("q25:Q", title=None), y2="q75:Q")
+    med = base.mark_point(filled=True, size=60).encode(y="median:Q")
+    return alt.layer(iqr, med, data=summary).properties(width=260, height=200).facet(
+        facet=alt.Facet("panel:N", title=None, header=alt.Header(labelFontWeight="bold"),
+                        sort=list(dict.fromkeys(summary["panel"]))), columns=3,
+    ).resolve_scale(y="independent")
+
+
+def pathway(bands: pd.DataFrame, labels: list[str], title: str, unit: str,
+            scenarios: pd.DataFrame | None = None, reference: pd.DataFrame | None = None) -> alt.LayerChart:
+    """Median line and 25-75 % / 5-95 % ranges per band over time, optional single scenarios and the reference."""
+    colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band")
+    x = alt.X("year:Q", axis=alt.Axis(format="d"), title=None)
+    base = alt.Chart(bands).encode(x=x, color=colour)
+    outer = base.mark_area(opacity=0.12).encode(y=alt.Y("q05:Q", title=f"{title} [{unit}]"), y2="q95:Q")
+    inner = base.mark_area(opacity=0.28).encode(y="q25:Q", y2="q75:Q")
+    line = base.mark_line(strokeWidth=2.5).encode(
+        y="median:Q",
+        tooltip=[alt.Tooltip("band_label:N", title="band"), alt.Tooltip("year:Q"), alt.Tooltip("n:Q"),
+                 alt.Tooltip("median:Q", format=",.4~g"), alt.Tooltip("q25:Q", format=",.4~g"),
+                 alt.Tooltip("q75:Q", format=",.4~g"), alt.Tooltip("q05:Q", format=",.4~g"),
+                 alt.Tooltip("q95:Q", format=",.4~g")],
+    )
+    layers: list[alt.Chart] = [outer, inner, line]
+    if scenarios is not None and not scenarios.empty:
+        layers.append(alt.Chart(scenarios).mark_line(strokeWidth=1.2, strokeDash=[5, 3], color="#333333").encode(
+            x=x, y="value:Q", detail="label:N",
+            tooltip=[alt.Tooltip("model:N"), alt.Tooltip("scenario:N"), alt.Tooltip("year:Q"),
+                     alt.Tooltip("value:Q", format=",.4~g")]))
+    if reference is not None and not reference.empty:
+        layers.append(alt.Chart(reference).mark_point(shape="diamond", size=160, filled=True, color="black").encode(
+            x=x, y="value:Q",
+            tooltip=[alt.Tooltip("label:N", title="reference"), alt.Tooltip("year:Q"),
+                     alt.Tooltip("value:Q", format=",.4~g")]))
+        layers.append(alt.Chart(reference).mark_text(align="left", dx=8, dy=-8, fontSize=11).encode(
+            x=x, y="value:Q", text="label:N"))
+    return alt.layer(*layers).properties(height=380)
+
+
+def to_png(chart: alt.TopLevelMixin, scale: float = 2.0) -> bytes:
+    """The chart as a PNG image (rendered offline by vl-convert)."""
+    return vl_convert.vegalite_to_png(chart.to_json(), scale=scale)
+
+
+def to_svg(chart: alt.TopLevelMixin) -> str:
+    """The chart as an SVG document (rendered offline by vl-convert)."""
+    return vl_convert.vegalite_to_svg(chart.to_json())

@@ -1,0 +1,322 @@
+"""Pure query functions for the dashboard: a DuckDB connection in, a DataFrame (or plain values) out."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import duckdb
+import pandas as pd
+
+RATE_KINDS = ("rate_cagr", "rate_linear")
+RATE_LABELS = {"rate_cagr": "CAGR", "rate_linear": "linear"}
+LOSS_VARIABLES = ("gdp.mer", "gdp.ppp", "consumption")
+# (kind, variable) -> label shown on the Costs page, in display order
+COST_METRICS: dict[tuple[str, str], str] = {
+    ("loss_pct", "gdp.mer"): "GDP (MER) loss",
+    ("loss_pct", "gdp.ppp"): "GDP (PPP) loss",
+    ("loss_pct", "consumption"): "Consumption loss",
+    ("growth_reduction_pp", "consumption"): "Consumption growth reduction",
+    ("value", "price.carbon"): "Carbon price",
+    ("npv", "cost.abatement"): "NPV of abatement cost",
+}
+
+
+@dataclass(frozen=True)
+class Selection:
+    """Which scenarios are compared and how they are grouped into bands by their value at a milestone."""
+
+    variable: str = "emissions.ghg"
+    year: int = 2030
+    region: str = "World"
+    edges: tuple[float, ...] = ()  # band edges; empty = terciles of the selected values
+    models: tuple[str, ...] = ()  # empty = every model
+    attribute: str = ""  # scenario attribute to filter on ("" = none)
+    attribute_values: tuple[str, ...] = ()
+    include_references: bool = False  # scenarios that others name as their reference (no-policy runs)
+
+    def params(self) -> dict[str, Any]:
+        return {
+            "variable": self.variable,
+            "year": int(self.year),
+            "region": self.region,
+            "edges": sorted(float(e) for e in self.edges),
+            "models": list(self.models),
+            "attribute": self.attribute,
+            "attribute_values": list(self.attribute_values),
+            "include_references": bool(self.include_references),
+        }
+
+
+@dataclass(frozen=True)
+class Choices:
+    """What the database offers to choose from."""
+
+    variables: list[str] = field(default_factory=list)
+    years: list[int] = field(default_factory=list)
+    base_year: int | None = None
+    regions: list[str] = field(default_factory=list)
+    models: list[str] = field(default_factory=list)
+    attributes: list[str] = field(default_factory=list)
+    data_variables: list[str] = field(default_factory=list)
+
+    @property
+    def milestones(self) -> list[int]:
+        return [y for y in self.years if self.base_year is None or y > self.base_year]
+
+
+# The selected ensemble at the milestone, its band edges (given, or terciles of the selection) and each scenario's
+# band number (how many edges its value reaches). Every results query starts from `banded`.
+_BANDED = """
+sel AS (
+  SELECT i.model, i.scenario, i.value AS band_value, s.attributes
+  FROM current_indicators i
+  LEFT JOIN current_scenarios s ON s.model = i.model AND s.scenario = i.scenario
+  WHERE i.kind = 'value' AND i.variable = $variable AND i.region = $region
+    AND i.year_from = $year AND i.year_to = $year AND i.value IS NOT NULL
+    AND (len($models::VARCHAR[]) = 0 OR list_contains($models::VARCHAR[], i.model))
+    AND ($attribute = '' OR len($attribute_values::VARCHAR[]) = 0
+         OR list_contains($attribute_values::VARCHAR[], s.attributes ->> $attribute))
+    AND ($include_references OR NOT EXISTS (
+         SELECT 1 FROM current_scenarios r
+         WHERE r.model = i.model AND r.reference = i.scenario AND r.scenario <> i.scenario))
+),
+edges AS (
+  SELECT unnest(CASE WHEN len($edges::DOUBLE[]) = 0
+                     THEN (SELECT quantile_cont(band_value, [1/3, 2/3]) FROM sel)
+                     ELSE $edges::DOUBLE[] END) AS e
+),
+banded AS (
+  SELECT sel.*, (SELECT count(*) FROM edges WHERE sel.band_value >= edges.e)::INTEGER AS band FROM sel
+)
+"""
+
+
+def _df(con: duckdb.DuckDBPyConnection, sql: str, params: dict[str, Any] | list[Any] | None = None) -> pd.DataFrame:
+    return con.execute(sql, params or {}).df()
+
+
+def band_labels(n_bands: int) -> list[str]:
+    """Names of the bands, lowest first."""
+    if n_bands <= 1:
+        return ["all"]
+    if n_bands == 2:
+        return ["low", "high"]
+    if n_bands == 3:
+        return ["low", "middle", "high"]
+    return ["B1 low", *[f"B{i}" for i in range(2, n_bands)], f"B{n_bands} high"]
+
+
+def choices(con: duckdb.DuckDBPyConnection) -> Choices:
+    """Variables, milestone years, regions, models and scenario attributes present in the current data.
+
+    The distinct values come from the base tables restricted to submissions that still have a current scenario
+    (a semi-join on the submission id): joining the views on (submission, model, scenario) first costs about a
+    second on a 3,000-scenario database, for the same lists.
+    """
+    live = "submission_id IN (SELECT submission_id FROM current_versions)"
+
+    def column(sql: str) -> list[Any]:
+        return [v for (v,) in con.execute(sql).fetchall()]
+
+    years = [int(y) for y in column(
+        f"SELECT DISTINCT year_from FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")]
+    variables = column(f"SELECT DISTINCT variable FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")
+    regions = column(f"SELECT DISTINCT region FROM indicators WHERE kind = 'value' AND {live} "
+                     "ORDER BY region <> 'World', region")
+    models = column("SELECT DISTINCT model FROM current_scenarios ORDER BY 1")
+    attributes = column("""SELECT DISTINCT k FROM (SELECT unnest(json_keys(attributes)) AS k FROM current_scenarios
+                           WHERE attributes IS NOT NULL) WHERE k <> 'reference' ORDER BY 1""")
+    # the base year is where every `cumulative` indicator starts; without them, the first value year
+    (base,) = con.execute(
+        f"SELECT coalesce((SELECT min(year_from) FROM indicators WHERE kind = 'cumulative' AND {live}), "
+        f"(SELECT min(year_from) FROM indicators WHERE kind = 'value' AND {live}))").fetchall()[0]
+    data_variables = column(f"SELECT DISTINCT variable FROM data WHERE {live} ORDER BY 1")
+    return Choices(variables, years, int(base) if base is not None else None, regions, models, attributes,
+                   data_variables)
+
+
+def attribute_values(con: duckdb.DuckDBPyConnection, attribute: str) -> list[str]:
+    """The distinct values of one scenario attribute."""
+    rows = con.execute(
+        "SELECT DISTINCT attributes ->> $a AS v FROM current_scenarios WHERE v IS NOT NULL ORDER BY 1",
+        {"a": attribute}).fetchall()
+    return [v for (v,) in rows]
+
+
+def band_edges(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[float]:
+    """The band edges in use: the given ones, or the terciles of the selected values."""
+    (edges,) = con.execute(f"WITH {_BANDED} SELECT list(e ORDER BY e) FROM edges", sel.params()).fetchall()[0]
+    return [float(e) for e in edges or []]
+
+
+def selected(con: duckdb.DuckDBPyConnection, sel: Selection) -> pd.DataFrame:
+    """The selected scenarios with their band number and value at the milestone."""
+    sql = (f"WITH {_BANDED} SELECT model, scenario, band, band_value FROM banded "
+           "ORDER BY band, band_value, model, scenario")
+    return _df(con, sql, sel.params())
+
+
+def variable_unit(con: duckdb.DuckDBPyConnection, variable: str) -> str:
+    """The (contract) unit of a variable as stored."""
+    rows = con.execute("SELECT unit FROM current_data WHERE variable = $v LIMIT 1", {"v": variable}).fetchall()
+    return (rows[0][0] or "") if rows else ""
+
+
+def screen_table(con: duckdb.DuckDBPyConnection, sel: Selection, base_year: int | None,
+                 next_year: int | None, attributes: list[str] | tuple[str, ...] = ()) -> pd.DataFrame:
+    """One row per selected scenario: band, value at the milestone and key indicators of the same variable."""
+    params = {**sel.params(), "base": base_year, "next": next_year}
+    attr_cols = "".join(
+        f", b.attributes ->> $attr_{i} AS \"{a.replace(chr(34), chr(34) * 2)}\"" for i, a in enumerate(attributes))
+    params.update({f"attr_{i}": a for i, a in enumerate(attributes)})
+    sql = f"""WITH {_BANDED}
+    SELECT b.model, b.scenario{attr_cols}, b.band, b.band_value AS value,
+      max(i.value) FILTER (WHERE i.kind = 'value' AND i.year_from = $base) AS base_value,
+      max(i.value) FILTER (WHERE i.kind = 'rate_cagr' AND i.year_from = $base AND i.year_to = $year) AS cagr_to,
+      max(i.value) FILTER (WHERE i.kind = 'rate_cagr' AND i.year_from = $year AND i.year_to = $next) AS cagr_after,
+      max(i.value) FILTER (WHERE i.kind = 'cumulative' AND i.year_to = $year) AS cumulative,
+      max(i.unit) FILTER (WHERE i.kind = 'cumulative' AND i.year_to = $year) AS cumulative_unit,
+      max(i.value) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_year,
+      max(i.value) FILTER (WHERE i.kind = 'peak_year') AS peak_year
+    FROM banded b
+    LEFT JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario
+         AND i.region = $region AND i.variable = $variable
+    GROUP BY ALL
+    ORDER BY b.band, value, b.model, b.scenario"""
+    return _df(con, sql, params)
+
+
+def rate_periods(con: duckdb.DuckDBPyConnection, variable: str, region: str) -> list[tuple[int, int]]:
+    """The (year_from, year_to) pairs for which reduction rates exist."""
+    rows = con.execute(
+        """SELECT DISTINCT year_from, year_to FROM current_indicators
+           WHERE kind IN ('rate_cagr', 'rate_linear') AND variable = $v AND region = $r ORDER BY 1, 2""",
+        {"v": variable, "r": region}).fetchall()
+    return [(int(a), int(b)) for a, b in rows]
+
+
+def rates(con: duckdb.DuckDBPyConnection, sel: Selection, year_from: int, year_to: int) -> pd.DataFrame:
+    """CAGR and linear rate of the band variable over one period, one row per scenario and kind (value may be null)."""
+    sql = f"""WITH {_BANDED}
+    SELECT b.model, b.scenario, b.band, b.band_value, i.kind, i.value
+    FROM banded b
+    JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario
+         AND i.region = $region AND i.variable = $variable
+         AND i.kind IN ('rate_cagr', 'rate_linear') AND i.year_from = $yf AND i.year_to = $yt
+    ORDER BY i.kind, b.band, b.model, b.scenario"""
+    return _df(con, sql, {**sel.params(), "yf": int(year_from), "yt": int(year_to)})
+
+
+def costs(con: duckdb.DuckDBPyConnection, sel: Selection, base_year: int | None) -> pd.DataFrame:
+    """Cost indicators (losses, carbon price, NPV) of the selected scenarios in the band region, long format."""
+    sql = f"""WITH {_BANDED}
+    SELECT b.model, b.scenario, b.band, i.kind, i.variable, i.year_from, i.year_to AS year, i.value, i.unit
+    FROM banded b
+    JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario AND i.region = $region
+    WHERE (i.kind = 'loss_pct' AND i.variable IN ('gdp.mer', 'gdp.ppp', 'consumption'))
+       OR (i.kind = 'growth_reduction_pp' AND i.variable = 'consumption')
+       OR (i.kind = 'value' AND i.variable = 'price.carbon' AND i.year_from > coalesce($base, -1))
+       OR (i.kind = 'npv' AND i.variable = 'cost.abatement')
+    ORDER BY i.kind, i.variable, year, b.band, b.model, b.scenario"""
+    return _df(con, sql, {**sel.params(), "base": base_year})
+
+
+def pathway_bands(con: duckdb.DuckDBPyConnection, sel: Selection, variable: str, region: str) -> pd.DataFrame:
+    """Per band and year: n, median and the 5/25/75/95 % quantiles of `variable` in `region`."""
+    sql = f"""WITH {_BANDED}, q AS (
+      SELECT b.band, d.year, any_value(d.unit) AS unit, count(d.value) AS n,
+             quantile_cont(d.value, [0.05, 0.25, 0.5, 0.75, 0.95]) AS q
+      FROM banded b
+      JOIN current_data d ON d.model = b.model AND d.scenario = b.scenario
+           AND d.variable = $pv AND d.region = $pr
+      WHERE d.value IS NOT NULL
+      GROUP BY ALL)
+    SELECT band, year, unit, n, q[1] AS q05, q[2] AS q25, q[3] AS median, q[4] AS q75, q[5] AS q95
+    FROM q ORDER BY band, year"""
+    return _df(con, sql, {**sel.params(), "pv": variable, "pr": region})
+
+
+def scenario_series(con: duckdb.DuckDBPyConnection, variable: str, region: str,
+                    keys: list[tuple[str, str]]) -> pd.DataFrame:
+    """The reported points of `variable` in `region` for the given (model, scenario) pairs."""
+    sql = """WITH k AS (SELECT unnest($m::VARCHAR[]) AS model, unnest($s::VARCHAR[]) AS scenario)
+    SELECT d.model, d.scenario, d.year, d.value, d.unit
+    FROM current_data d JOIN k USING (model, scenario)
+    WHERE d.variable = $v AND d.region = $r ORDER BY d.model, d.scenario, d.year"""
+    return _df(con, sql, {"m": [k[0] for k in keys], "s": [k[1] for k in keys], "v": variable, "r": region})
+
+
+def data_regions(con: duckdb.DuckDBPyConnection, variable: str) -> list[str]:
+    """Regions that report `variable`, World first."""
+    rows = con.execute("SELECT DISTINCT region FROM current_data WHERE variable = $v "
+                       "ORDER BY region <> 'World', region", {"v": variable}).fetchall()
+    return [r for (r,) in rows]
+
+
+def contract_name(con: duckdb.DuckDBPyConnection) -> str | None:
+    """The contract of the newest accepted submission."""
+    rows = con.execute("""SELECT contract_name FROM submissions WHERE status = 'accepted'
+                          ORDER BY submitted_at DESC, id DESC LIMIT 1""").fetchall()
+    return rows[0][0] if rows else None
+
+
+def submissions(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
+    """Every submission, newest first, with its version number per model."""
+    sql = """SELECT id, model,
+        row_number() OVER (PARTITION BY model ORDER BY submitted_at, id) AS version,
+        status, submitted_at, submitted_by, rows, errors, warnings, notes, superseded_by,
+        contract_name, note, sha256
+      FROM submissions ORDER BY submitted_at DESC, id DESC"""
+    return _df(con, sql)
+
+
+def rule_counts(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
+    """Findings per submission, rule and severity."""
+    return _df(con, """SELECT submission_id, rule, severity, count(*) AS n FROM findings
+                       GROUP BY ALL ORDER BY submission_id, rule""")
+
+
+def findings(con: duckdb.DuckDBPyConnection, submission_id: int, rules: list[str] | tuple[str, ...] = (),
+             severities: list[str] | tuple[str, ...] = (), limit: int = 5000) -> pd.DataFrame:
+    """The findings of one submission, optionally restricted to some rules and severities."""
+    sql = """SELECT rule, severity, path, line, sheet, model, scenario, region, variable, unit, year, value,
+                    expected, message, hint
+      FROM findings
+      WHERE submission_id = $id
+        AND (len($rules::VARCHAR[]) = 0 OR list_contains($rules::VARCHAR[], rule))
+        AND (len($sev::VARCHAR[]) = 0 OR list_contains($sev::VARCHAR[], severity))
+      ORDER BY severity = 'error' DESC, severity = 'warning' DESC, rule, path, line
+      LIMIT $limit"""
+    return _df(con, sql, {"id": int(submission_id), "rules": list(rules), "sev": list(severities), "limit": limit})
+
+
+def summarise(df: pd.DataFrame, by: list[str], value: str = "value") -> pd.DataFrame:
+    """n (non-null), n_missing, median and interquartile range of `value` per group (linear quantiles)."""
+    g = df.groupby(by, sort=True, observed=True)[value]
+    out = pd.DataFrame({
+        "n": g.count(),
+        "n_missing": g.size() - g.count(),
+        "median": g.median(),
+        "q25": g.quantile(0.25),
+        "q75": g.quantile(0.75),
+    }).reset_index()
+    out["iqr"] = out["q75"] - out["q25"]
+    return out
+
+
+def band_ratio(summary: pd.DataFrame, by: list[str], top: int, bottom: int) -> pd.DataFrame:
+    """Median of band `top` over median of band `bottom` per group, with both band sizes (ratio only if bottom > 0)."""
+    cols = [*by, "median", "n"]
+    t = summary.loc[summary["band"] == top, cols].rename(columns={"median": "median_top", "n": "n_top"})
+    b = summary.loc[summary["band"] == bottom, cols].rename(columns={"median": "median_bottom", "n": "n_bottom"})
+    out = t.merge(b, on=by, how="outer")
+    out[["n_top", "n_bottom"]] = out[["n_top", "n_bottom"]].fillna(0).astype("int64")
+    out["ratio"] = out["median_top"] / out["median_bottom"].where(out["median_bottom"] > 0)
+    return out
+
+
+def full_scan(con: duckdb.DuckDBPyConnection) -> tuple[int, float]:
+    """Count and sum over the whole indicators table: the floor the bench compares the page queries with."""
+    n, s = con.execute("SELECT count(*), sum(value) FROM indicators").fetchall()[0]
+    return int(n), float(s or 0.0)

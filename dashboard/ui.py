@@ -1,0 +1,218 @@
+"""Shared dashboard pieces: URL-backed widgets, the band controls, downloads, cautions and number formats."""
+
+from __future__ import annotations
+
+import contextlib
+import itertools
+import math
+import re
+from collections.abc import Callable
+from typing import Any, TypeVar
+
+import altair as alt
+import duckdb
+import pandas as pd
+import streamlit as st
+
+from milepost.dashboard import charts, connection, queries
+
+T = TypeVar("T")
+
+CAUTION = (
+    "Model projections, not forecasts: each number is what one model computes under one scenario's assumptions. "
+    "Mitigation costs exclude avoided climate damages and co-benefits."
+)
+_URL = "_url_state"  # the query parameters this run wants in the address bar
+_KEEP = "_kept_values"  # widget values that survive visits to pages that do not show the widget
+
+
+def begin_run() -> None:
+    """Start collecting this run's URL state (called by app.py before the page runs)."""
+    st.session_state[_URL] = {}
+
+
+def publish_url() -> None:
+    """Replace the address-bar query with the current page's filters, so the view can be shared and restored."""
+    wanted = st.session_state.get(_URL, {})
+    current = {k: st.query_params.get_all(k) for k in st.query_params}
+    as_lists = {k: v if isinstance(v, list) else [v] for k, v in wanted.items()}
+    if current != as_lists:
+        if wanted:
+            st.query_params.from_dict(wanted)
+        else:  # from_dict({}) empties the params without telling the browser
+            st.query_params.clear()
+
+
+def stop() -> None:
+    """End the page early, keeping the address bar in step (Streamlit drops commands issued after st.stop)."""
+    publish_url()
+    st.stop()
+
+
+def _url_values(param: str) -> list[str]:
+    return st.query_params.get_all(param) if param in st.query_params else []
+
+
+def url_widget(widget: Callable[..., T], label: str, *, key: str, param: str, default: Any,
+               parse: Callable[[list[str]], Any], dump: Callable[[Any], str | list[str]],
+               valid: Callable[[Any], bool] = lambda v: True, **kwargs: Any) -> T:
+    """A widget whose value starts from the URL (if valid), else from earlier on this session, else `default`.
+
+    Its value is written back to the URL at the end of the run.
+    """
+    keep = st.session_state.setdefault(_KEEP, {})
+    if key in st.session_state and valid(st.session_state[key]):
+        # re-assigning hands the value to this page's widget: a widget of the same key on another page has
+        # another identity, and Streamlit would otherwise reset it to its default after a page switch
+        st.session_state[key] = st.session_state[key]
+    else:
+        candidates = []
+        raw = _url_values(param)
+        if raw:
+            with contextlib.suppress(ValueError, TypeError):
+                candidates.append(parse(raw))
+        if key in keep:
+            candidates.append(keep[key])
+        st.session_state[key] = next((c for c in candidates if valid(c)), default)
+    value = widget(label, key=key, **kwargs)
+    keep[key] = value
+    st.session_state.setdefault(_URL, {})[param] = dump(value)
+    return value
+
+
+def url_selectbox(label: str, options: list[Any], *, key: str, param: str, default: Any,
+                  cast: Callable[[str], Any] = str, **kwargs: Any) -> Any:
+    """A selectbox backed by one query parameter."""
+    fallback = default if default in options else (options[0] if options else None)
+    return url_widget(st.selectbox, label, key=key, param=param, default=fallback, options=options,
+                      parse=lambda raw: cast(raw[0]), dump=str, valid=lambda v: v in options, **kwargs)
+
+
+def url_multiselect(label: str, options: list[str], *, key: str, param: str, **kwargs: Any) -> list[str]:
+    """A multiselect backed by a repeated query parameter."""
+    return url_widget(st.multiselect, label, key=key, param=param, default=[], options=options,
+                      parse=list, dump=list, valid=lambda v: isinstance(v, list) and set(v) <= set(options),
+                      **kwargs)
+
+
+def query(fn: Callable[..., T], *args: Any, **kwargs: Any) -> T:
+    """Run one query function on its own cursor of the cached read-only connection."""
+    cur = connection.cursor()
+    try:
+        return fn(cur, *args, **kwargs)
+    finally:
+        cur.close()
+
+
+@st.cache_data(max_entries=8, show_spinner=False)
+def _choices(version: tuple[str, int, int]) -> queries.Choices:
+    return query(queries.choices)
+
+
+def choices() -> queries.Choices:
+    """What the database offers, computed once per version of the file (the key changes when ingest replaces it)."""
+    return _choices(connection.file_key(connection.db_path()))
+
+
+def require_database() -> None:
+    """Stop the page with a clear message if the database file is missing or unreadable."""
+    path = connection.db_path()
+    try:
+        connection.connection(path)
+    except FileNotFoundError:
+        st.error(f"No database at `{path}`. Load submissions with `milepost ingest`, or pass `--db PATH` "
+                 "(env MILEPOST_DB).")
+        stop()
+    except duckdb.Error as e:
+        st.error(f"Cannot open `{path}` read-only: {e}")
+        stop()
+
+
+def caution() -> None:
+    """The caution every results page carries."""
+    st.caption(f"⚠️ {CAUTION}")
+
+
+def chart(ch: alt.TopLevelMixin, name: str, key: str) -> None:
+    """Show an Altair chart with PNG and SVG downloads (rendered only when clicked)."""
+    st.altair_chart(ch, width="stretch")
+    c1, c2, _ = st.columns([1, 1, 6])
+    c1.download_button("PNG", data=lambda: charts.to_png(ch), file_name=f"{name}.png", mime="image/png",
+                       key=f"{key}_png", on_click="ignore", icon=":material/image:")
+    c2.download_button("SVG", data=lambda: charts.to_svg(ch), file_name=f"{name}.svg", mime="image/svg+xml",
+                       key=f"{key}_svg", on_click="ignore", icon=":material/image:")
+
+
+def table(df: pd.DataFrame, name: str, key: str, **kwargs: Any) -> None:
+    """Show a table with a CSV download of exactly what is shown."""
+    config = {c: st.column_config.NumberColumn(format="%.2f") for c, t in df.dtypes.items() if t.kind == "f"}
+    config.update(kwargs.pop("column_config", {}))
+    st.dataframe(df, hide_index=True, width="stretch", key=key, column_config=config, **kwargs)
+    st.download_button("CSV", data=df.to_csv(index=False).encode("utf-8"), file_name=f"{name}.csv",
+                       mime="text/csv", key=f"{key}_csv", on_click="ignore", icon=":material/download:")
+
+
+def fmt(x: float | None, digits: int = 1) -> str:
+    """A number for a sentence: thousands separators, `digits` decimals, a real minus sign, 'n/a' for missing."""
+    if x is None or (isinstance(x, float) and math.isnan(x)):
+        return "n/a"
+    text = f"{x:,.{digits}f}"
+    return text.replace("-", "−")
+
+
+def parse_edges(text: str) -> tuple[float, ...]:
+    """Band edges from free text ('40000, 52,000' is not ambiguous: separators are ';' or whitespace or ', ')."""
+    parts = [p for p in re.split(r"[;\s]+|,\s+", text.strip()) if p]
+    return tuple(sorted({float(p.replace(",", "").replace("_", "")) for p in parts}))
+
+
+def band_sidebar(ch: queries.Choices) -> queries.Selection:
+    """The band definition shared by every results page, in the sidebar and in the URL."""
+    sb = st.sidebar
+    with sb:
+        st.header("Bands")
+        variable = url_selectbox("Variable", ch.variables, key="band_variable", param="var",
+                                 default="emissions.ghg", help="The scenarios are grouped by this variable's value.")
+        years = ch.milestones or ch.years
+        year = url_selectbox("Milestone year", years, key="band_year", param="year", default=2030, cast=int)
+        region = url_selectbox("Region", ch.regions, key="band_region", param="region", default="World")
+        edges_text = url_widget(
+            st.text_input, "Band edges", key="band_edges", param="edges", default="",
+            parse=lambda raw: raw[0], dump=str,
+            placeholder="empty = terciles", help="Values that separate the bands, e.g. `42000 52000`; "
+            "a scenario at an edge belongs to the band above. Empty: the terciles of the selected scenarios.")
+        try:
+            edges = parse_edges(edges_text)
+        except ValueError:
+            st.warning(f"Could not read band edges {edges_text!r}: using terciles.")
+            edges = ()
+        st.header("Filters")
+        models = url_multiselect("Models", ch.models, key="band_models", param="model", placeholder="all models")
+        attribute = url_selectbox("Scenario attribute", ["", *ch.attributes], key="band_attr", param="attr",
+                                  default="", format_func=lambda a: a or "(none)")
+        values: list[str] = []
+        if attribute:
+            values = url_multiselect(f"{attribute} is one of", query(queries.attribute_values, attribute),
+                                     key="band_attr_values", param="attr_value", placeholder="any value")
+        include_refs = url_widget(
+            st.checkbox, "Include reference scenarios", key="band_refs", param="refs", default=False,
+            parse=lambda raw: raw[0] == "1", dump=lambda v: "1" if v else "0",
+            help="Scenarios that other scenarios name as their reference (usually no-policy runs).")
+    return queries.Selection(variable=variable or "", year=int(year or 0), region=region or "", edges=edges,
+                             models=tuple(models), attribute=attribute or "", attribute_values=tuple(values),
+                             include_references=bool(include_refs))
+
+
+def label_bands(df: pd.DataFrame, labels: list[str], column: str = "band") -> pd.DataFrame:
+    """Add a `band_label` column (vectorised lookup of the band number)."""
+    out = df.copy()
+    out["band_label"] = pd.Series(labels, dtype="str").reindex(out[column].to_numpy()).to_numpy()
+    return out
+
+
+def band_ranges(edges: list[float]) -> list[str]:
+    """Human-readable value range of each band, lowest first."""
+    if not edges:
+        return ["all values"]
+    inner = [f"{fmt(lo, 0)} to < {fmt(hi, 0)}" for lo, hi in itertools.pairwise(edges)]
+    return [f"< {fmt(edges[0], 0)}", *inner, f"≥ {fmt(edges[-1], 0)}"]

@@ -1,0 +1,61 @@
+"""Costs: per band, GDP and consumption losses, carbon price and NPV of abatement cost, and what delay costs."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from milepost.dashboard import charts, headlines, queries, ui
+
+ui.require_database()
+ch = ui.choices()
+st.title("Costs")
+if not ch.variables:
+    st.info("The database holds no accepted scenarios yet.")
+    ui.stop()
+sel = ui.band_sidebar(ch)
+
+edges = ui.query(queries.band_edges, sel)
+labels = queries.band_labels(len(edges) + 1)
+df = ui.query(queries.costs, sel, ch.base_year)
+keys = df["kind"] + "|" + df["variable"]
+df["metric"] = keys.map({f"{k}|{v}": label for (k, v), label in queries.COST_METRICS.items()})
+by = ["kind", "variable", "metric", "unit", "year_from", "year"]
+summary = queries.summarise(df, [*by, "band"])
+present = sorted(df["band"].unique().tolist()) or [0]
+top, bottom = present[-1], present[0]
+ratios = queries.band_ratio(summary, by, top=top, bottom=bottom)
+
+st.info(headlines.costs(ratios, labels, top, bottom, sel.year), icon=":material/payments:")
+ui.caution()
+st.caption(f"Bands by {sel.variable} in {sel.year} ({sel.region}): "
+           + "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, ui.band_ranges(edges), strict=True))
+           + ". Losses are against each scenario's own reference scenario (same model); NPV at the base year.")
+
+if df.empty:
+    st.warning("No cost indicators for the selected scenarios.")
+    ui.stop()
+
+thin = int((summary["n"] < 5).sum())
+if thin:
+    st.warning(f"Thin evidence: {thin} of {len(summary)} band medians rest on fewer than 5 scenarios (see n below).",
+               icon=":material/warning:")
+
+order = list(queries.COST_METRICS.values())
+summary = ui.label_bands(summary, labels)
+summary["panel"] = summary["metric"] + " [" + summary["unit"] + "]"
+summary["panel_order"] = summary["metric"].map({m: i for i, m in enumerate(order)})
+summary = summary.sort_values(["panel_order", "year", "band"])
+ui.chart(charts.cost_ranges(summary, labels), f"costs_{sel.variable}_{sel.year}", "costs_chart")
+st.caption("Point: median; bar: 25–75 % range of the scenarios in the band.")
+
+if top != bottom:
+    st.subheader(f"What delay costs: {labels[top]} band over {labels[bottom]} band")
+    ratios["order"] = ratios["metric"].map({m: i for i, m in enumerate(order)})
+    shown = ratios.sort_values(["order", "year"]).rename(columns={
+        "median_top": f"median {labels[top]}", "n_top": f"n {labels[top]}",
+        "median_bottom": f"median {labels[bottom]}", "n_bottom": f"n {labels[bottom]}", "ratio": "ratio of medians"})
+    ui.table(shown.drop(columns=["kind", "variable", "order"]), f"costs_ratio_{sel.year}", "costs_ratio")
+
+with st.expander("Per band: n, median and interquartile range"):
+    ui.table(summary[["metric", "unit", "year", "band_label", "n", "n_missing", "median", "q25", "q75"]]
+             .rename(columns={"band_label": "band"}), f"costs_bands_{sel.year}", "costs_bands")

@@ -1,0 +1,67 @@
+"""Self-check: check uploaded files against the contract and download the report; nothing touches the database."""
+
+from __future__ import annotations
+
+import hashlib
+
+import duckdb
+import streamlit as st
+
+from milepost.dashboard import connection, contracts, queries, ui
+from milepost.dashboard.checking import CheckedUpload
+
+st.title("Self-check")
+st.write("Upload a submission (CSV, TSV, XLSX or Parquet; a scenarios table may come with it) to see what the "
+         "checks find before you submit. The files are checked in memory and nothing is stored.")
+
+name = None
+if connection.db_path().exists():
+    try:
+        name = ui.query(queries.contract_name)
+    except duckdb.Error:
+        name = None
+found = contracts.find(name)
+if found.contract is None:
+    found = contracts.find("core")
+    st.warning("Using the core contract: the database's contract is not available here.")
+contract = found.contract
+st.caption(f"Contract: {found.source}.")
+
+files = st.file_uploader("Files", type=["csv", "tsv", "xlsx", "parquet"], accept_multiple_files=True,
+                         key="check_files")
+if not files:
+    ui.stop()
+
+digest = hashlib.sha256(b"".join(hashlib.sha256(f.getvalue()).digest() + f.name.encode() for f in files)).hexdigest()
+held = st.session_state.get("_checked")
+if held is None or held[0] != digest:
+    if held is not None:
+        held[1].close()  # one checked upload per session: uploads can be large
+    with st.spinner("Checking..."):
+        st.session_state["_checked"] = (digest, CheckedUpload([(f.name, f.getvalue()) for f in files], contract))
+checked: CheckedUpload = st.session_state["_checked"][1]
+counts, rows, table = checked.result.counts, checked.result.rows, checked.findings
+
+c1, c2, c3, c4 = st.columns(4)
+c1.metric("Rows read", f"{rows:,}")
+c2.metric("Errors", counts.get("error", 0))
+c3.metric("Warnings", counts.get("warning", 0))
+c4.metric("Notes", counts.get("note", 0))
+if counts.get("error", 0):
+    st.error("Errors found: this submission would be rejected. Fix the rows below and check again.")
+elif counts.get("warning", 0):
+    st.warning("No errors, but warnings: this submission would be accepted only if the reviewers accept "
+               "warnings (`milepost ingest --accept-warnings`). Check the rows below.")
+else:
+    st.success("No errors or warnings: this submission would be accepted.")
+
+c1, c2, _ = st.columns([1, 1, 4])
+c1.download_button("JSON report", data=checked.json, file_name="milepost-check.json", mime="application/json",
+                   key="check_json", on_click="ignore", icon=":material/download:")
+c2.download_button("XLSX report", data=checked.xlsx, file_name="milepost-check.xlsx",
+                   mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key="check_xlsx",
+                   on_click="ignore", icon=":material/download:")
+if len(table):
+    per_rule = table.groupby(["severity", "rule"]).size().rename("n").reset_index()
+    ui.table(per_rule, "check_rules", "check_rules")
+    ui.table(table, "check_findings", "check_findings")

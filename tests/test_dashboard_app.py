@@ -1,0 +1,303 @@
+"""Every dashboard page in AppTest on the ingested demo database: widgets change the numbers, which match SQL."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import duckdb
+import numpy as np
+import pandas as pd
+import pytest
+from dashboard_fixtures import APP, demo, demo_db, milestone_values, numpy_bands, sql  # noqa: F401
+from streamlit.testing.v1 import AppTest
+
+from milepost.dashboard.headlines import sig
+from milepost.dashboard.ui import fmt
+from milepost.example_db.generate import CONTRACT_DIR
+from milepost.validate.ingest import ingest
+
+RESULT_PAGES = ("views/screen.py", "views/rates.py", "views/costs.py", "views/pathways.py")
+
+
+def open_app(db: Path, page: str | None = None, params: dict | None = None) -> AppTest:
+    os.environ["MILEPOST_DB"] = str(db)
+    at = AppTest.from_file(str(APP), default_timeout=60)
+    for k, v in (params or {}).items():
+        at.query_params[k] = v
+    at.run()
+    if page:
+        at.switch_page(page).run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+@pytest.fixture(autouse=True)
+def _restore_env():
+    old = os.environ.get("MILEPOST_DB")
+    yield
+    if old is None:
+        os.environ.pop("MILEPOST_DB", None)
+    else:
+        os.environ["MILEPOST_DB"] = old
+
+
+def frame(at: AppTest, must_have: str) -> pd.DataFrame:
+    """The shown table that has a column containing `must_have`."""
+    for d in at.dataframe:
+        if any(must_have in str(c) for c in d.value.columns):
+            return d.value
+    raise AssertionError(f"no table with a column like {must_have!r}: {[list(d.value.columns) for d in at.dataframe]}")
+
+
+def band_rates(sql, year_from: int, year_to: int, kind: str = "rate_cagr") -> tuple[np.ndarray, pd.DataFrame]:  # noqa: F811
+    sel = milestone_values(sql, "emissions.ghg", 2030)
+    _, band = numpy_bands(sel["value"].to_numpy())
+    sel = sel.assign(band=band)
+    r = sql.execute("""SELECT model, scenario, value AS rate FROM current_indicators
+                       WHERE kind = ? AND variable = 'emissions.ghg' AND region = 'World'
+                         AND year_from = ? AND year_to = ?""", [kind, year_from, year_to]).df()
+    return band, sel.merge(r, on=["model", "scenario"])
+
+
+def test_screen_numbers_follow_the_milestone_year(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db)
+    assert at.title[0].value == "Screen"
+    assert len(at.get("vega_lite_chart")) == 1
+    for year in (2030, 2050):
+        if year != 2030:
+            at.selectbox(key="band_year").set_value(year).run()
+            assert not at.exception
+        want = milestone_values(sql, "emissions.ghg", year)
+        shown = frame(at, f"{year} [")
+        col = next(c for c in shown.columns if str(c).startswith(f"{year} ["))
+        got = shown.set_index(["model", "scenario"])[col].sort_index()
+        exp = want.set_index(["model", "scenario"])["value"].sort_index()
+        assert got.index.equals(exp.index)
+        np.testing.assert_allclose(got.to_numpy(), exp.to_numpy())
+        median = next(m for m in at.metric if m.label == f"Median {year}")
+        assert median.value.startswith(fmt(float(np.median(exp)), 0))
+        _, band = numpy_bands(exp.to_numpy())
+        bands = frame(at, "range")
+        assert bands["n"].tolist() == np.bincount(band, minlength=3).tolist()
+    assert at.query_params["year"] == ["2050"] or at.query_params["year"] == "2050"
+
+
+def test_screen_edges_models_and_attribute_filter(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db)
+    at.text_input(key="band_edges").set_value("45000").run()
+    bands = frame(at, "range")
+    values = milestone_values(sql, "emissions.ghg", 2030)["value"].to_numpy()
+    assert bands["band"].tolist() == ["low", "high"]
+    assert bands["n"].tolist() == [int((values < 45000).sum()), int((values >= 45000).sum())]
+
+    at.multiselect(key="band_models").set_value(["Ferrow"]).run()
+    shown = frame(at, "2030 [")
+    assert set(shown["model"]) == {"Ferrow"}
+    assert len(shown) == len(milestone_values(sql, "emissions.ghg", 2030, models=("Ferrow",)))
+
+    at.selectbox(key="band_attr").set_value("family").run()
+    at.multiselect(key="band_attr_values").set_value(["delayed"]).run()
+    shown = frame(at, "2030 [")
+    assert set(shown["family"]) == {"delayed"} and set(shown["model"]) == {"Ferrow"}
+
+
+def test_url_query_restores_the_view(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db, params={"year": "2050", "model": ["Halvik"], "edges": "9000", "period": "2050-2100"})
+    assert at.selectbox(key="band_year").value == 2050
+    assert at.multiselect(key="band_models").value == ["Halvik"]
+    shown = frame(at, "2050 [")
+    assert set(shown["model"]) == {"Halvik"}
+    assert frame(at, "range")["band"].tolist() == ["low", "high"]
+    # switching page keeps the filters (and puts them in the new page's URL)
+    at.switch_page("views/rates.py").run()
+    assert at.selectbox(key="band_year").value == 2050 and at.selectbox(key="rates_period").value == "2050-2100"
+    assert at.info[0].value.startswith("Median CAGR 2050–2100")
+    # a value that does not exist falls back to the default
+    bad = open_app(demo_db, params={"year": "1999", "region": "Atlantis"})
+    assert bad.selectbox(key="band_year").value == 2030 and bad.selectbox(key="band_region").value == "World"
+
+
+def test_rates_sentence_and_table_match_sql(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db, "views/rates.py")
+    for period in ((2030, 2050), (2050, 2100)):
+        if period != (2030, 2050):
+            at.selectbox(key="rates_period").set_value(f"{period[0]}-{period[1]}").run()
+        _, df = band_rates(sql, *period)
+        hi = np.median(df.loc[df["band"] == 2, "rate"].dropna())
+        lo = np.median(df.loc[df["band"] == 0, "rate"].dropna())
+        text = at.info[0].value
+        assert text.startswith(f"Median CAGR {period[0]}–{period[1]} of emissions.ghg (World)")
+        assert f"high band {fmt(hi)} %/yr vs low band {fmt(lo)} %/yr" in text
+        table = frame(at, "iqr")
+        row = table[(table["rate"] == "CAGR") & (table["band"] == "high")].iloc[0]
+        assert row["median"] == pytest.approx(hi)
+        assert row["q75"] == pytest.approx(np.percentile(df.loc[df["band"] == 2, "rate"].dropna(), 75))
+    spec = json.loads(at.get("vega_lite_chart")[0].proto.spec)
+    assert {"model", "scenario"} <= {t.get("field") for t in _tooltips(spec)}
+
+
+def _tooltips(spec: dict) -> list[dict]:
+    out: list[dict] = []
+    if isinstance(spec, dict):
+        tip = spec.get("encoding", {}).get("tooltip") if isinstance(spec.get("encoding"), dict) else None
+        if isinstance(tip, list):
+            out += tip
+        for v in spec.values():
+            out += _tooltips(v)
+    elif isinstance(spec, list):
+        for v in spec:
+            out += _tooltips(v)
+    return out
+
+
+def _npv_medians(sql, models: tuple[str, ...] = ()) -> tuple[float, float, int, int]:  # noqa: F811
+    """Median NPV 2020-2100 of the highest and lowest tercile band, recomputed from the stored rows with numpy."""
+    sel = milestone_values(sql, "emissions.ghg", 2030, models=models)
+    _, band = numpy_bands(sel["value"].to_numpy())
+    npv = sql.execute("""SELECT model, scenario, value FROM current_indicators
+                         WHERE kind = 'npv' AND region = 'World' AND year_from = 2020 AND year_to = 2100""").df()
+    npv = sel.assign(band=band).merge(npv, on=["model", "scenario"], suffixes=("_ms", ""))
+    hi, lo = npv.loc[npv["band"] == 2, "value"], npv.loc[npv["band"] == 0, "value"]
+    return float(np.median(hi)), float(np.median(lo)), len(hi), len(lo)
+
+
+def test_costs_sentence_ratio_and_thin_evidence(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db, "views/costs.py")
+    for models in ((), ("Ferrow",)):
+        if models:
+            at.multiselect(key="band_models").set_value(list(models)).run()
+        hi, lo, n_hi, n_lo = _npv_medians(sql, models)
+        text = at.info[0].value
+        assert (f"NPV of abatement cost 2020–2100 {sig(hi)} vs {sig(lo)} billion USD_2015 "
+                f"(×{fmt(hi / lo, 2)}, n = {n_hi} vs {n_lo})") in text
+        ratio = frame(at, "ratio of medians")
+        row = ratio[(ratio["metric"] == "NPV of abatement cost") & (ratio["year"] == 2100)].iloc[0]
+        assert row["ratio of medians"] == pytest.approx(hi / lo)
+        assert (row["n high"], row["n low"]) == (n_hi, n_lo)
+        # a band median on fewer than 5 scenarios is flagged (the demo has about 12 per band, one model about 3)
+        assert any("Thin evidence" in w.value for w in at.warning) == (min(n_hi, n_lo) < 5)
+    assert models and min(n_hi, n_lo) < 5
+
+
+def test_pathways_variable_change_and_reference(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db, "views/pathways.py")
+    at.selectbox(key="path_variable").set_value("energy.primary").run()
+    table = frame(at, "q95")
+    sel = milestone_values(sql, "emissions.ghg", 2030)
+    _, band = numpy_bands(sel["value"].to_numpy())
+    pts = sql.execute("""SELECT model, scenario, year, value FROM current_data
+                         WHERE variable = 'energy.primary' AND region = 'World'""").df()
+    pts = sel[["model", "scenario"]].assign(band=np.array(["low", "middle", "high"])[band]).merge(pts)
+    exp = pts.groupby(["band", "year"])["value"].median()
+    got = table.set_index(["band", "year"])["median"]
+    np.testing.assert_allclose(got.loc[exp.index].to_numpy(), exp.to_numpy())
+    ref = pd.read_csv(CONTRACT_DIR / "reference.csv")
+    value = ref[(ref["region"] == "World") & (ref["variable"] == "energy.primary")]["value"].iloc[0]
+    assert any(f"reference value {fmt(value, 0)} EJ/yr in 2020" in c.value for c in at.caption)
+    spec = at.get("vega_lite_chart")[0].proto.spec
+    assert "diamond" in spec
+
+    at.multiselect(key="path_scenarios").set_value(["Ferrow | act-bold"]).run()
+    spec = json.loads(at.get("vega_lite_chart")[0].proto.spec)
+    assert any(layer.get("mark", {}).get("strokeDash") == [5, 3] for layer in spec["layer"])
+
+
+def test_submissions_and_drill_down(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db, "views/submissions.py")
+    subs = frame(at, "version")
+    assert len(subs) == sql.execute("SELECT count(*) FROM submissions").fetchall()[0][0]
+    rejected = sql.execute("SELECT id FROM submissions WHERE status = 'rejected'").fetchall()[0][0]
+    per_rule = dict(sql.execute("SELECT rule, count(*) FROM findings WHERE submission_id = ? GROUP BY rule",
+                                [rejected]).fetchall())
+    row = subs[subs["id"] == rejected].iloc[0]
+    assert {r: int(row[r]) for r in per_rule} == per_rule
+    # the one submission with findings is preselected
+    assert at.selectbox(key="subs_id").value == rejected
+    assert len(frame(at, "hint")) == sum(per_rule.values())
+    rule = max(per_rule, key=per_rule.get)
+    at.multiselect(key="subs_rules").set_value([rule]).run()
+    found = frame(at, "hint")
+    assert len(found) == per_rule[rule] and set(found["rule"]) == {rule}
+
+
+def _signature(p: Path) -> tuple[int, int, str]:
+    s = p.stat()
+    return s.st_ino, s.st_mtime_ns, hashlib.sha256(p.read_bytes()).hexdigest()
+
+
+def test_selfcheck_reports_findings_without_writing(demo, sql):  # noqa: F811
+    db, files = demo
+    before = _signature(db)
+    at = open_app(db, "views/selfcheck.py")
+    at.file_uploader(key="check_files").set_value(
+        [(p.name, p.read_bytes(), "text/csv") for p in files.flawed]).run()
+    assert not at.exception, [e.message for e in at.exception]
+    sid, errors = sql.execute("SELECT id, errors FROM submissions WHERE model = 'Vossel'").fetchall()[0]
+    metric = {m.label: m.value for m in at.metric}
+    assert int(metric["Errors"].replace(",", "")) == errors
+    assert any("rejected" in e.value for e in at.error)
+    stored = dict(sql.execute("SELECT rule, count(*) FROM findings WHERE submission_id = ? GROUP BY rule",
+                              [sid]).fetchall())
+    shown = frame(at, "hint")
+    assert shown.groupby("rule").size().to_dict() == stored
+    assert {b.label for b in at.get("download_button")} >= {"JSON report", "XLSX report"}
+    assert _signature(db) == before  # nothing was written to the database
+
+    at.file_uploader(key="check_files").set_value(
+        [(p.name, p.read_bytes(), "text/csv") for p in files.submissions["Ferrow"]]).run()
+    assert any("would be accepted" in s.value for s in at.success)
+
+
+@pytest.mark.parametrize("page", RESULT_PAGES)
+def test_results_pages_carry_cautions_and_downloads(demo_db, page):  # noqa: F811
+    at = open_app(demo_db, page)
+    captions = " ".join(c.value for c in at.caption)
+    assert "not forecasts" in captions and "avoided climate damages and co-benefits" in captions
+    labels = [b.label for b in at.get("download_button")]
+    n_charts = len(at.get("vega_lite_chart"))
+    assert n_charts >= 1
+    assert labels.count("PNG") == labels.count("SVG") == n_charts
+    assert labels.count("CSV") == len(at.dataframe)
+
+
+def test_missing_database_says_what_to_do(tmp_path):
+    at = open_app(tmp_path / "none.duckdb")
+    assert "No database at" in at.error[0].value and "milepost ingest" in at.error[0].value
+
+
+def test_dashboard_reads_during_an_ingest_and_then_sees_the_new_version(demo, tmp_path):  # noqa: F811
+    _, files = demo
+    db = tmp_path / "live.duckdb"
+    ingest(files.submissions["Ferrow"], db, CONTRACT_DIR)
+    at = open_app(db)
+    n_before = next(m for m in at.metric if m.label == "Scenarios").value
+
+    flag = tmp_path / "paused"
+    env = {**os.environ, "MILEPOST_PAUSE_AT": "in-transaction", "MILEPOST_PAUSE_FILE": str(flag),
+           "MILEPOST_PAUSE_SECONDS": "3"}
+    code = "import sys; from milepost.validate.ingest import ingest; ingest(sys.argv[3:], sys.argv[1], sys.argv[2])"
+    proc = subprocess.Popen([sys.executable, "-c", code, str(db), str(CONTRACT_DIR),
+                             *map(str, files.submissions["Ormund"])], env=env)
+    try:
+        deadline = time.monotonic() + 60
+        while not flag.exists():
+            assert proc.poll() is None, "the ingest ended before it reached the pause"
+            assert time.monotonic() < deadline
+            time.sleep(0.05)
+        at.run()  # the writer is mid-transaction on its copy: the page still works and shows the old version
+        assert not at.exception
+        assert next(m for m in at.metric if m.label == "Scenarios").value == n_before
+        assert proc.wait(timeout=60) == 0
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    at.run()  # same app, no restart: the replaced file is reopened
+    with duckdb.connect(str(db), read_only=True) as con:
+        expect = len(milestone_values(con, "emissions.ghg", 2030))
+    assert int(next(m for m in at.metric if m.label == "Scenarios").value) == expect > int(n_before)
