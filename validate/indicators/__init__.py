@@ -1,0 +1,92 @@
+"""Indicators computed at ingest in DuckDB SQL: one module per kind family, registered in `FAMILIES`.
+
+`compute_indicators` reads long rows (model, scenario, region, variable, unit, year, value; contract units) and
+the scenarios table (model, scenario, reference), and writes one row per (model, scenario, region, kind,
+variable, year_from, year_to). Which variables get which kinds, over which periods and in which unit comes from
+schema/indicators.toml. All kinds read one shared piecewise-linear interpolation (see `interpolation`), and
+everything is set-based SQL: the cost does not grow with Python loops over scenarios.
+
+Indicators are computed for every series in `data`, reference scenarios included; a reference read from
+another submission (e.g. a view that unions new rows with stored ones) works the same. Undefined values are
+rows with a null value (no reference, a rate across a sign change, a year outside the reported range). The
+`unit` column of `data` is not read: values must already be in the contract's units. Row order is unspecified.
+
+To add a kind: write a module with a `KINDS` tuple of `Kind` (name, accepted period shapes, unit scaling, a
+function returning its SELECT), add the module to `FAMILIES`, give it a table in indicators.toml, add tests.
+These numbers are model projections, not forecasts; costs exclude avoided damages and co-benefits.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import duckdb
+
+from milepost.schema.contract import Contract
+from milepost.validate.indicators import costs, cumulative, levels, rates, timing
+from milepost.validate.indicators.base import Kind, identifier
+from milepost.validate.indicators.definitions import IndicatorSpecError, Plan, load_definitions, resolve
+from milepost.validate.indicators.interpolation import IndicatorDataError, drop_helpers, prepare
+
+__all__ = [
+    "COLUMNS",
+    "FAMILIES",
+    "KINDS",
+    "IndicatorDataError",
+    "IndicatorSpecError",
+    "Kind",
+    "compute_indicators",
+    "plan",
+]
+
+FAMILIES = (levels, rates, cumulative, timing, costs)
+KINDS: dict[str, Kind] = {k.name: k for family in FAMILIES for k in family.KINDS}
+COLUMNS = (
+    ("model", "VARCHAR"),
+    ("scenario", "VARCHAR"),
+    ("region", "VARCHAR"),
+    ("kind", "VARCHAR"),
+    ("variable", "VARCHAR"),
+    ("year_from", "INTEGER"),
+    ("year_to", "INTEGER"),
+    ("value", "DOUBLE"),
+    ("unit", "VARCHAR"),
+)
+
+
+def plan(contract: Contract, definitions: str | Path | None = None) -> Plan:
+    """indicators.toml (default: the packaged one) resolved for `contract`: selection, periods, skipped."""
+    return resolve(contract, load_definitions(definitions), KINDS)
+
+
+def compute_indicators(
+    con: duckdb.DuckDBPyConnection,
+    contract: Contract,
+    data: str = "checked",
+    scenarios: str = "checked_scenarios",
+    target: str = "computed_indicators",
+    *,
+    definitions: str | Path | None = None,
+) -> int:
+    """Create or replace TEMP TABLE `target` with every indicator of `data` and return its row count.
+
+    `data` and `scenarios` name tables or views on `con`. `definitions` overrides schema/indicators.toml.
+    Raises IndicatorSpecError for unusable definitions and IndicatorDataError for conflicting repeated rows.
+    """
+    resolved = plan(contract, definitions)
+    out = identifier(target)
+    columns = ", ".join(f"{name} {sql_type}" for name, sql_type in COLUMNS)
+    try:
+        tables = prepare(
+            con, data, scenarios, resolved.selection, resolved.periods, contract.base_year, contract.discount_rate
+        )
+        parts = [KINDS[kind].sql(tables) for kind in resolved.kinds()]
+        if parts:
+            union = " UNION ALL ".join(f"({sql})" for sql in parts)
+            casts = ", ".join(f"{name}::{sql_type} AS {name}" for name, sql_type in COLUMNS)
+            con.execute(f"CREATE OR REPLACE TEMP TABLE {out} AS SELECT {casts} FROM ({union})")
+        else:
+            con.execute(f"CREATE OR REPLACE TEMP TABLE {out} ({columns})")
+        return int(con.execute(f"SELECT count(*) FROM {out}").fetchall()[0][0])
+    finally:
+        drop_helpers(con)
