@@ -1,0 +1,100 @@
+-- Migration 1: the initial schema (tables and views).
+
+CREATE TABLE meta (
+    key VARCHAR PRIMARY KEY,
+    value VARCHAR
+);
+
+CREATE TABLE submissions (
+    id INTEGER PRIMARY KEY,
+    model VARCHAR,              -- the submission's model (several, comma-separated, if the files mix models)
+    files VARCHAR,              -- JSON list [{path, name, sha256, rows, kind}]
+    sha256 VARCHAR,             -- digest over the sorted file digests: the identity of the submission
+    contract_name VARCHAR,
+    contract_hash VARCHAR,
+    milepost_version VARCHAR,
+    submitted_by VARCHAR,
+    note VARCHAR,
+    submitted_at TIMESTAMP,     -- UTC
+    status VARCHAR,             -- 'accepted' | 'rejected' | 'superseded'
+    superseded_by INTEGER,
+    rows BIGINT,                -- usable rows stored (0 when rejected)
+    errors INTEGER,
+    warnings INTEGER,
+    notes INTEGER
+);
+
+CREATE TABLE findings (
+    submission_id INTEGER,
+    rule VARCHAR,
+    severity VARCHAR,
+    path VARCHAR,
+    line BIGINT,
+    sheet VARCHAR,
+    model VARCHAR,
+    scenario VARCHAR,
+    region VARCHAR,
+    variable VARCHAR,
+    unit VARCHAR,
+    year INTEGER,
+    value VARCHAR,
+    expected VARCHAR,
+    message VARCHAR,
+    hint VARCHAR
+);
+
+-- Values are in contract units, after conversion.
+CREATE TABLE data (
+    submission_id INTEGER,
+    model VARCHAR,
+    scenario VARCHAR,
+    region VARCHAR,
+    variable VARCHAR,
+    unit VARCHAR,
+    year INTEGER,
+    value DOUBLE
+);
+
+CREATE TABLE scenarios (
+    submission_id INTEGER,
+    model VARCHAR,
+    scenario VARCHAR,
+    reference VARCHAR,          -- the no-policy scenario this one is compared with (same model), or NULL
+    attributes VARCHAR          -- JSON object of every scenario attribute
+);
+
+CREATE TABLE indicators (
+    submission_id INTEGER,
+    model VARCHAR,
+    scenario VARCHAR,
+    region VARCHAR,
+    kind VARCHAR,
+    variable VARCHAR,
+    year_from INTEGER,
+    year_to INTEGER,
+    value DOUBLE,
+    unit VARCHAR
+);
+
+-- The newest accepted submission of each (model, scenario).
+CREATE VIEW current_versions AS
+SELECT s.model, s.scenario, max(s.submission_id) AS submission_id
+FROM scenarios AS s
+JOIN submissions AS b ON b.id = s.submission_id
+WHERE b.status IN ('accepted', 'superseded')
+GROUP BY s.model, s.scenario;
+
+CREATE VIEW current_data AS
+SELECT d.submission_id, d.model, d.scenario, d.region, d.variable, d.unit, d.year, d.value
+FROM data AS d
+JOIN current_versions AS c ON c.submission_id = d.submission_id AND c.model = d.model AND c.scenario = d.scenario;
+
+CREATE VIEW current_scenarios AS
+SELECT s.submission_id, s.model, s.scenario, s.reference, s.attributes
+FROM scenarios AS s
+JOIN current_versions AS c ON c.submission_id = s.submission_id AND c.model = s.model AND c.scenario = s.scenario;
+
+CREATE VIEW current_indicators AS
+SELECT i.submission_id, i.model, i.scenario, i.region, i.kind, i.variable, i.year_from, i.year_to, i.value, i.unit
+FROM indicators AS i
+JOIN current_versions AS c ON c.submission_id = i.submission_id AND c.model = i.model AND c.scenario = i.scenario;

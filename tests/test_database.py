@@ -1,0 +1,288 @@
+"""The database layer on real DuckDB files: schema and migrations, the writer lock, copy-and-swap, readers."""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import textwrap
+import time
+from pathlib import Path
+
+import duckdb
+import pytest
+
+from milepost.validate import database as dbm
+from milepost.validate.errors import LoadError, LockTimeout
+
+TABLES = {"meta", "submissions", "findings", "data", "scenarios", "indicators"}
+VIEWS = {"current_versions", "current_data", "current_scenarios", "current_indicators"}
+# The column names the dashboard reads (notes/db-spec.md); a rename here breaks it.
+SPEC_COLUMNS = {
+    "submissions": ["id", "model", "files", "sha256", "contract_name", "contract_hash", "milepost_version",
+                    "submitted_by", "note", "submitted_at", "status", "superseded_by", "rows", "errors", "warnings",
+                    "notes"],
+    "findings": ["submission_id", "rule", "severity", "path", "line", "sheet", "model", "scenario", "region",
+                 "variable", "unit", "year", "value", "expected", "message", "hint"],
+    "data": ["submission_id", "model", "scenario", "region", "variable", "unit", "year", "value"],
+    "scenarios": ["submission_id", "model", "scenario", "reference", "attributes"],
+    "indicators": ["submission_id", "model", "scenario", "region", "kind", "variable", "year_from", "year_to",
+                   "value", "unit"],
+}
+
+
+def catalog(con: duckdb.DuckDBPyConnection, name: str) -> tuple[dict, dict]:
+    cols: dict[str, list[tuple[str, str]]] = {}
+    for table, column, dtype in con.execute(
+            "SELECT table_name, column_name, data_type FROM duckdb_columns() WHERE database_name = ? "
+            "ORDER BY table_name, column_index", [name]).fetchall():
+        cols.setdefault(table, []).append((column, dtype))
+    views = dict(con.execute("SELECT view_name, sql FROM duckdb_views() WHERE database_name = ? AND NOT internal",
+                             [name]).fetchall())
+    return cols, views
+
+
+def build(path: Path, migrations_dir: Path = dbm.MIGRATIONS_DIR) -> None:
+    con = dbm.connect_memory()
+    with dbm.Writer(path, con, migrations_dir=migrations_dir):
+        pass
+    con.close()
+
+
+def test_new_database_has_the_agreed_tables_views_and_version(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    with dbm.open_reader(db) as r:
+        cols, views = catalog(r.con, "db")
+        assert set(cols) >= TABLES
+        assert set(views) == VIEWS
+        for table, names in SPEC_COLUMNS.items():
+            assert [c for c, _ in cols[table]] == names
+        assert [c for c, _ in cols["current_data"]] == SPEC_COLUMNS["data"]
+        assert [c for c, _ in cols["current_indicators"]] == SPEC_COLUMNS["indicators"]
+        assert dbm.schema_version(r.con, "db") == dbm.latest_version() >= 1
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["m.duckdb", "m.duckdb.lock"]
+
+
+def test_database_sql_equals_the_migrations_applied_in_order(tmp_path: Path) -> None:
+    con = dbm.connect_memory()
+    con.execute("ATTACH ? AS fresh", [str(tmp_path / "a.duckdb")])
+    con.execute("ATTACH ? AS stepped", [str(tmp_path / "b.duckdb")])
+    dbm.create_schema(con, "fresh")
+    assert dbm.schema_version(con, "stepped") == 0  # an empty file
+    assert dbm.migrate(con, "stepped") == list(range(1, dbm.latest_version() + 1))
+    assert catalog(con, "fresh") == catalog(con, "stepped")
+    assert dbm.schema_version(con, "stepped") == dbm.schema_version(con, "fresh")
+
+
+def test_migration_runs_forward_and_keeps_rows(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    con = dbm.connect_memory()
+    con.execute("ATTACH ? AS x", [str(db)])
+    con.execute("INSERT INTO x.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 7800.0)")
+    con.close()
+    extra = tmp_path / "migrations"
+    extra.mkdir()
+    for _, path in dbm.migrations():
+        (extra / path.name).write_text(path.read_text())
+    n = dbm.latest_version() + 1
+    (extra / f"{n:04d}_add_flag.sql").write_text("ALTER TABLE submissions ADD COLUMN flag VARCHAR;\n")
+    con = dbm.connect_memory()
+    with dbm.Writer(db, con, migrations_dir=extra) as w:
+        assert w.migrated == [n]
+    con.close()
+    with dbm.open_reader(db) as r:
+        assert dbm.schema_version(r.con, "db") == n
+        assert "flag" in [c for c, _ in catalog(r.con, "db")[0]["submissions"]]
+        assert r.con.execute("SELECT value FROM data").fetchall() == [(7800.0,)]
+
+
+def test_a_database_newer_than_the_program_is_refused(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    con = dbm.connect_memory()
+    con.execute("ATTACH ? AS x", [str(db)])
+    con.execute("UPDATE x.meta SET value = '99' WHERE key = 'schema_version'")
+    con.close()
+    before = db.read_bytes()
+    con = dbm.connect_memory()
+    with pytest.raises(LoadError, match="schema version 99, newer than this milepost"), dbm.Writer(db, con):
+        pass
+    with pytest.raises(LoadError, match="newer than this milepost"), dbm.reading(db):
+        pass
+    assert db.read_bytes() == before
+    assert not list(tmp_path.glob("*.tmp-*"))
+
+
+def test_migration_numbers_must_not_have_gaps(tmp_path: Path) -> None:
+    (tmp_path / "0001_a.sql").write_text("SELECT 1;")
+    (tmp_path / "0003_c.sql").write_text("SELECT 1;")
+    with pytest.raises(LoadError, match="expected 2"):
+        dbm.migrations(tmp_path)
+
+
+def test_failed_write_leaves_the_live_file_untouched(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    before = db.read_bytes()
+    con = dbm.connect_memory()
+    with pytest.raises(duckdb.Error), dbm.Writer(db, con) as w:
+        w.begin()
+        con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0)")
+        con.execute("INSERT INTO new.no_such_table VALUES (1)")
+    assert db.read_bytes() == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["m.duckdb", "m.duckdb.lock"]
+    # The lock was released: the next writer does not wait.
+    with dbm.Writer(db, con, timeout=0):
+        pass
+    con.close()
+
+
+def test_stale_copies_of_a_killed_writer_are_removed(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    (tmp_path / "m.duckdb.tmp-999999").write_bytes(b"half written")
+    (tmp_path / "m.duckdb.tmp-999999.wal").write_bytes(b"x")
+    build(db)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["m.duckdb", "m.duckdb.lock"]
+
+
+def test_missing_folder_and_missing_file_give_clear_errors(tmp_path: Path) -> None:
+    con = dbm.connect_memory()
+    with pytest.raises(LoadError, match="folder of the database does not exist"), \
+            dbm.Writer(tmp_path / "nope" / "m.duckdb", con):
+        pass
+    with pytest.raises(LoadError, match="no database at"):
+        dbm.open_reader(tmp_path / "m.duckdb")
+
+
+def test_default_db_path_order(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> None:
+    monkeypatch.delenv(dbm.ENV_DB, raising=False)
+    assert dbm.default_db_path(None) == Path("milepost.duckdb")
+    monkeypatch.setenv(dbm.ENV_DB, str(tmp_path / "env.duckdb"))
+    assert dbm.default_db_path(None) == tmp_path / "env.duckdb"
+    assert dbm.default_db_path(tmp_path / "given.duckdb") == tmp_path / "given.duckdb"
+
+
+HOLD_LOCK = textwrap.dedent("""
+    import sys, time
+    from pathlib import Path
+    from milepost.validate.database import acquire_lock
+    lock = acquire_lock(Path(sys.argv[1]), timeout=5)
+    print("locked", flush=True)
+    time.sleep(float(sys.argv[2]))
+""")
+
+
+def test_second_writer_waits_then_times_out_with_a_message(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    holder = subprocess.Popen([sys.executable, "-c", HOLD_LOCK, str(db), "30"], stdout=subprocess.PIPE, text=True)
+    try:
+        assert holder.stdout is not None and holder.stdout.readline().strip() == "locked"
+        messages: list[str] = []
+        t = time.monotonic()
+        with pytest.raises(LockTimeout, match=rf"another milepost process \(pid {holder.pid}\) is writing"):
+            dbm.acquire_lock(db, timeout=0.5, on_wait=messages.append)
+        assert 0.5 <= time.monotonic() - t < 5
+        assert len(messages) == 1 and messages[0].startswith("Waiting up to 0.5 s")
+    finally:
+        holder.kill()
+        holder.wait()
+    # The lock dies with its process.
+    dbm.acquire_lock(db, timeout=0).release()
+
+
+def test_second_writer_gets_the_lock_when_the_first_finishes(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    holder = subprocess.Popen([sys.executable, "-c", HOLD_LOCK, str(db), "1.0"], stdout=subprocess.PIPE, text=True)
+    try:
+        assert holder.stdout is not None and holder.stdout.readline().strip() == "locked"
+        t = time.monotonic()
+        lock = dbm.acquire_lock(db, timeout=20)
+        waited = time.monotonic() - t
+        lock.release()
+        assert 0.2 < waited < 20
+    finally:
+        holder.wait()
+
+
+def test_reader_keeps_its_snapshot_and_refreshes_after_a_swap(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    reader = dbm.open_reader(db)
+    assert reader.refresh() is False
+    con = dbm.connect_memory()
+    with dbm.Writer(db, con) as w:
+        w.begin()
+        con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0)")
+    assert reader.changed()
+    assert reader.con.execute("SELECT count(*) FROM data").fetchall() == [(0,)]  # the old file, whole
+    assert reader.refresh() is True
+    assert reader.con.execute("SELECT count(*) FROM data").fetchall() == [(1,)]
+    assert not reader.changed()
+    with pytest.raises(duckdb.Error, match="read-only"):
+        reader.con.execute("DELETE FROM data")
+    reader.close()
+    con.close()
+
+
+def test_read_only_connection_of_another_process_does_not_block_a_write(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    # A plain duckdb.connect(read_only=True), as a dashboard might hold it.
+    code = ("import duckdb, sys, time; c = duckdb.connect(sys.argv[1], read_only=True); "
+            "print(c.execute('SELECT count(*) FROM data').fetchall()[0][0], flush=True); time.sleep(30)")
+    holder = subprocess.Popen([sys.executable, "-c", code, str(db)], stdout=subprocess.PIPE, text=True)
+    try:
+        assert holder.stdout is not None and holder.stdout.readline().strip() == "0"
+        con = dbm.connect_memory()
+        t = time.monotonic()
+        with dbm.Writer(db, con, timeout=0) as w:
+            w.begin()
+            con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0)")
+        assert time.monotonic() - t < 10
+        con.close()
+        with dbm.open_reader(db) as r:
+            assert r.con.execute("SELECT count(*) FROM data").fetchall() == [(1,)]
+    finally:
+        holder.kill()
+        holder.wait()
+
+
+def test_lock_timeout_from_environment(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setenv(dbm.ENV_LOCK_TIMEOUT, "2.5")
+    assert dbm.lock_timeout_default() == 2.5
+    monkeypatch.setenv(dbm.ENV_LOCK_TIMEOUT, "soon")
+    with pytest.raises(LoadError, match="not a number"):
+        dbm.lock_timeout_default()
+    monkeypatch.delenv(dbm.ENV_LOCK_TIMEOUT)
+    assert dbm.lock_timeout_default() == dbm.DEFAULT_LOCK_TIMEOUT
+
+
+def test_no_wal_is_left_next_to_the_live_file(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    build(db)
+    con = dbm.connect_memory()
+    with dbm.Writer(db, con) as w:
+        w.begin()
+        con.execute("INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000 + i % 100, i "
+                    "FROM range(300000) t(i)")
+    con.close()
+    assert not os.path.exists(str(db) + ".wal")
+    with dbm.open_reader(db) as r:
+        assert r.con.execute("SELECT count(*), sum(value) FROM data").fetchall() == [(300000, 299999 * 300000 / 2)]
+
+
+def test_database_sql_header_names_the_latest_version() -> None:
+    header = next(line for line in dbm.schema_sql().splitlines() if line.startswith("-- schema_version:"))
+    assert int(header.split(":")[1]) == dbm.latest_version()
+
+
+def test_ensure_database_creates_once_and_then_leaves_the_file_alone(tmp_path: Path) -> None:
+    db = tmp_path / "m.duckdb"
+    assert dbm.ensure_database(db) == []
+    sig = (db.stat().st_ino, db.stat().st_mtime_ns)
+    assert dbm.ensure_database(db) == []
+    assert (db.stat().st_ino, db.stat().st_mtime_ns) == sig

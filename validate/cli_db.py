@@ -1,0 +1,230 @@
+"""`milepost ingest | submissions | export | snapshot | diff`: the scenario database from the command line."""
+
+from __future__ import annotations
+
+import json
+import sys
+from enum import StrEnum
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+
+from milepost.validate.cli_common import EXIT_OK, ContractOption, fail, handle_errors, load_contract
+
+DbOption = Annotated[
+    Path | None,
+    typer.Option("--db", help="Database file (default: $MILEPOST_DB, else ./milepost.duckdb).", dir_okay=False,
+                 show_default=False),
+]
+
+
+class TextJson(StrEnum):
+    text = "text"
+    json = "json"
+
+
+class What(StrEnum):
+    data = "data"
+    indicators = "indicators"
+    findings = "findings"
+
+
+class ExportFormat(StrEnum):
+    csv = "csv"
+    parquet = "parquet"
+    xlsx = "xlsx"
+
+
+def _echo_json(payload: Any) -> None:
+    sys.stdout.write(json.dumps(payload, indent=2, default=str) + "\n")
+
+
+def _scenario_list(names: list[str], limit: int = 6) -> str:
+    from milepost.validate.findings import shorten
+
+    return shorten(names, limit)
+
+
+@handle_errors
+def ingest_cmd(
+    files: Annotated[list[Path], typer.Argument(help="The files of one submission: data tables (CSV/TSV, XLSX, "
+                                                     "Parquet) and optionally a scenarios table.",
+                                                exists=True, dir_okay=False, show_default=False)],
+    db: DbOption = None,
+    contract: ContractOption = None,
+    by: Annotated[str | None, typer.Option("--by", help="Who submits (default: the login name).")] = None,
+    note: Annotated[str | None, typer.Option("--note", help="A note stored with the submission.")] = None,
+    accept_warnings: Annotated[bool, typer.Option(
+        "--accept-warnings", help="Accept a submission whose findings are warnings only.")] = False,
+    wait: Annotated[float | None, typer.Option("--wait", min=0, help="Seconds to wait for another ingest "
+                                               "(default: $MILEPOST_LOCK_TIMEOUT, else 120).")] = None,
+    fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Report format.")] = TextJson.text,
+    limit: Annotated[int, typer.Option(help="Findings listed for a rejected submission.", min=0)] = 20,
+) -> None:
+    """Check one submission and store it. Exit 0: stored (or already stored); 1: rejected; 2: usage error."""
+    from milepost.validate.database import default_db_path, warn
+    from milepost.validate.ingest import ingest
+    from milepost.validate.reports import finding_line
+
+    c = load_contract(contract)
+    result = ingest(files, default_db_path(db), c, by=by, note=note, accept_warnings=accept_warnings, progress=True,
+                    lock_timeout=wait, on_wait=warn)
+    if fmt is TextJson.json:
+        _echo_json(result.to_dict())
+        raise typer.Exit(result.exit_code)
+    if result.status == "unchanged":
+        typer.echo(f"Unchanged: {result.reason}; nothing was written to {result.db}.")
+        raise typer.Exit(result.exit_code)
+    n = len(result.scenarios)
+    scen = f"{n} scenario{'s' if n != 1 else ''}" + (f" ({_scenario_list(result.scenarios)})" if n else "")
+    counts = result.counts
+    tally = f"{counts['error']} errors, {counts['warning']} warnings, {counts['note']} notes"
+    if result.status == "accepted":
+        typer.echo(f"Accepted as submission {result.submission_id}: model {result.model}, {scen}, "
+                   f"{result.rows:,} rows stored in {result.db}.")
+        if result.replaced:
+            older = ", ".join(f"{r['scenario']} (submission {r['submission_id']})" for r in result.replaced)
+            typer.echo(f"New version of: {older}; the older versions are kept as history.")
+        if result.superseded:
+            typer.echo(f"Now wholly superseded: submission {', '.join(map(str, result.superseded))}.")
+        if result.refreshed:
+            names = ", ".join(r["scenario"] for r in result.refreshed)
+            typer.echo(f"Indicators recomputed against the new reference for: {names}.")
+        typer.echo(f"Findings: {tally} (stored with the submission).")
+        raise typer.Exit(EXIT_OK)
+    typer.echo(f"Rejected as submission {result.submission_id}: model {result.model or '-'}, {scen}: "
+               f"{result.reason}.")
+    for f in result.findings[:limit]:
+        typer.echo(finding_line(f))
+    if len(result.findings) > limit or counts["error"] + counts["warning"] > limit:
+        typer.echo(f"... all findings are stored: milepost export --what findings --submission "
+                   f"{result.submission_id} --format csv -o findings.csv")
+    typer.echo(f"Findings: {tally}.")
+    raise typer.Exit(result.exit_code)
+
+
+@handle_errors
+def submissions_cmd(
+    db: DbOption = None,
+    fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Output format.")] = TextJson.text,
+) -> None:
+    """List every submission: status, version per model, rows, findings, who and when."""
+    from milepost.validate.database import default_db_path
+    from milepost.validate.exports import submissions
+
+    rows = submissions(default_db_path(db))
+    if fmt is TextJson.json:
+        _echo_json(rows)
+        return
+    if not rows:
+        typer.echo("No submissions yet.")
+        return
+    header = f"{'id':>4}  {'status':<16}  {'model':<16}  {'ver':>3}  {'scen':>4}  {'rows':>10}  " \
+             f"{'err':>5}  {'warn':>5}  {'submitted (UTC)':<19}  {'by':<12}  files"
+    typer.echo(header)
+    for r in rows:
+        status = r["status"] + (f" by {r['superseded_by']}" if r["superseded_by"] else "")
+        ver = f"v{r['version']}" if r["version"] else "-"
+        files = ", ".join(f["name"] for f in r["files"])
+        typer.echo(f"{r['id']:>4}  {status:<16}  {(r['model'] or '-'):<16}  {ver:>3}  {len(r['scenarios']):>4}  "
+                   f"{r['rows']:>10,}  {r['errors']:>5}  {r['warnings']:>5}  {r['submitted_at'] or '-':<19}  "
+                   f"{(r['submitted_by'] or '-'):<12}  {files}")
+
+
+@handle_errors
+def export_cmd(
+    what: Annotated[What, typer.Option("--what", help="Which rows: current data, current indicators, or the "
+                                       "findings of every submission.", show_default=False)],
+    fmt: Annotated[ExportFormat, typer.Option("--format", "-f", help="File format.", show_default=False)],
+    output: Annotated[Path, typer.Option("--output", "-o", help="File to write.", dir_okay=False,
+                                         show_default=False)],
+    db: DbOption = None,
+    model: Annotated[list[str] | None, typer.Option("--model", help="Only this model (repeatable).")] = None,
+    scenario: Annotated[list[str] | None, typer.Option("--scenario", help="Only this scenario (repeatable).")] = None,
+    region: Annotated[list[str] | None, typer.Option("--region", help="Only this region (repeatable).")] = None,
+    variable: Annotated[list[str] | None, typer.Option("--variable", help="Only this variable (repeatable).")] = None,
+    submission: Annotated[list[int] | None, typer.Option("--submission", help="Rows of this submission, current or "
+                                                         "not (repeatable).")] = None,
+) -> None:
+    """Export data, indicators or findings as CSV, Parquet or XLSX."""
+    from milepost.validate.database import default_db_path
+    from milepost.validate.exports import Filters, export
+
+    filters = Filters(model or (), scenario or (), region or (), variable or (), submission or ())
+    n = export(default_db_path(db), what.value, fmt.value, output, filters)
+    typer.echo(f"Wrote {n:,} rows to {output}.", err=True)
+
+
+@handle_errors
+def snapshot_cmd(
+    directory: Annotated[Path, typer.Argument(help="New (or empty) folder for the snapshot.", file_okay=False,
+                                              show_default=False)],
+    db: DbOption = None,
+) -> None:
+    """Write the current data, indicators and scenarios as Parquet partitioned by model, with a manifest."""
+    from milepost.validate.database import default_db_path
+    from milepost.validate.exports import snapshot
+
+    manifest = snapshot(default_db_path(db), directory)
+    t = manifest["tables"]
+    typer.echo(f"Wrote {len(manifest['files'])} files to {directory}: {t['data']['rows']:,} data rows, "
+               f"{t['indicators']['rows']:,} indicator rows, {t['scenarios']['rows']:,} scenarios; "
+               f"manifest.json lists their sha256.")
+
+
+@handle_errors
+def diff_cmd(
+    a: Annotated[int, typer.Argument(help="The older submission id.", show_default=False)],
+    b: Annotated[int, typer.Argument(help="The newer submission id.", show_default=False)],
+    db: DbOption = None,
+    contract: ContractOption = None,
+    relative: Annotated[float | None, typer.Option(help="Relative tolerance (default: the contract's "
+                                                   "sum_relative).", min=0)] = None,
+    absolute: Annotated[float | None, typer.Option(help="Absolute tolerance (default: the contract's "
+                                                   "sum_absolute).", min=0)] = None,
+    common: Annotated[bool, typer.Option("--common", help="Compare only the scenarios both submissions have "
+                                         "(for a partial revision).")] = False,
+    fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Output format.")] = TextJson.text,
+    limit: Annotated[int, typer.Option(help="Rows listed per kind of change (0 = all).", min=0)] = 20,
+) -> None:
+    """Rows added, removed and changed beyond tolerance between two submissions. Exit 0 either way."""
+    from milepost.validate.database import default_db_path
+    from milepost.validate.exports import diff
+
+    if a == b:
+        fail("give two different submission ids")
+    c = load_contract(contract, strict=False)
+    rel = c.tolerance.sum_relative if relative is None else relative
+    ab = c.tolerance.sum_absolute if absolute is None else absolute
+    d = diff(default_db_path(db), a, b, rel, ab, limit, common_only=common)
+    if fmt is TextJson.json:
+        _echo_json(d.to_dict())
+        return
+    n = d.counts
+    typer.echo(f"Submission {a} -> {b}: {n['added']:,} added, {n['removed']:,} removed, {n['changed']:,} changed "
+               f"beyond tolerance (relative {rel:g}, absolute {ab:g}), {n['same']:,} unchanged.")
+    for side, names in ((a, d.only_a), (b, d.only_b)):
+        if names:
+            note = " (not compared: --common)" if common else ""
+            typer.echo(f"Scenarios only in {side}{note}: {_scenario_list(names)}")
+    for kind, sign in (("added", "+"), ("removed", "-")):
+        for r in getattr(d, kind):
+            typer.echo(f"{sign} {r['model']} | {r['scenario']} | {r['region']} | {r['variable']} | {r['year']}: "
+                       f"{r['value']:g} {r['unit']}")
+    for r in d.changed:
+        units = r["unit_a"] if r["unit_a"] == r["unit_b"] else f"{r['unit_a']} -> {r['unit_b']}"
+        typer.echo(f"~ {r['model']} | {r['scenario']} | {r['region']} | {r['variable']} | {r['year']}: "
+                   f"{r['value_a']:g} -> {r['value_b']:g} {units}")
+    shown = len(d.added) + len(d.removed) + len(d.changed)
+    if shown < n["added"] + n["removed"] + n["changed"]:
+        typer.echo(f"({shown} of {n['added'] + n['removed'] + n['changed']:,} differences listed; --limit 0 for all)")
+
+
+def register(app: typer.Typer) -> None:
+    """Add the database commands to the app."""
+    app.command("ingest")(ingest_cmd)
+    app.command("submissions")(submissions_cmd)
+    app.command("export")(export_cmd)
+    app.command("snapshot")(snapshot_cmd)
+    app.command("diff")(diff_cmd)

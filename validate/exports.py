@@ -1,0 +1,330 @@
+"""Reading the database out: filtered exports (CSV, Parquet, XLSX), Parquet snapshots with a manifest, and diffs.
+
+Every query takes its filter values as parameters; only table and column names, which come from this module,
+are written into SQL text. All of these open the database read-only, so they never disturb an ingest.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import shutil
+import time
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import duckdb
+
+from milepost.validate.database import reading, schema_version
+from milepost.validate.errors import UsageError
+
+XLSX_MAX_ROWS = 1_048_575  # an Excel sheet has 1,048,576 rows; one is the header
+CAUTIONS = (
+    "Scenario results are model projections under stated assumptions, not forecasts.",
+    "Mitigation costs exclude avoided climate damages and co-benefits.",
+)
+DATA_COLUMNS = ("submission_id", "model", "scenario", "region", "variable", "unit", "year", "value")
+INDICATOR_COLUMNS = ("submission_id", "model", "scenario", "region", "kind", "variable", "year_from", "year_to",
+                     "value", "unit")
+FINDING_COLUMNS = ("submission_id", "rule", "severity", "path", "line", "sheet", "model", "scenario", "region",
+                   "variable", "unit", "year", "value", "expected", "message", "hint")
+# what -> (current view, stored table, columns, sort order)
+EXPORTS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
+    "data": ("current_data", "data", DATA_COLUMNS, "model, scenario, region, variable, year"),
+    "indicators": ("current_indicators", "indicators", INDICATOR_COLUMNS,
+                   "model, scenario, region, kind, variable, year_from, year_to"),
+    "findings": ("findings", "findings", FINDING_COLUMNS, "submission_id, path NULLS FIRST, line NULLS LAST, rule"),
+}
+FORMATS = ("csv", "parquet", "xlsx")
+SNAPSHOT_TABLES = (("data", "current_data", DATA_COLUMNS, "scenario, region, variable, year"),
+                   ("indicators", "current_indicators", INDICATOR_COLUMNS,
+                    "scenario, region, kind, variable, year_from, year_to"),
+                   ("scenarios", "current_scenarios", ("submission_id", "model", "scenario", "reference",
+                                                       "attributes"), "scenario"))
+
+
+@dataclass
+class Filters:
+    """Row filters of an export; each is a list of accepted values (empty = no filter)."""
+
+    model: Sequence[str] = ()
+    scenario: Sequence[str] = ()
+    region: Sequence[str] = ()
+    variable: Sequence[str] = ()
+    submission: Sequence[int] = ()
+
+    def where(self) -> tuple[str, list[Any]]:
+        """A WHERE clause with `?` placeholders, and its parameters."""
+        clauses, params = [], []
+        for column, values in (("model", self.model), ("scenario", self.scenario), ("region", self.region),
+                               ("variable", self.variable), ("submission_id", self.submission)):
+            values = list(values)
+            if values:
+                clauses.append(f"{column} IN ({', '.join('?' * len(values))})")
+                params += values
+        return (" WHERE " + " AND ".join(clauses)) if clauses else "", params
+
+    def to_dict(self) -> dict[str, list[Any]]:
+        return {k: list(v) for k, v in self.__dict__.items() if v}
+
+
+def export_query(what: str, filters: Filters) -> tuple[str, list[Any]]:
+    """The SELECT of an export: current rows (or, with a submission filter, that submission's stored rows)."""
+    if what not in EXPORTS:
+        raise UsageError(f"--what must be one of {', '.join(EXPORTS)}, not {what!r}")
+    view, table, columns, order = EXPORTS[what]
+    # A submission filter asks for history: read the table, not the current view.
+    source = table if filters.submission else view
+    where, params = filters.where()
+    return f"SELECT {', '.join(columns)} FROM {source}{where} ORDER BY {order}", params
+
+
+def export(db: str | Path, what: str, fmt: str, output: str | Path, filters: Filters | None = None) -> int:
+    """Write the rows of `what` (data | indicators | findings) matching `filters` to `output`; returns the count."""
+    filters = filters or Filters()
+    if fmt not in FORMATS:
+        raise UsageError(f"--format must be one of {', '.join(FORMATS)}, not {fmt!r}")
+    output = Path(output)
+    if not output.parent.is_dir():
+        raise UsageError(f"the folder of {output} does not exist")
+    sql, params = export_query(what, filters)
+    with reading(db) as con:
+        n = int(con.execute(f"SELECT count(*) FROM ({sql})", params).fetchall()[0][0])
+        if fmt == "xlsx":
+            if n > XLSX_MAX_ROWS:
+                raise UsageError(f"{n:,} rows do not fit in an Excel sheet (at most {XLSX_MAX_ROWS:,}); "
+                                 "use --format csv or parquet, or filter with --model/--scenario/--region/--variable")
+            _write_xlsx(con, sql, params, output, what, filters, db)
+        else:
+            rel = con.sql(sql, params=params)
+            if fmt == "csv":
+                rel.write_csv(str(output), header=True)
+            else:
+                rel.write_parquet(str(output), compression="zstd")
+    return n
+
+
+def _write_xlsx(con: duckdb.DuckDBPyConnection, sql: str, params: list[Any], output: Path, what: str,
+                filters: Filters, db: str | Path) -> None:
+    from openpyxl import Workbook
+
+    # write_only streams rows to the file instead of building every cell object in memory.
+    wb = Workbook(write_only=True)
+    ws = wb.create_sheet(what)
+    cur = con.execute(sql, params)
+    ws.append([d[0] for d in cur.description])
+    while True:
+        chunk = cur.fetchmany(10_000)
+        if not chunk:
+            break
+        for row in chunk:
+            ws.append(list(row))
+    about = wb.create_sheet("about")
+    about.append(["milepost export", what])
+    about.append(["database", str(db)])
+    about.append(["filters", json.dumps(filters.to_dict())])
+    about.append(["exported at (UTC)", time.strftime("%Y-%m-%d %H:%M:%S", time.gmtime())])
+    for line in CAUTIONS:
+        about.append(["caution", line])
+    tmp = output.with_name(output.name + f".tmp-{os.getpid()}")
+    wb.save(tmp)
+    os.replace(tmp, output)
+
+
+# ---------------------------------------------------------------- snapshot
+
+
+def sha256_file(path: Path) -> str:
+    h = hashlib.sha256()
+    with path.open("rb") as f:
+        for chunk in iter(lambda: f.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
+    """Write the current data, indicators and scenarios as Parquet partitioned by model, plus manifest.json.
+
+    Layout: OUT/<table>/model=<name>/data_0.parquet (hive partitioning; names URL-encoded), OUT/manifest.json with
+    every file's sha256 and row count and the contract name(s) and hash(es). Returns the manifest.
+    """
+    from milepost.validate import __version__
+
+    out_dir = Path(out_dir)
+    if out_dir.exists() and (not out_dir.is_dir() or any(out_dir.iterdir())):
+        raise UsageError(f"{out_dir} exists and is not an empty folder; choose a new folder for the snapshot")
+    if not out_dir.parent.is_dir():
+        raise UsageError(f"the folder of {out_dir} does not exist")
+    # Build beside the target and rename at the end, so a half-written snapshot never carries the real name.
+    work = out_dir.with_name(f"{out_dir.name}.tmp-{os.getpid()}")
+    shutil.rmtree(work, ignore_errors=True)
+    work.mkdir()
+    try:
+        with reading(db) as con:
+            total = int(con.execute("SELECT count(*) FROM current_data").fetchall()[0][0])
+            if total == 0:
+                raise UsageError(f"{db} has no accepted data to snapshot")
+            tables: dict[str, Any] = {}
+            for name, view, columns, order in SNAPSHOT_TABLES:
+                rows = int(con.execute(f"SELECT count(*) FROM {view}").fetchall()[0][0])
+                tables[name] = {"rows": rows, "source": view, "partition_by": ["model"],
+                                "columns": list(columns)}
+                if rows:
+                    target = str(work / name).replace("'", "''")
+                    con.execute(f"COPY (SELECT {', '.join(columns)} FROM {view} ORDER BY model, {order}) "
+                                f"TO '{target}' (FORMAT parquet, COMPRESSION zstd, PARTITION_BY (model))")
+            contracts = [{"name": n, "hash": h} for n, h in con.execute(
+                "SELECT DISTINCT b.contract_name, b.contract_hash FROM submissions AS b "
+                "WHERE b.id IN (SELECT submission_id FROM current_versions) ORDER BY 1, 2").fetchall()]
+            submissions = [r[0] for r in con.execute(
+                "SELECT DISTINCT submission_id FROM current_versions ORDER BY 1").fetchall()]
+            version = schema_version(con)
+            files = []
+            for path in sorted(p for p in work.rglob("*.parquet")):
+                rel = path.relative_to(work).as_posix()
+                rows = int(con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0])
+                files.append({"path": rel, "sha256": sha256_file(path), "bytes": path.stat().st_size, "rows": rows})
+        manifest = {
+            "kind": "milepost-snapshot",
+            "created_at": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
+            "milepost_version": __version__,
+            "schema_version": version,
+            "database": str(db),
+            "contract_hash": contracts[0]["hash"] if len(contracts) == 1 else None,
+            "contracts": contracts,
+            "submissions": submissions,
+            "partitioning": "hive",
+            "tables": tables,
+            "files": files,
+            "cautions": list(CAUTIONS),
+        }
+        (work / "manifest.json").write_text(json.dumps(manifest, indent=2) + "\n", encoding="utf-8")
+        if out_dir.exists():
+            out_dir.rmdir()
+        os.replace(work, out_dir)
+    except BaseException:
+        shutil.rmtree(work, ignore_errors=True)
+        raise
+    return manifest
+
+
+# ---------------------------------------------------------------- diff
+
+KEY = ("model", "scenario", "region", "variable", "year")
+
+
+@dataclass
+class Diff:
+    """Rows of submission `b` against submission `a`: added, removed, changed beyond tolerance, and unchanged."""
+
+    a: int
+    b: int
+    relative: float
+    absolute: float
+    counts: dict[str, int]
+    added: list[dict[str, Any]] = field(default_factory=list)
+    removed: list[dict[str, Any]] = field(default_factory=list)
+    changed: list[dict[str, Any]] = field(default_factory=list)
+    limit: int = 0
+    only_a: list[str] = field(default_factory=list)  # "model | scenario" present in a only
+    only_b: list[str] = field(default_factory=list)
+    common_only: bool = False
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"a": self.a, "b": self.b, "tolerance": {"relative": self.relative, "absolute": self.absolute},
+                "common_only": self.common_only, "scenarios_only_in_a": self.only_a,
+                "scenarios_only_in_b": self.only_b, "counts": self.counts, "limit": self.limit,
+                "added": self.added, "removed": self.removed, "changed": self.changed}
+
+    @property
+    def identical(self) -> bool:
+        return not (self.counts["added"] or self.counts["removed"] or self.counts["changed"])
+
+
+def diff(db: str | Path, a: int, b: int, relative: float, absolute: float, limit: int = 100,
+         common_only: bool = False) -> Diff:
+    """Compare the stored rows of two submissions by (model, scenario, region, variable, year).
+
+    A value counts as changed when |b - a| > max(relative * |a|, absolute), the same rule as the contract's sum
+    tolerance (sum_relative, sum_absolute); a different unit also counts as changed. `limit` caps the rows listed
+    per category (0 = all); the counts are always complete. With `common_only`, only the (model, scenario) pairs
+    present in both submissions are compared (a partial revision then shows no "removed" scenarios).
+    """
+    if relative < 0 or absolute < 0:
+        raise UsageError("tolerances must not be negative")
+    with reading(db) as con:
+        status = dict(con.execute("SELECT id, status FROM submissions WHERE id IN (?, ?)", [a, b]).fetchall())
+        for sid in (a, b):
+            if sid not in status:
+                raise UsageError(f"there is no submission {sid} in {db}")
+            if status[sid] == "rejected":
+                raise UsageError(f"submission {sid} was rejected: it has no stored rows to compare")
+        key = ", ".join(KEY)
+        pairs = "SELECT DISTINCT model, scenario FROM scenarios WHERE submission_id = ?"
+        con.execute(f"CREATE TEMP TABLE diff_pairs AS SELECT *, 'a' AS side FROM ({pairs}) "
+                    f"UNION ALL SELECT *, 'b' FROM ({pairs})", [a, b])
+        only = {side: [f"{m} | {s}" for m, s in con.execute(
+            "SELECT model, scenario FROM diff_pairs AS p WHERE side = ? AND NOT EXISTS (SELECT 1 FROM diff_pairs "
+            "AS q WHERE q.side <> p.side AND q.model = p.model AND q.scenario = p.scenario) ORDER BY 1, 2",
+            [side]).fetchall()] for side in ("a", "b")}
+        common = ("AND (model, scenario) IN (SELECT (model, scenario) FROM diff_pairs GROUP BY ALL "
+                  "HAVING count(*) = 2)") if common_only else ""
+        con.execute(f"""
+            CREATE TEMP TABLE diff_rows AS
+            SELECT coalesce(x.model, y.model) AS model, coalesce(x.scenario, y.scenario) AS scenario,
+                   coalesce(x.region, y.region) AS region, coalesce(x.variable, y.variable) AS variable,
+                   coalesce(x.year, y.year) AS year, x.unit AS unit_a, y.unit AS unit_b,
+                   x.value AS value_a, y.value AS value_b,
+                   CASE WHEN x.model IS NULL THEN 'added'
+                        WHEN y.model IS NULL THEN 'removed'
+                        WHEN x.unit IS DISTINCT FROM y.unit
+                          OR abs(y.value - x.value) > greatest(? * abs(x.value), ?) THEN 'changed'
+                        ELSE 'same' END AS change
+            FROM (SELECT {key}, unit, value FROM data WHERE submission_id = ? {common}) AS x
+            FULL OUTER JOIN (SELECT {key}, unit, value FROM data WHERE submission_id = ? {common}) AS y
+              USING ({key})""", [relative, absolute, a, b])
+        counts = {k: 0 for k in ("added", "removed", "changed", "same")}
+        counts.update({c: int(n) for c, n in con.execute(
+            "SELECT change, count(*) FROM diff_rows GROUP BY 1").fetchall()})
+        out = Diff(a, b, relative, absolute, counts, limit=limit, only_a=only["a"], only_b=only["b"],
+                   common_only=common_only)
+        cap = f" LIMIT {int(limit)}" if limit else ""
+        for change, columns in (("added", "unit_b AS unit, value_b AS value"),
+                                ("removed", "unit_a AS unit, value_a AS value"),
+                                ("changed", "unit_a, unit_b, value_a, value_b, value_b - value_a AS delta")):
+            cur = con.execute(f"SELECT {key}, {columns} FROM diff_rows WHERE change = ? ORDER BY {key}{cap}",
+                              [change])
+            names = [d[0] for d in cur.description]
+            setattr(out, change, [dict(zip(names, r, strict=True)) for r in cur.fetchall()])
+    return out
+
+
+def submissions(db: str | Path) -> list[dict[str, Any]]:
+    """Every submission, oldest first, with its version number per model (accepted ones count) and scenarios."""
+    with reading(db) as con:
+        cur = con.execute("""
+            SELECT b.id, b.model, b.status,
+                   CASE WHEN b.status <> 'rejected' THEN
+                        row_number() OVER (PARTITION BY b.model, b.status = 'rejected' ORDER BY b.id) END AS version,
+                   b.superseded_by, b.rows, b.errors, b.warnings, b.notes, b.submitted_at, b.submitted_by, b.note,
+                   b.contract_name, b.contract_hash, b.milepost_version, b.sha256, b.files,
+                   (SELECT list(s.scenario ORDER BY s.scenario) FROM scenarios AS s WHERE s.submission_id = b.id)
+                       AS scenarios,
+                   (SELECT list(c.scenario ORDER BY c.scenario) FROM current_versions AS c
+                     WHERE c.submission_id = b.id) AS current_scenarios
+            FROM submissions AS b ORDER BY b.id""")
+        names = [d[0] for d in cur.description]
+        out = []
+        for row in cur.fetchall():
+            rec = dict(zip(names, row, strict=True))
+            rec["files"] = json.loads(rec["files"]) if rec["files"] else []
+            rec["scenarios"] = rec["scenarios"] or []
+            rec["current_scenarios"] = rec["current_scenarios"] or []
+            rec["submitted_at"] = rec["submitted_at"].isoformat(sep=" ", timespec="seconds") \
+                if rec["submitted_at"] else None
+            out.append(rec)
+    return out
+
