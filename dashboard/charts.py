@@ -75,7 +75,7 @@ def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> alt.FacetChart:
     )
     iqr = base.mark_rule(strokeWidth=6, opacity=0.45).encode(y=alt.Y("q25:Q", title=None), y2="q75:Q")
     med = base.mark_point(filled=True, size=60).encode(y="median:Q")
-    return alt.layer(iqr, med, data=summary).properties(width=260, height=200).facet(
+    return alt.layer(iqr, med, data=summary).properties(width=210, height=200).facet(
         facet=alt.Facet("panel:N", title=None, header=alt.Header(labelFontWeight="bold"),
                         sort=list(dict.fromkeys(summary["panel"]))), columns=3,
     ).resolve_scale(y="independent")

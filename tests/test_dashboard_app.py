@@ -108,7 +108,10 @@ def test_screen_edges_models_and_attribute_filter(demo_db, sql):  # noqa: F811
 
 
 def test_url_query_restores_the_view(demo_db, sql):  # noqa: F811
-    at = open_app(demo_db, params={"year": "2050", "model": ["Halvik"], "edges": "9000", "period": "2050-2100"})
+    # An edge between Halvik's lowest and highest 2050 value, so both bands are populated whatever the demo holds.
+    halvik = milestone_values(sql, "emissions.ghg", 2050, models=("Halvik",))["value"]
+    edge = f"{(halvik.min() + halvik.max()) / 2:.0f}"
+    at = open_app(demo_db, params={"year": "2050", "model": ["Halvik"], "edges": edge, "period": "2050-2100"})
     assert at.selectbox(key="band_year").value == 2050
     assert at.multiselect(key="band_models").value == ["Halvik"]
     shown = frame(at, "2050 [")

@@ -11,7 +11,6 @@ from __future__ import annotations
 import codecs
 import csv
 import hashlib
-import io
 import re
 import zipfile
 from dataclasses import dataclass, field
@@ -364,4 +363,4 @@ def _error_line(message: str) -> int | None:
     return int(m.group(1)) if m else None
 
 
-__all__ = ["LONG_COLUMNS", "InputFile", "io", "read_file", "sha256_of", "sniff_csv"]
+__all__ = ["LONG_COLUMNS", "InputFile", "read_file", "sha256_of", "sniff_csv"]

@@ -153,6 +153,15 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
         f"WHERE o.value IS NOT NULL AND o.year BETWEEN {contract.first_year} AND {contract.last_year} "
         "AND trim(o.model) <> '' AND trim(o.scenario) <> ''"
     )
+    # The contract's part lists in the same ENUM types, so sum joins never cast.
+    con.execute(f"CREATE OR REPLACE TEMP TABLE e_parts AS SELECT * FROM (SELECT TRY_CAST(total AS "
+                f"{enum['variable']}) AS total, TRY_CAST(part AS {enum['variable']}) AS part, factor FROM c_parts) "
+                "WHERE total IS NOT NULL AND part IS NOT NULL")
+    con.execute(f"CREATE OR REPLACE TEMP TABLE e_region_parts AS SELECT * FROM (SELECT TRY_CAST(parent AS "
+                f"{enum['region']}) AS parent, TRY_CAST(part AS {enum['region']}) AS part FROM c_region_parts) "
+                "WHERE parent IS NOT NULL AND part IS NOT NULL")
+    con.execute(f"CREATE OR REPLACE TEMP TABLE e_variables AS SELECT * FROM (SELECT TRY_CAST(variable AS "
+                f"{enum['variable']}) AS variable, regions, unit FROM c_variables) WHERE variable IS NOT NULL")
     # Repeats are rare: find the keys with a narrow aggregate, then look only at their rows.
     con.execute(f"CREATE OR REPLACE TEMP TABLE dup_keys AS SELECT {KEY} FROM checked GROUP BY ALL HAVING count(*) > 1")
     con.execute(

@@ -9,8 +9,6 @@ from __future__ import annotations
 
 from milepost.validate.checks.context import Context, fmt
 
-_T = "i.path, i.sheet, t.line, t.model, t.scenario, t.region, t.variable, t.unit, t.year"
-
 
 def _diff_pct(reported: str, expected: str) -> str:
     return (f"CASE WHEN {expected} = 0 THEN '' ELSE ' (' || printf('%+.2f', ({reported} - {expected}) "
@@ -19,52 +17,62 @@ def _diff_pct(reported: str, expected: str) -> str:
 
 def check_sum_of_parts(ctx: Context) -> list[str]:
     """sum-of-parts: a total that differs from the weighted sum of its (complete) parts beyond the tolerance."""
+    # One join and one group: each row meets the totals it is a part of and, as a total, its own group.
+    roles = ("SELECT total, part AS variable, factor, false AS is_total FROM e_parts UNION ALL "
+             "SELECT DISTINCT total, total AS variable, 1.0, true FROM e_parts")
     failing = (
-        "WITH p AS (SELECT c.model, c.scenario, c.region, c.year, cp.total, sum(c.value * cp.factor) AS expected, "
-        "count(*) AS n FROM checked c JOIN c_parts cp ON c.variable = cp.part GROUP BY ALL), "
-        "bad AS MATERIALIZED (SELECT t.*, p.expected FROM p JOIN c_part_counts k ON p.total = k.total AND p.n = k.n "
-        "JOIN checked t ON t.model = p.model AND t.scenario = p.scenario AND t.region = p.region "
-        "AND t.year = p.year AND t.variable = p.total "
-        f"WHERE abs(t.value - p.expected) > greatest({ctx.tol_rel} * abs(p.expected), {ctx.tol_abs})), "
-        "detail AS (SELECT b.model, b.scenario, b.region, b.year, b.variable, "
+        "WITH p AS (SELECT c.model, c.scenario, c.region, c.year, r.total, "
+        "sum(c.value * r.factor) FILTER (WHERE NOT r.is_total) AS expected, count(*) FILTER (WHERE NOT r.is_total) "
+        "AS n, any_value(c.value) FILTER (WHERE r.is_total) AS reported, any_value(c.src) FILTER (WHERE r.is_total) "
+        "AS src, any_value(c.line) FILTER (WHERE r.is_total) AS line, any_value(c.unit) FILTER (WHERE r.is_total) "
+        f"AS unit FROM checked c JOIN ({roles}) r ON c.variable = r.variable GROUP BY ALL), "
+        "bad AS MATERIALIZED (SELECT p.* FROM p JOIN c_part_counts k ON p.total = k.total AND p.n = k.n "
+        f"WHERE p.reported IS NOT NULL AND abs(p.reported - p.expected) > "
+        f"greatest({ctx.tol_rel} * abs(p.expected), {ctx.tol_abs})), "
+        "detail AS (SELECT b.model, b.scenario, b.region, b.year, b.total, "
         "string_agg(c.variable || ' = ' || " + fmt("c.value") + ", ', ' ORDER BY c.variable) AS parts "
-        "FROM bad b JOIN c_parts cp ON cp.total = b.variable JOIN checked c ON c.model = b.model "
+        "FROM bad b JOIN e_parts cp ON cp.total = b.total JOIN checked c ON c.model = b.model "
         "AND c.scenario = b.scenario AND c.region = b.region AND c.year = b.year AND c.variable = cp.part "
         "GROUP BY ALL) "
     )
     return [
-        failing + f"SELECT 'sum-of-parts' AS rule, {_T}, {fmt('t.value')} AS value, {fmt('t.expected')} AS expected, "
-        "t.variable || ' is ' || " + fmt("t.value") + " || ' but its parts sum to ' || " + fmt("t.expected")
-        + " || " + _diff_pct("t.value", "t.expected") + " AS message, 'parts: ' || d.parts AS hint "
-        "FROM bad t JOIN detail d USING (model, scenario, region, year, variable) JOIN c_inputs i ON i.src = t.src"
+        failing + "SELECT 'sum-of-parts' AS rule, i.path, i.sheet, t.line, t.model, t.scenario, t.region, "
+        f"t.total AS variable, t.unit, t.year, {fmt('t.reported')} AS value, {fmt('t.expected')} AS expected, "
+        "t.total || ' is ' || " + fmt("t.reported") + " || ' but its parts sum to ' || " + fmt("t.expected")
+        + " || " + _diff_pct("t.reported", "t.expected") + " AS message, 'parts: ' || d.parts AS hint "
+        "FROM bad t JOIN detail d USING (model, scenario, region, year, total) JOIN c_inputs i ON i.src = t.src"
     ]
 
 
 def check_sum_of_regions(ctx: Context) -> list[str]:
     """sum-of-regions: a region unequal to the sum of its parts, or regions of a net-zero variable not netting out."""
+    roles = ("SELECT parent, part AS region, false AS is_total FROM e_region_parts UNION ALL "
+             "SELECT DISTINCT parent, parent AS region, true FROM e_region_parts")
     grouped = (
-        "SELECT c.model, c.scenario, rp.parent, c.variable, c.year, any_value(v.regions) AS rule_kind, "
-        "sum(c.value) AS expected, sum(abs(c.value)) AS gross, count(*) AS n, arg_min(c.src, c.line) AS src, "
-        "min(c.line) AS line FROM checked c JOIN c_region_parts rp ON c.region = rp.part "
-        "JOIN c_variables v ON c.variable = v.variable WHERE v.regions IN ('sum', 'zero') GROUP BY ALL"
+        "SELECT c.model, c.scenario, r.parent, c.variable, c.year, any_value(v.regions) AS rule_kind, "
+        "any_value(c.unit) AS unit, "
+        "sum(c.value) FILTER (WHERE NOT r.is_total) AS expected, "
+        "sum(abs(c.value)) FILTER (WHERE NOT r.is_total) AS gross, count(*) FILTER (WHERE NOT r.is_total) AS n, "
+        "any_value(c.value) FILTER (WHERE r.is_total) AS reported, "
+        "coalesce(any_value(c.src) FILTER (WHERE r.is_total), min(c.src)) AS src, "
+        "coalesce(any_value(c.line) FILTER (WHERE r.is_total), min(c.line)) AS line "
+        f"FROM checked c JOIN ({roles}) r ON c.region = r.region "
+        "JOIN e_variables v ON c.variable = v.variable WHERE v.regions IN ('sum', 'zero') GROUP BY ALL"
     )
-    complete = f"f AS (SELECT r.* FROM ({grouped}) r JOIN c_region_counts k ON r.parent = k.parent AND r.n = k.n)"
     bad = (
-        f"WITH {complete}, bad AS MATERIALIZED ("
-        "SELECT f.*, t.value AS reported, t.line AS t_line, t.src AS t_src, v.unit FROM f "
-        "JOIN c_variables v ON f.variable = v.variable LEFT JOIN checked t ON t.model = f.model "
-        "AND t.scenario = f.scenario AND t.region = f.parent AND t.variable = f.variable AND t.year = f.year "
-        f"WHERE (f.rule_kind = 'sum' AND t.value IS NOT NULL AND abs(t.value - f.expected) > "
+        f"WITH f AS ({grouped}), bad AS MATERIALIZED (SELECT f.* FROM f "
+        "JOIN c_region_counts k ON f.parent = k.parent AND f.n = k.n "
+        f"WHERE (f.rule_kind = 'sum' AND f.reported IS NOT NULL AND abs(f.reported - f.expected) > "
         f"greatest({ctx.tol_rel} * abs(f.expected), {ctx.tol_abs})) OR (f.rule_kind = 'zero' AND "
         f"abs(f.expected) > greatest({ctx.tol_rel} * f.gross, {ctx.tol_abs}))), "
         "detail AS (SELECT b.model, b.scenario, b.parent, b.variable, b.year, "
         "string_agg(c.region || ' = ' || " + fmt("c.value") + ", ', ' ORDER BY c.region) AS regions "
-        "FROM bad b JOIN c_region_parts rp ON rp.parent = b.parent JOIN checked c ON c.model = b.model "
+        "FROM bad b JOIN e_region_parts rp ON rp.parent = b.parent JOIN checked c ON c.model = b.model "
         "AND c.scenario = b.scenario AND c.region = rp.part AND c.variable = b.variable AND c.year = b.year "
         "GROUP BY ALL) "
     )
     return [
-        bad + "SELECT 'sum-of-regions' AS rule, i.path, i.sheet, coalesce(b.t_line, b.line) AS line, b.model, "
+        bad + "SELECT 'sum-of-regions' AS rule, i.path, i.sheet, b.line, b.model, "
         "b.scenario, b.parent AS region, b.variable, b.unit, b.year, "
         "CASE WHEN b.rule_kind = 'sum' THEN " + fmt("b.reported") + " ELSE " + fmt("b.expected") + " END AS value, "
         "CASE WHEN b.rule_kind = 'sum' THEN " + fmt("b.expected") + " ELSE '0' END AS expected, "
@@ -73,5 +81,5 @@ def check_sum_of_regions(ctx: Context) -> list[str]:
         + " ELSE 'the regions of ' || b.parent || ' must net to zero for ' || b.variable || ', but sum to ' || "
         + fmt("b.expected") + " END AS message, 'regions: ' || d.regions AS hint "
         "FROM bad b JOIN detail d USING (model, scenario, parent, variable, year) "
-        "JOIN c_inputs i ON i.src = coalesce(b.t_src, b.src)"
+        "JOIN c_inputs i ON i.src = b.src"
     ]
