@@ -129,3 +129,18 @@ def test_broken_toml_is_a_contract_error(tmp_path):
     (tmp_path / "contract.toml").write_text("name = \n")
     with pytest.raises(ContractError, match="not valid TOML"):
         load(tmp_path)
+
+
+def test_lint_once_remembers_only_a_passing_contract(tmp_path, monkeypatch, basic):
+    from milepost.validate.contract_lint import lint_once
+
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "cache"))
+    assert lint_once(basic) == []
+    assert len(list((tmp_path / "cache" / "milepost").iterdir())) == 1
+    (tmp_path / "bad").mkdir()
+    (tmp_path / "bad" / "contract.toml").write_text('name = "bad"\nextends = "core"\n')
+    (tmp_path / "bad" / "variables.toml").write_text('["population"]\nunit = "blorbs"\n')
+    bad = load(tmp_path / "bad")
+    assert [f.rule for f in lint_once(bad)] == ["contract-unit"]
+    assert [f.rule for f in lint_once(bad)] == ["contract-unit"]  # failures are looked at again every time
+    assert len(list((tmp_path / "cache" / "milepost").iterdir())) == 1

@@ -55,9 +55,9 @@ def load_contract(path: Path | None, *, strict: bool = True) -> Contract:
         fail(f"contract folder {path} does not exist")
     contract = load(path)
     if strict:
-        from milepost.validate.contract_lint import lint
+        from milepost.validate.contract_lint import lint_once
 
-        problems = lint(contract)
+        problems = lint_once(contract)
         if problems:
             first = problems[0].message
             more = ""

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import os
+from pathlib import Path
+
 from milepost.schema.contract import AGGREGATIONS, NAME_PATTERN, SIGNS, Contract, iso3_codes
 from milepost.schema.units import UnitError
 from milepost.validate.findings import RULES, SEVERITIES, Finding
@@ -121,3 +124,25 @@ def lint(contract: Contract) -> list[Finding]:
             out.append(_f("contract-severity", f"[severity] {rule} = {sev!r}: rule ids are those of `milepost "
                           f"rules`, severities {', '.join(SEVERITIES)}", path=src))
     return out
+
+
+def _cache_dir() -> Path:
+    return Path(os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache") / "milepost"
+
+
+def lint_once(contract: Contract) -> list[Finding]:
+    """`lint`, remembered per contract hash and milepost version once it passed: linting parses every unit with
+    pint, which costs more start-up time than checking a small file. Failures are never cached."""
+    from milepost.validate import __version__
+
+    marker = _cache_dir() / f"contract-ok-{contract.hash[:32]}-{__version__}"
+    if marker.exists():
+        return []
+    problems = lint(contract)
+    if not problems:
+        try:
+            marker.parent.mkdir(parents=True, exist_ok=True)
+            marker.touch()
+        except OSError:
+            pass  # a read-only home only costs the lint again next time
+    return problems
