@@ -162,8 +162,10 @@ def ingest(
         timings["check"] = time.perf_counter() - t
         digest_of = dict(zip(resolved, digests, strict=True))
         file_rows = [
-            {"path": str(f.path), "name": Path(f.path).name,
-             "sha256": digest_of.get(Path(f.path).resolve(), f.sha256), "rows": int(f.rows), "kind": f.kind}
+            # An XLSX file may hold both the data and the scenarios sheet: name the sheet so the two read apart.
+            {"path": str(f.path), "name": Path(f.path).name + (f" [{f.sheet}]" if f.sheet else ""),
+             "sheet": f.sheet, "sha256": digest_of.get(Path(f.path).resolve(), f.sha256), "rows": int(f.rows),
+             "kind": f.kind}
             for f in result.inputs
         ]
         counts = {k: int(result.counts.get(k, 0)) for k in ("error", "warning", "note")}
