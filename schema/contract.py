@@ -141,8 +141,13 @@ class Contract:
         }
 
     def is_region(self, name: str) -> bool:
-        """True if `name` is a region of the contract or (when countries are allowed) an ISO 3166-1 alpha-3 code."""
-        return name in self.regions or (self.countries and name in iso3_codes())
+        """True if `name` is a region of the contract, a part of one (e.g. an ISO code in a country group), or,
+        when countries are allowed, any ISO 3166-1 alpha-3 code."""
+        return name in self.region_names() or (self.countries and name in iso3_codes())
+
+    def region_names(self) -> frozenset[str]:
+        """Every region the contract names: its regions and their parts."""
+        return frozenset(self.regions) | {p for r in self.regions.values() for p in r.parts}
 
     def leaf_parts(self, region: str) -> tuple[str, ...]:
         """The direct parts of a region (its sum-of-regions addends)."""

@@ -49,3 +49,23 @@ def test_suggest_prefers_case_and_separator_fixes():
     assert suggest("GDP.PPP", ["gdp.ppp", "gdp.mer"]) == "gdp.ppp"
     assert suggest("popultion", ["population", "price.carbon"]) == "population"
     assert suggest("xyz", ["population"]) is None
+
+
+def test_country_groups_sum_their_iso_codes(tmp_path, check):
+    # A region made of ISO 3166-1 alpha-3 codes (pycountry knows NOR and SWE) accepts exactly those codes.
+    from milepost.schema.contract import load
+    from milepost.validate.contract_lint import lint
+
+    folder = tmp_path / "groups"
+    folder.mkdir()
+    (folder / "contract.toml").write_text('name = "groups"\nextends = "core"\n')
+    (folder / "regions.toml").write_text('countries = false\n["World"]\nparts = ["Northland"]\n'
+                                         '["Northland"]\nparts = ["NOR", "SWE"]\n')
+    contract = load(folder)
+    assert lint(contract) == []
+    rows = consistent_rows(contract)
+    assert {r["region"] for r in rows} == {"World", "Northland", "NOR", "SWE"}
+    assert check(write_csv(tmp_path / "ok.csv", rows), contract).findings == []
+    bad = [dict(r, region="FIN") if r["region"] == "SWE" else r for r in rows]
+    found = rules_at(check(write_csv(tmp_path / "bad.csv", bad), contract), "unknown-region")
+    assert {f.value for f in found} == {"FIN"}

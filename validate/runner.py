@@ -73,7 +73,7 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
     if parts:
         con.executemany("INSERT INTO c_parts VALUES (?, ?, ?)", parts)
     con.execute("CREATE OR REPLACE TEMP TABLE c_part_counts AS SELECT total, count(*) AS n FROM c_parts GROUP BY 1")
-    regions = set(contract.regions)
+    regions = set(contract.region_names())
     if contract.countries:
         from milepost.schema.contract import iso3_codes
 
