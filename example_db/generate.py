@@ -1,8 +1,10 @@
 """Seeded generator of the invented demo intercomparison: four models, a flawed fifth one and one revision.
 
 Everything here is invented: models, scenarios, regions and numbers. The numbers come from a small stylised
-model (reference growth, a marginal-abatement response to a carbon price with inertia, costs as the area under
-the abatement curve) so that the ensemble behaves plausibly, not from any real model or data set.
+model (reference growth; abatement embodied in capital that turns over slowly, is built at the abatement that is
+cost-effective at the carbon price of its day and can be scrapped early at a convex cost; costs fall with
+experience) so that the ensemble behaves plausibly, not from any real model or data set. Delayed scenarios
+pursue the same goal as their immediate sibling, so they must cut faster after 2030 and pay more for it.
 Run `python -m milepost.example_db.generate OUT_DIR` to write the files.
 """
 
@@ -15,7 +17,7 @@ import sys
 import time
 import zipfile
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -40,7 +42,6 @@ SCENARIO_COLUMNS = ("model", "scenario", "reference", "family", "ambition", "pol
 # Values are kept as integers of 1e-4 units until written, so sums of parts and of regions hold exactly.
 QUANTUM = 10_000
 REFERENCE_NAME = "drift"
-DELAY_PREMIUM = {"firm": 1.2, "bold": 1.3, "deep": 1.5, "max": 1.8}
 POLICY_START = 2025
 DELAYED_START = 2035
 
@@ -90,31 +91,38 @@ BECCS_MAX = np.array([1500.0, 2500.0, 1000.0, 1200.0, 800.0])  # Mt CO2/yr of bi
 BECCS_MT_PER_EJ = 85.0
 
 # Abatement groups: cost scale c (USD_2015/t CO2e at which 63 % of the potential is used), potential, and the
-# largest increase of the abated fraction per five-year step (inertia: plants and habits change slowly).
+# share of the group's capital (plants, vehicles, buildings, practices) replaced anyway in a five-year step.
 GROUPS = ("coal", "oil", "gas", "ccs", "process", "land", "sink", "beccs", "ch4", "n2o")
 GROUP_COST = np.array([60.0, 250.0, 150.0, 300.0, 120.0, 40.0, 150.0, 300.0, 60.0, 100.0])
 GROUP_POTENTIAL = np.array([0.97, 0.85, 0.85, 0.60, 0.80, 1.0, 1.0, 1.0, 0.60, 0.40])
-GROUP_STEP = np.array([0.28, 0.15, 0.18, 0.12, 0.15, 0.30, 0.20, 0.12, 0.15, 0.10])
-ADJUSTMENT_SPEED = 0.6  # share of the gap to the cost-effective abatement closed per five-year step
-ADJUSTMENT_COST = 3.0  # quadratic penalty on fast changes: the price of acting late
-FIRST_STEP = 0.4  # the first five years of a policy move at this fraction of the usual pace
+GROUP_TURNOVER = np.array([0.2, 0.4, 0.3, 0.2, 0.2, 0.7, 0.4, 0.2, 0.55, 0.4])
+# Retiring capital before its time costs SCRAP_COST * c * s^2 per t CO2e of base for a share s scrapped in a step.
+SCRAP_COST = 20.0
+# Learning by doing: a group's cost scale falls as (1 + E / EXPERIENCE0)^-LEARNING with its experience E (abated
+# fraction x years, per region); 0.36 is a cost fall of 1 - 2^-0.36 = 22 % per doubling of experience.
+LEARNING = 0.36
+EXPERIENCE0 = 1.0
 
-# The scenario protocol: name, family, ambition, carbon price in 2025 (USD_2015/t CO2, before the model's own
-# scaling) and a price premium. Prices grow 5 %/yr to 2050 and 2 %/yr after. Delayed scenarios follow the
-# reference to 2030 and then pay `premium` x the immediate price, chosen so they reach about the 2050 level
-# of their immediate sibling.
+# The scenario protocol: name, family, ambition and carbon price in 2025 (USD_2015/t CO2, before the model's own
+# scaling). Prices grow 5 %/yr to 2050 and 2 %/yr after. A delayed scenario follows the reference to 2030 and then
+# pursues the goal of its immediate sibling (same model and ambition): from 2035 it pays a multiple of the
+# sibling's price, solved per run so that World GHG in 2050 matches the sibling's; after 2050 the premium fades,
+# at a pace solved per run so that 2100 ends at the sibling's level too. Delayed variants exist for a weak, a
+# strong and the strongest goal.
 PROTOCOL = (
-    (REFERENCE_NAME, "reference", "", 0.0, 1.0),
-    ("act-mild", "immediate", "mild", 8.0, 1.0),
-    ("act-firm", "immediate", "firm", 25.0, 1.0),
-    ("act-bold", "immediate", "bold", 50.0, 1.0),
-    ("act-deep", "immediate", "deep", 100.0, 1.0),
-    ("act-max", "immediate", "max", 180.0, 1.0),
-    ("wait-firm", "delayed", "firm", 25.0, DELAY_PREMIUM["firm"]),
-    ("wait-bold", "delayed", "bold", 50.0, DELAY_PREMIUM["bold"]),
-    ("wait-deep", "delayed", "deep", 100.0, DELAY_PREMIUM["deep"]),
-    ("wait-max", "delayed", "max", 180.0, DELAY_PREMIUM["max"]),
+    (REFERENCE_NAME, "reference", "", 0.0),
+    ("act-mild", "immediate", "mild", 14.0),
+    ("act-modest", "immediate", "modest", 20.0),
+    ("act-firm", "immediate", "firm", 30.0),
+    ("act-bold", "immediate", "bold", 55.0),
+    ("act-deep", "immediate", "deep", 90.0),
+    ("act-max", "immediate", "max", 140.0),
+    ("wait-firm", "delayed", "firm", 30.0),
+    ("wait-deep", "delayed", "deep", 90.0),
+    ("wait-max", "delayed", "max", 140.0),
 )
+DELAY_PREMIUM_MAX = 10.0  # search range of the delay premium (price multiple, from 1)
+DELAY_FADE_RANGE = (0.5, 50.0)  # search range of the e-folding time (years) of the premium after 2050
 PRICE_GROWTH = (0.05, 0.02)
 PRICE_CAP = 4000.0
 # Reference-component indices for the per-model calibration noise.
@@ -155,7 +163,7 @@ class Models:
     names: tuple[str, ...]
     price_scale: np.ndarray
     cost_scale: np.ndarray
-    step_scale: np.ndarray
+    turnover_scale: np.ndarray
     beccs_scale: np.ndarray
     sink_scale: np.ndarray
     gdp_loss: np.ndarray
@@ -187,7 +195,7 @@ def _models(names: tuple[str, ...], rng: np.random.Generator) -> Models:
     u = lambda lo, hi: rng.uniform(lo, hi, m)  # noqa: E731
     pop_scale, gdp_scale, aeei = u(0.85, 1.15), u(0.85, 1.15), u(0.010, 0.016)
     params = dict(
-        price_scale=u(0.85, 1.3), cost_scale=u(0.7, 1.4), step_scale=u(0.85, 1.25), beccs_scale=u(0.4, 1.4),
+        price_scale=u(0.85, 1.3), cost_scale=u(0.7, 1.4), turnover_scale=u(0.85, 1.25), beccs_scale=u(0.4, 1.4),
         sink_scale=u(0.6, 1.3), gdp_loss=u(0.8, 1.3), demand_share=u(0.35, 0.55),
     )
     # Calibration: each model's 2020 values differ from the reference data by up to 4 %; the paths then wander
@@ -232,25 +240,99 @@ def _price(level: np.ndarray, start: np.ndarray, premium: np.ndarray, g1: np.nda
     return np.minimum(np.where(on, path * premium[:, None], 0.0), PRICE_CAP)
 
 
-def _protocol_runs(models: Models, protocol: tuple[tuple[str, str, str, float, float], ...] = PROTOCOL,
+def _protocol_runs(models: Models, ghg_factor: dict[str, float],
+                   protocol: tuple[tuple[str, str, str, float], ...] = PROTOCOL,
                    only: tuple[str, ...] | None = None, price_factor: float = 1.0) -> Runs:
-    """Every model x every protocol scenario (or only the models named in `only`)."""
+    """Every model x every protocol scenario (or only the models named in `only`), delayed runs matched to their
+    immediate siblings."""
     idx = [i for i, name in enumerate(models.names) if only is None or name in only]
     model = np.repeat(np.array(idx, dtype=int), len(protocol))
-    name, family, ambition, level, premium_ = zip(*protocol, strict=True)
+    name, family, ambition, level = zip(*protocol, strict=True)
     n = len(idx)
     fam = np.array(family * n)
     start = np.where(fam == "reference", 0, np.where(fam == "delayed", DELAYED_START, POLICY_START))
-    premium = np.array(premium_ * n)
     lev = np.array(level * n) * models.price_scale[model] * price_factor
     g1, g2 = np.full(len(model), PRICE_GROWTH[0]), np.full(len(model), PRICE_GROWTH[1])
-    return Runs(model, name * n, family * n, ambition * n, start, _price(lev, start, premium, g1, g2))
+    runs = Runs(model, name * n, family * n, ambition * n, start, _price(lev, start, np.ones(len(model)), g1, g2))
+    return _match_siblings(models, runs, ghg_factor)
 
 
-def _mac_cost(base: np.ndarray, cost: np.ndarray, potential: float, frac: np.ndarray) -> np.ndarray:
-    """Area under the abatement curve a = potential * (1 - exp(-p / cost)) up to `frac`, in billion USD/yr."""
-    u = np.clip(1.0 - frac / potential, 1e-12, 1.0)
-    return base * cost * potential * (1.0 - u + u * np.log(u)) / 1000.0
+def _subset(runs: Runs, idx: np.ndarray) -> Runs:
+    """The runs at positions `idx`."""
+    pick = lambda xs: tuple(xs[i] for i in idx)  # noqa: E731
+    return Runs(runs.model[idx], pick(runs.scenario), pick(runs.family), pick(runs.ambition), runs.start[idx],
+                runs.price[idx])
+
+
+def _delay_price(price: np.ndarray, premium: np.ndarray, fade: np.ndarray) -> np.ndarray:
+    """`price` [N, T] times a premium that holds to 2050 and fades after with e-folding time `fade`, capped."""
+    decay = np.exp(-np.maximum(YEARS[None, :] - 2050, 0) / fade[:, None])
+    return np.minimum(price * (1.0 + (premium[:, None] - 1.0) * decay), PRICE_CAP)
+
+
+def _regional_ghg(leaves: dict[str, np.ndarray], ghg_factor: dict[str, float]) -> np.ndarray:
+    """Regional GHG [N, R, T] in Mt CO2e from the emission leaves."""
+    return (sum(leaves[f"emissions.co2.fossil.{s}"] for s in SECTORS) + leaves["emissions.co2.land"]
+            + leaves["emissions.ch4"] * ghg_factor["emissions.ch4"]
+            + leaves["emissions.n2o"] * ghg_factor["emissions.n2o"])
+
+
+def _match_siblings(models: Models, runs: Runs, ghg_factor: dict[str, float], iterations: int = 40) -> Runs:
+    """Solve each delayed run's price premium and its fading so that World GHG in 2050 and in 2100 equals that of the
+    immediate run of the same model and ambition; runs without such a sibling are kept as they are.
+
+    Both are bisections on a logarithm, all runs at once: the premium first (later prices cannot change 2050),
+    then the e-folding time of its fading after 2050 (a slower fade abates more by 2100).
+    """
+    key = list(zip(runs.model.tolist(), runs.ambition, strict=True))
+    sibling = {k: i for i, (k, f) in enumerate(zip(key, runs.family, strict=True)) if f == "immediate"}
+    delayed = np.array([i for i, f in enumerate(runs.family) if f == "delayed" and key[i] in sibling], dtype=int)
+    if not len(delayed):
+        return runs
+    years = [int(np.searchsorted(YEARS, y)) for y in (2050, 2100)]
+    world = lambda r: _regional_ghg(_simulate(models, r, ghg_factor), ghg_factor).sum(axis=1)[:, years]  # noqa: E731
+    goal = world(_subset(runs, np.array([sibling[key[i]] for i in delayed])))
+    sub = _subset(runs, delayed)
+    premium, fade = np.ones(len(delayed)), np.full(len(delayed), DELAY_FADE_RANGE[0])
+    for j, (low, high) in enumerate(((1.0, DELAY_PREMIUM_MAX), DELAY_FADE_RANGE)):
+        lo, hi = np.full(len(delayed), np.log(low)), np.full(len(delayed), np.log(high))
+        for _ in range(iterations):
+            mid = 0.5 * (lo + hi)
+            trial = (np.exp(mid), fade) if j == 0 else (premium, np.exp(mid))
+            above = world(replace(sub, price=_delay_price(sub.price, *trial)))[:, j] > goal[:, j]
+            lo, hi = np.where(above, mid, lo), np.where(above, hi, mid)
+        if j == 0:
+            premium = np.exp(hi)
+        else:
+            fade = np.exp(0.5 * (lo + hi))
+    price = runs.price.copy()
+    price[delayed] = _delay_price(sub.price, premium, fade)
+    return replace(runs, price=price)
+
+
+def _mac_area(goal: np.ndarray, potential: np.ndarray) -> np.ndarray:
+    """Area under the abatement curve a = potential * (1 - exp(-x)) up to price x (in units of c), per unit base."""
+    u = np.exp(-goal)
+    return potential * (1.0 - u - u * goal)
+
+
+def _vintage_step(a: np.ndarray, cost: np.ndarray, price: np.ndarray, scale: np.ndarray, base_scale: np.ndarray,
+                  potential: np.ndarray, turnover: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """One five-year step of the capital stock of every group: (abated fraction, cost in USD_2015 per t of base).
+
+    New capital (the replaced share, plus whatever is scrapped early) is built at the abatement that is
+    cost-effective at the current price and cost scale, and keeps its abatement and its cost for life. So a late,
+    steep transition builds capital far deeper than average, and because the cost curve is convex, the same
+    average abatement then costs more. The scrapped share s is where the yearly gain of rebuilding,
+    price x (new - old abatement) - (new - old cost), meets the marginal scrapping cost 2 SCRAP_COST c s.
+    """
+    goal = price / scale
+    new, new_cost = potential * (1.0 - np.exp(-goal)), scale * _mac_area(goal, potential)
+    gain = price * (new - a) - (new_cost - cost)
+    scrap = np.clip(gain / (2.0 * SCRAP_COST * base_scale), 0.0, 1.0 - turnover)
+    share = turnover + scrap
+    return ((1.0 - share) * a + share * new,
+            (1.0 - share) * cost + share * new_cost + SCRAP_COST * base_scale * scrap**2)
 
 
 def _simulate(models: Models, runs: Runs, ghg_factor: dict[str, float],
@@ -262,17 +344,18 @@ def _simulate(models: Models, runs: Runs, ghg_factor: dict[str, float],
     mi = runs.model
     ref = {k: v[mi] for k, v in models.ref.items()}
     price = runs.price[:, None, :]
-    cost_scale = GROUP_COST[:, None] * models.cost_scale[None, mi]  # [G, N]
-    step = GROUP_STEP[:, None] * models.step_scale[None, mi]
-    target = GROUP_POTENTIAL[:, None, None, None] * (1.0 - np.exp(-price[None] / cost_scale[:, :, None, None]))
-    frac = np.zeros_like(target)  # [G, N, R, T]
-    first = (YEARS[None, :] == runs.start[:, None])[None, :, None, :]  # the first policy step is slower
-    for t in range(1, len(YEARS)):  # inertia is a recursion in time; everything else is vectorised
-        gap = np.maximum(target[..., t] - frac[..., t - 1], 0.0)
-        limit = step[:, :, None] * np.where(first[..., t], FIRST_STEP, 1.0)
-        frac[..., t] = frac[..., t - 1] + np.minimum(ADJUSTMENT_SPEED * gap, limit)
+    scale0 = (GROUP_COST[:, None] * models.cost_scale[None, mi])[:, :, None]  # cost scale c, [G, N, 1]
+    potential = GROUP_POTENTIAL[:, None, None]
+    turnover = (GROUP_TURNOVER[:, None] * models.turnover_scale[None, mi])[:, :, None]
+    frac = np.zeros((len(GROUPS), len(mi), len(REGIONS), len(YEARS)))  # abated fraction per group
+    unit_cost = np.zeros_like(frac)  # USD_2015 per t of the group's base
+    experience = np.zeros(frac.shape[:-1])
+    for t in range(1, len(YEARS)):  # the capital stock is a recursion in time; everything else is vectorised
+        scale = scale0 * (1.0 + experience / EXPERIENCE0) ** -LEARNING
+        frac[..., t], unit_cost[..., t] = _vintage_step(frac[..., t - 1], unit_cost[..., t - 1], price[None, :, :, t],
+                                                        scale, scale0, potential, turnover)
+        experience = experience + 5.0 * frac[..., t]
     a = dict(zip(GROUPS, frac, strict=True))
-    c = dict(zip(GROUPS, cost_scale[:, :, None, None], strict=True))
 
     fossil_ref = [ref[f"fuel.{f}"] for f in FUELS[:3]]
     fossil = [q * (1.0 - a[f]) for q, f in zip(fossil_ref, FUELS[:3], strict=True)]
@@ -306,18 +389,14 @@ def _simulate(models: Models, runs: Runs, ghg_factor: dict[str, float],
     out["emissions.ch4"] = ref["ch4"] * (1.0 - a["ch4"])
     out["emissions.n2o"] = ref["n2o"] * (1.0 - a["n2o"])
 
-    # Costs: area under each abatement curve, plus a penalty on fast change (which is what makes delay dear).
+    # Costs: what the capital in place costs over the reference (see _vintage_step), billion USD/yr.
     bases = {
         "coal": fossil_ref[0] * EMISSION_FACTOR[0], "oil": fossil_ref[1] * EMISSION_FACTOR[1],
         "gas": fossil_ref[2] * EMISSION_FACTOR[2], "ccs": captured_base, "process": ref["process"],
         "land": land_base, "sink": sink, "beccs": BECCS_MAX[None, :, None] * models.beccs_scale[mi][:, None, None],
         "ch4": ref["ch4"] * ghg_factor["emissions.ch4"], "n2o": ref["n2o"] * ghg_factor["emissions.n2o"],
     }
-    cost = np.zeros_like(land_base)
-    for k in GROUPS:
-        cost = cost + _mac_cost(bases[k], c[k], float(GROUP_POTENTIAL[GROUPS.index(k)]), a[k])
-        change = np.diff(a[k], axis=-1, prepend=0.0)
-        cost = cost + ADJUSTMENT_COST * bases[k] * c[k] * change**2 / 1000.0
+    cost = sum(bases[k] * unit_cost[i] for i, k in enumerate(GROUPS)) / 1000.0  # Mt x USD/t -> billion USD
     out["cost.abatement"] = cost
 
     loss = np.minimum(models.gdp_loss[mi][:, None, None] * cost / ref["gdp.mer"], 0.2)
@@ -330,8 +409,7 @@ def _simulate(models: Models, runs: Runs, ghg_factor: dict[str, float],
         adjust(out)
 
     # Permits: allowances move part of the way from each region's own emissions to a per-capita share.
-    ghg = (sum(out[f"emissions.co2.fossil.{s}"] for s in SECTORS) + out["emissions.co2.land"]
-           + out["emissions.ch4"] * ghg_factor["emissions.ch4"] + out["emissions.n2o"] * ghg_factor["emissions.n2o"])
+    ghg = _regional_ghg(out, ghg_factor)
     pop_share = out["population"] / out["population"].sum(axis=1, keepdims=True)
     years = YEARS[None, None, :]
     start = runs.start[:, None, None]
@@ -411,8 +489,9 @@ def _ensemble(names: tuple[str, ...] = MODELS, only: tuple[str, ...] | None = No
               adjust: Callable[[dict[str, np.ndarray]], None] | None = None) -> tuple[pd.DataFrame, pd.DataFrame]:
     con = contract()
     models = _models(names, np.random.default_rng(SEED))
-    runs = _protocol_runs(models, only=only, price_factor=price_factor)
-    cube = _assemble(_simulate(models, runs, ghg_factors(con), adjust), con)
+    factors = ghg_factors(con)
+    runs = _protocol_runs(models, factors, only=only, price_factor=price_factor)
+    cube = _assemble(_simulate(models, runs, factors, adjust), con)
     return _long(cube, runs, models, con), _scenario_table(runs, models)
 
 
@@ -463,10 +542,10 @@ def _flaw_leaves(out: dict[str, np.ndarray]) -> None:
 
 def flawed_frames() -> tuple[pd.DataFrame, pd.DataFrame]:
     """The flawed fifth model: two scenarios with a handful of deliberate, clearly separate mistakes."""
-    protocol = (PROTOCOL[0], PROTOCOL[2])
+    protocol = tuple(p for p in PROTOCOL if p[0] in (REFERENCE_NAME, "act-firm"))
     con = contract()
     models = _models((FLAWED_MODEL,), np.random.default_rng(SEED + 1))
-    runs = _protocol_runs(models, protocol=protocol)
+    runs = _protocol_runs(models, ghg_factors(con), protocol=protocol)
     data = _long(_assemble(_simulate(models, runs, ghg_factors(con), _flaw_leaves), con), runs, models, con)
     scen = data["scenario"]
     # A typo in a variable name (the real name is then missing for that scenario).
