@@ -221,6 +221,7 @@ def test_reader_keeps_its_snapshot_and_refreshes_after_a_swap(tmp_path: Path) ->
     assert reader.con.execute("SELECT count(*) FROM data").fetchall() == [(0,)]  # the old file, whole
     assert reader.refresh() is True
     assert reader.con.execute("SELECT count(*) FROM data").fetchall() == [(1,)]
+    assert reader.cursor().execute("SELECT count(*) FROM data").fetchall() == [(1,)]  # cursors see the file too
     assert not reader.changed()
     with pytest.raises(duckdb.Error, match="read-only"):
         reader.con.execute("DELETE FROM data")

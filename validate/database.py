@@ -422,7 +422,9 @@ class Reader:
 
     def cursor(self) -> duckdb.DuckDBPyConnection:
         """A cursor for one thread or query (DuckDB connections are not thread-safe in 2.0)."""
-        return self.con.cursor()
+        cur = self.con.cursor()
+        cur.execute("USE db")  # a cursor starts in the default catalog, not the one the connection switched to
+        return cur
 
     def close(self) -> None:
         with contextlib.suppress(duckdb.Error):
