@@ -100,6 +100,22 @@ def _load(spec: str) -> Any:
     return getattr(importlib.import_module(module), name)
 
 
+def describe(r: dict[str, Any]) -> str:
+    """One line per result; the sections name their floor differently (floor, DuckDB load, full scan)."""
+    step = r.get("step") or r.get("name", "?")
+    floor = r.get("floor_seconds") or r.get("duckdb_seconds") or r.get("baseline_seconds")
+    label = r.get("floor") or r.get("baseline") or ("DuckDB CREATE TABLE AS read_csv" if "duckdb_seconds" in r else "")
+    target = r.get("target") or r.get("limit")
+    text = f"{step}: {r['seconds']:.2f} s"
+    if floor and r.get("ratio") is not None:
+        text += f" = {r['ratio']:.2f}x floor ({floor:.2f} s, {label})"
+    if target:
+        text += f" (target ≤ {target:g}x)"
+    if r.get("peak_mb"):
+        text += f", peak {r['peak_mb']:.0f} MB"
+    return text
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the sections, print one line per step, and write bench-out/results.json."""
     ap = argparse.ArgumentParser(prog="python -m milepost.validate.bench", description=__doc__)
@@ -113,10 +129,7 @@ def main(argv: list[str] | None = None) -> int:
         for r in _load(SECTIONS[name])(args.workdir):
             r.setdefault("section", name)
             rows.append(r)
-            target = f" (target ≤ {r['target']:g}x)" if r.get("target") else ""
-            peak = f", peak {r['peak_mb']:.0f} MB" if r.get("peak_mb") else ""
-            print(f"{r['step']}: {r['seconds']:.2f} s = {r['ratio']:.2f}x floor ({r['floor_seconds']:.2f} s, "
-                  f"{r['floor']}){target}{peak}", flush=True)
+            print(describe(r), flush=True)
     (args.workdir / "results.json").write_text(json.dumps(rows, indent=2))
     return 0
 
