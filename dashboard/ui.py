@@ -216,3 +216,9 @@ def band_ranges(edges: list[float]) -> list[str]:
         return ["all values"]
     inner = [f"{fmt(lo, 0)} to < {fmt(hi, 0)}" for lo, hi in itertools.pairwise(edges)]
     return [f"< {fmt(edges[0], 0)}", *inner, f"≥ {fmt(edges[-1], 0)}"]
+
+
+def bands_note(variable: str, year: int, region: str, labels: list[str], edges: list[float]) -> str:
+    """'Bands by X in Y (R): low < a; middle a to < b; high ≥ b' for a page's caption."""
+    ranges = "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, band_ranges(edges), strict=True))
+    return f"Bands by {variable} in {year} ({region}): {ranges}"

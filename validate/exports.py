@@ -6,7 +6,6 @@ are written into SQL text. All of these open the database read-only, so they nev
 
 from __future__ import annotations
 
-import hashlib
 import json
 import os
 import shutil
@@ -20,6 +19,7 @@ import duckdb
 
 from milepost.validate.database import reading, schema_version
 from milepost.validate.errors import UsageError
+from milepost.validate.readers import sha256_of
 
 XLSX_MAX_ROWS = 1_048_575  # an Excel sheet has 1,048,576 rows; one is the header
 CAUTIONS = (
@@ -137,14 +137,6 @@ def _write_xlsx(con: duckdb.DuckDBPyConnection, sql: str, params: list[Any], out
 # ---------------------------------------------------------------- snapshot
 
 
-def sha256_file(path: Path) -> str:
-    h = hashlib.sha256()
-    with path.open("rb") as f:
-        for chunk in iter(lambda: f.read(1 << 20), b""):
-            h.update(chunk)
-    return h.hexdigest()
-
-
 def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
     """Write the current data, indicators and scenarios as Parquet partitioned by model, plus manifest.json.
 
@@ -186,7 +178,7 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
             for path in sorted(p for p in work.rglob("*.parquet")):
                 rel = path.relative_to(work).as_posix()
                 rows = int(con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0])
-                files.append({"path": rel, "sha256": sha256_file(path), "bytes": path.stat().st_size, "rows": rows})
+                files.append({"path": rel, "sha256": sha256_of(path), "bytes": path.stat().st_size, "rows": rows})
         manifest = {
             "kind": "milepost-snapshot",
             "created_at": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),

@@ -27,8 +27,7 @@ ratios = queries.band_ratio(summary, by, top=top, bottom=bottom)
 
 st.info(headlines.costs(ratios, labels, top, bottom, sel.year), icon=":material/payments:")
 ui.caution()
-st.caption(f"Bands by {sel.variable} in {sel.year} ({sel.region}): "
-           + "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, ui.band_ranges(edges), strict=True))
+st.caption(ui.bands_note(sel.variable, sel.year, sel.region, labels, edges)
            + ". Losses are against each scenario's own reference scenario (same model); NPV at the base year.")
 
 if df.empty:

@@ -51,8 +51,7 @@ if ref is not None:
 
 ui.chart(charts.pathway(bands, labels, variable, unit, series, reference), f"pathway_{variable}_{region}",
          "path_chart")
-notes = [f"Bands by {sel.variable} in {sel.year} ({sel.region}): "
-         + "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, ui.band_ranges(edges), strict=True)) + "."]
+notes = [ui.bands_note(sel.variable, sel.year, sel.region, labels, edges) + "."]
 if ref is not None:
     notes.append(f"◆ reference value {ui.fmt(ref[0], 0)} {ref[1]} in {ch.base_year} ({found.source}).")
 else:

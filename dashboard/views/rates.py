@@ -39,8 +39,7 @@ present = sorted(df["band"].unique().tolist()) or [0]
 st.info(headlines.rates(summary, labels, present[-1], present[0], period, sel.variable, sel.region),
         icon=":material/speed:")
 ui.caution()
-st.caption(f"Bands by {sel.variable} in {sel.year} ({sel.region}): "
-           + "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, ui.band_ranges(edges), strict=True))
+st.caption(ui.bands_note(sel.variable, sel.year, sel.region, labels, edges)
            + ". CAGR = (v1/v0)^(1/(y1−y0)) − 1; linear = (v1 − v0)/(v0·(y1−y0)); negative = falling.")
 
 if df.empty:
