@@ -29,7 +29,9 @@ if df.empty:
 c1, c2, c3 = st.columns(3)
 c1.metric("Scenarios", len(df))
 c2.metric("Models", df["model"].nunique())
-c3.metric(f"Median {sel.year}", f"{ui.fmt(df['value'].median(), 0)} {unit}")
+# The unit goes in the metric's help and below it: a long unit would cut the number off in a narrow column.
+c3.metric(f"Median {sel.year}", ui.fmt(df["value"].median(), 0), help=f"{sel.variable} in {unit}")
+c3.caption(unit)
 
 st.subheader(f"{sel.variable} in {sel.year}, {sel.region}")
 ui.chart(charts.histogram(df, edges, labels, sel.variable, unit), f"screen_{sel.variable}_{sel.year}", "screen_hist")
