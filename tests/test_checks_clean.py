@@ -33,3 +33,14 @@ def test_core_contract_accepts_iso_country_codes(tmp_path, core, check):
     rows += [dict(r, region="DEU") for r in rows if r["variable"] == "population"]
     result = check(write_csv(tmp_path / "iso.csv", rows), core)
     assert result.findings == []
+
+
+def test_usable_rows_are_the_same_with_and_without_the_per_row_lookups(tmp_path, basic, check):
+    # A clean file takes the short path (no unit or region lookups per row); one stray row forces the long one.
+    rows = consistent_rows(basic)
+    fast = check(write_csv(tmp_path / "fast.csv", rows), basic)
+    slow = check(write_csv(tmp_path / "slow.csv", [*rows, dict(rows[0], variable="not.a.variable")]), basic)
+    query = ("SELECT CAST(model AS VARCHAR), CAST(scenario AS VARCHAR), CAST(region AS VARCHAR), "
+             "CAST(variable AS VARCHAR), CAST(unit AS VARCHAR), year, value, line FROM checked ORDER BY line")
+    assert fast.con.execute(query).fetchall() == slow.con.execute(query).fetchall()
+    assert slow.counts["error"] == 1 and fast.counts["error"] == 0
