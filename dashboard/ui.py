@@ -222,3 +222,14 @@ def bands_note(variable: str, year: int, region: str, labels: list[str], edges: 
     """'Bands by X in Y (R): low < a; middle a to < b; high ≥ b' for a page's caption."""
     ranges = "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, band_ranges(edges), strict=True))
     return f"Bands by {variable} in {year} ({region}): {ranges}"
+
+
+def results_page(title: str) -> tuple[queries.Choices, queries.Selection]:
+    """The opening every results page shares: the database check, the title, and the band sidebar."""
+    require_database()
+    ch = choices()
+    st.title(title)
+    if not ch.variables:
+        st.info("The database holds no accepted scenarios yet.")
+        stop()
+    return ch, band_sidebar(ch)

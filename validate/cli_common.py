@@ -5,6 +5,7 @@ from __future__ import annotations
 import functools
 import sys
 from collections.abc import Callable
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated, Any, TypeVar
 
@@ -14,6 +15,13 @@ from milepost.schema.contract import Contract, ContractError, load
 from milepost.validate.errors import MilepostError
 
 EXIT_OK, EXIT_FINDINGS, EXIT_USAGE = 0, 1, 2
+
+
+class TextJson(StrEnum):
+    """Output format of the commands that print either a table for people or JSON for programs."""
+
+    text = "text"
+    json = "json"
 
 ContractOption = Annotated[
     Path | None,

@@ -3,23 +3,17 @@
 from __future__ import annotations
 
 import json
-from enum import StrEnum
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
-from milepost.validate.cli_common import EXIT_FINDINGS, EXIT_OK, fail, handle_errors, load_contract
+from milepost.validate.cli_common import EXIT_FINDINGS, EXIT_OK, TextJson, fail, handle_errors, load_contract
 
 contract_app = typer.Typer(help="Inspect a contract: lint it, show it resolved, or write a submission template.",
                            no_args_is_help=True)
 DirArg = Annotated[Path | None, typer.Argument(help="Contract folder (default: the core contract).",
                                                file_okay=False, show_default=False)]
-
-
-class ShowFormat(StrEnum):
-    text = "text"
-    json = "json"
 
 
 @contract_app.command("lint")
@@ -44,10 +38,10 @@ def lint_cmd(directory: DirArg = None) -> None:
 @contract_app.command("show")
 @handle_errors
 def show_cmd(directory: DirArg = None,
-             fmt: Annotated[ShowFormat, typer.Option("--format", "-f")] = ShowFormat.text) -> None:
+             fmt: Annotated[TextJson, typer.Option("--format", "-f")] = TextJson.text) -> None:
     """Print the resolved contract (after `extends`), with its hash."""
     c = load_contract(directory, strict=False)
-    if fmt is ShowFormat.json:
+    if fmt is TextJson.json:
         typer.echo(json.dumps(c.to_dict(), indent=2, ensure_ascii=False))
         return
     typer.echo(f"contract {c.name}  hash {c.hash}")

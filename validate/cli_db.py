@@ -10,18 +10,13 @@ from typing import Annotated, Any
 
 import typer
 
-from milepost.validate.cli_common import EXIT_OK, ContractOption, fail, handle_errors, load_contract
+from milepost.validate.cli_common import EXIT_OK, ContractOption, TextJson, fail, handle_errors, load_contract
 
 DbOption = Annotated[
     Path | None,
     typer.Option("--db", help="Database file (default: $MILEPOST_DB, else ./milepost.duckdb).", dir_okay=False,
                  show_default=False),
 ]
-
-
-class TextJson(StrEnum):
-    text = "text"
-    json = "json"
 
 
 class What(StrEnum):

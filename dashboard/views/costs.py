@@ -6,13 +6,7 @@ import streamlit as st
 
 from milepost.dashboard import charts, headlines, queries, ui
 
-ui.require_database()
-ch = ui.choices()
-st.title("Costs")
-if not ch.variables:
-    st.info("The database holds no accepted scenarios yet.")
-    ui.stop()
-sel = ui.band_sidebar(ch)
+ch, sel = ui.results_page("Costs")
 
 edges = ui.query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)

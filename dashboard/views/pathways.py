@@ -7,13 +7,7 @@ import streamlit as st
 
 from milepost.dashboard import charts, contracts, queries, ui
 
-ui.require_database()
-ch = ui.choices()
-st.title("Pathways")
-if not ch.variables:
-    st.info("The database holds no accepted scenarios yet.")
-    ui.stop()
-sel = ui.band_sidebar(ch)
+ch, sel = ui.results_page("Pathways")
 ui.caution()
 
 c1, c2 = st.columns(2)

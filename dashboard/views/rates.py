@@ -6,13 +6,7 @@ import streamlit as st
 
 from milepost.dashboard import charts, headlines, queries, ui
 
-ui.require_database()
-ch = ui.choices()
-st.title("Rates")
-if not ch.variables:
-    st.info("The database holds no accepted scenarios yet.")
-    ui.stop()
-sel = ui.band_sidebar(ch)
+ch, sel = ui.results_page("Rates")
 
 periods = ui.query(queries.rate_periods, sel.variable, sel.region)
 after = [p for p in periods if p[0] >= sel.year]

@@ -6,13 +6,7 @@ import streamlit as st
 
 from milepost.dashboard import charts, queries, ui
 
-ui.require_database()
-ch = ui.choices()
-st.title("Screen")
-if not ch.variables:
-    st.info("The database holds no accepted scenarios yet.")
-    ui.stop()
-sel = ui.band_sidebar(ch)
+ch, sel = ui.results_page("Screen")
 ui.caution()
 
 edges = ui.query(queries.band_edges, sel)
