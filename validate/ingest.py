@@ -158,13 +158,12 @@ def ingest(
     con = connect_memory()
     try:
         t = time.perf_counter()
-        result = run_check(files, contract, con=con, progress=progress)
+        result = run_check(files, contract, con=con, progress=progress, digests=digests)
         timings["check"] = time.perf_counter() - t
-        digest_of = dict(zip(resolved, digests, strict=True))
         file_rows = [
             # An XLSX file may hold both the data and the scenarios sheet: name the sheet so the two read apart.
             {"path": str(f.path), "name": Path(f.path).name + (f" [{f.sheet}]" if f.sheet else ""),
-             "sheet": f.sheet, "sha256": digest_of.get(Path(f.path).resolve(), f.sha256), "rows": int(f.rows),
+             "sheet": f.sheet, "sha256": f.sha256, "rows": int(f.rows),
              "kind": f.kind}
             for f in result.inputs
         ]

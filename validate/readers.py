@@ -324,14 +324,15 @@ def _scenario_frame(frame: Any) -> Any:
 
 # --- entry point --------------------------------------------------------------------------------------------------
 
-def read_file(con: duckdb.DuckDBPyConnection, path: Path, table: str) -> list[InputFile]:
-    """Read one file into `table` (data) or a scenarios frame; unreadable files come back with kind='unreadable'."""
+def read_file(con: duckdb.DuckDBPyConnection, path: Path, table: str, sha256: str | None = None) -> list[InputFile]:
+    """Read one file into `table` (data) or a scenarios frame; unreadable files come back with kind='unreadable'.
+    `sha256`: the file's digest when the caller has it already (ingest hashes before it checks)."""
     inp = InputFile(path=str(path), sha256="", kind="unreadable")
     out = [inp]
     try:
         if not path.is_file():
             raise ReadError("no such file")
-        inp.sha256 = sha256_of(path)
+        inp.sha256 = sha256 or sha256_of(path)
         suffix = path.suffix.lower()
         if suffix in (".xlsx", ".xlsm"):
             out += _read_xlsx(con, inp, path, table)

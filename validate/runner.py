@@ -231,8 +231,10 @@ def _steps(show: bool) -> Iterator[Any]:
 
 
 def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.DuckDBPyConnection | None = None,
-              progress: bool = False, findings_per_rule: int = FINDINGS_PER_RULE) -> CheckResult:
-    """Check submission files against a contract. Bad data becomes findings; this raises only for broken programs."""
+              progress: bool = False, findings_per_rule: int = FINDINGS_PER_RULE,
+              digests: Sequence[str] | None = None) -> CheckResult:
+    """Check submission files against a contract. Bad data becomes findings; this raises only for broken programs.
+    `digests`: the files' sha256, in the order of `paths`, when the caller has computed them already."""
     con = con if con is not None else duckdb.connect(config={"autoinstall_known_extensions": False})
     paths = [Path(p) for p in paths]
     big = progress and sum(p.stat().st_size for p in paths if p.is_file()) > PROGRESS_BYTES
@@ -251,7 +253,7 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
         lap("contract tables")
         inputs: list[InputFile] = []
         for n, path in enumerate(paths):
-            inputs += read_file(con, path, f"obs_{os.getpid()}_{n}")
+            inputs += read_file(con, path, f"obs_{os.getpid()}_{n}", digests[n] if digests else None)
         lap("read")
         step("checking rows")
         _obs_view(con, inputs)
