@@ -92,19 +92,21 @@ def export(db: str | Path, what: str, fmt: str, output: str | Path, filters: Fil
         raise UsageError(f"the folder of {output} does not exist")
     sql, params = export_query(what, filters)
     with reading(db) as con:
+        if fmt != "xlsx":
+            # COPY reports the rows it wrote, so the query runs once.
+            options = "FORMAT csv, HEADER" if fmt == "csv" else "FORMAT parquet, COMPRESSION zstd"
+            copied = con.execute(f"COPY ({sql}) TO '{_sql_path(output)}' ({options})", params).fetchall()
+            return int(copied[0][0])
         n = int(con.execute(f"SELECT count(*) FROM ({sql})", params).fetchall()[0][0])
-        if fmt == "xlsx":
-            if n > XLSX_MAX_ROWS:
-                raise UsageError(f"{n:,} rows do not fit in an Excel sheet (at most {XLSX_MAX_ROWS:,}); "
-                                 "use --format csv or parquet, or filter with --model/--scenario/--region/--variable")
-            _write_xlsx(con, sql, params, output, what, filters, db)
-        else:
-            rel = con.sql(sql, params=params)
-            if fmt == "csv":
-                rel.write_csv(str(output), header=True)
-            else:
-                rel.write_parquet(str(output), compression="zstd")
+        if n > XLSX_MAX_ROWS:
+            raise UsageError(f"{n:,} rows do not fit in an Excel sheet (at most {XLSX_MAX_ROWS:,}); "
+                             "use --format csv or parquet, or filter with --model/--scenario/--region/--variable")
+        _write_xlsx(con, sql, params, output, what, filters, db)
     return n
+
+
+def _sql_path(path: Path) -> str:
+    return str(path).replace("'", "''")
 
 
 def _write_xlsx(con: duckdb.DuckDBPyConnection, sql: str, params: list[Any], output: Path, what: str,
