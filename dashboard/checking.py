@@ -8,7 +8,7 @@ from pathlib import Path
 import pandas as pd
 
 from milepost.schema.contract import Contract
-from milepost.validate.database import connect_memory
+from milepost.validate.store.database import connect_memory
 
 
 class CheckedUpload:

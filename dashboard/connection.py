@@ -10,7 +10,7 @@ from pathlib import Path
 import duckdb
 import streamlit as st
 
-from milepost.validate.database import connect_memory
+from milepost.validate.store.database import connect_memory
 
 DEFAULT_DB = "milepost.duckdb"
 ENV_DB = "MILEPOST_DB"

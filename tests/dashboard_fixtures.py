@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 
 from milepost.example_db.generate import CONTRACT_DIR, DemoFiles, write_demo
-from milepost.validate.ingest import ingest
+from milepost.validate.store.ingest import ingest
 
 ROOT = Path(__file__).resolve().parents[1]
 APP = ROOT / "dashboard" / "app.py"

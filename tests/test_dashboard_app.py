@@ -20,7 +20,7 @@ from streamlit.testing.v1 import AppTest
 from milepost.dashboard.headlines import sig
 from milepost.dashboard.ui import fmt
 from milepost.example_db.generate import CONTRACT_DIR
-from milepost.validate.ingest import ingest
+from milepost.validate.store.ingest import ingest
 
 RESULT_PAGES = ("views/screen.py", "views/rates.py", "views/costs.py", "views/pathways.py")
 
@@ -284,7 +284,8 @@ def test_dashboard_reads_during_an_ingest_and_then_sees_the_new_version(demo, tm
     flag = tmp_path / "paused"
     env = {**os.environ, "MILEPOST_PAUSE_AT": "in-transaction", "MILEPOST_PAUSE_FILE": str(flag),
            "MILEPOST_PAUSE_SECONDS": "3"}
-    code = "import sys; from milepost.validate.ingest import ingest; ingest(sys.argv[3:], sys.argv[1], sys.argv[2])"
+    code = ("import sys; from milepost.validate.store.ingest import ingest; "
+            "ingest(sys.argv[3:], sys.argv[1], sys.argv[2])")
     proc = subprocess.Popen([sys.executable, "-c", code, str(db), str(CONTRACT_DIR),
                              *map(str, files.submissions["Ormund"])], env=env)
     try:

@@ -13,7 +13,7 @@ from dashboard_fixtures import demo, demo_db  # noqa: F401
 from typer.testing import CliRunner
 
 from milepost.validate.cli import app
-from milepost.validate.cli_dashboard import streamlit_command
+from milepost.validate.cli.dashboard import streamlit_command
 
 
 def test_help_lists_the_options():

@@ -12,7 +12,7 @@ from pathlib import Path
 import duckdb
 import pytest
 
-from milepost.validate import database as dbm
+from milepost.validate.store import database as dbm
 from milepost.validate.errors import LoadError, LockTimeout
 
 TABLES = {"meta", "submissions", "findings", "data", "scenarios", "indicators"}
@@ -168,7 +168,7 @@ def test_default_db_path_order(monkeypatch: pytest.MonkeyPatch, tmp_path: Path) 
 HOLD_LOCK = textwrap.dedent("""
     import sys, time
     from pathlib import Path
-    from milepost.validate.database import acquire_lock
+    from milepost.validate.store.database import acquire_lock
     lock = acquire_lock(Path(sys.argv[1]), timeout=5)
     print("locked", flush=True)
     time.sleep(float(sys.argv[2]))

@@ -16,10 +16,10 @@ import pytest
 
 from milepost.example_db import generate as demo
 from milepost.schema.contract import load
-from milepost.validate import database as dbm
+from milepost.validate.store import database as dbm
 from milepost.validate.errors import UsageError
-from milepost.validate.exports import CAUTIONS, XLSX_MAX_ROWS, Filters, diff, export, snapshot, submissions
-from milepost.validate.ingest import ingest
+from milepost.validate.store.exports import CAUTIONS, XLSX_MAX_ROWS, Filters, diff, export, snapshot, submissions
+from milepost.validate.store.ingest import ingest
 
 KEY = ["model", "scenario", "region", "variable", "year"]
 LONG = ["model", "scenario", "region", "variable", "unit", "year", "value"]

@@ -13,8 +13,8 @@ from hypothesis import strategies as st
 from scipy.integrate import trapezoid
 
 from milepost.schema.contract import Contract
-from milepost.validate.indicators import COLUMNS, IndicatorDataError, compute_indicators
-from milepost.validate.indicators.interpolation import drop_helpers, prepare
+from milepost.validate.store.indicators import COLUMNS, IndicatorDataError, compute_indicators
+from milepost.validate.store.indicators.interpolation import drop_helpers, prepare
 
 Points = dict[int, float]
 

@@ -8,8 +8,8 @@ import tomllib
 import duckdb
 import pytest
 
-from milepost.validate.indicators import FAMILIES, KINDS, IndicatorSpecError, compute_indicators, plan
-from milepost.validate.indicators.definitions import DEFAULT_PATH, periods_for, render_unit
+from milepost.validate.store.indicators import FAMILIES, KINDS, IndicatorSpecError, compute_indicators, plan
+from milepost.validate.store.indicators.definitions import DEFAULT_PATH, periods_for, render_unit
 
 
 def test_packaged_definitions_name_every_kind_once():

@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 from scipy.integrate import trapezoid
 
-from milepost.validate.indicators import compute_indicators, plan
-from milepost.validate.indicators.benchmark import make_data
+from milepost.validate.bench.indicators import make_data
+from milepost.validate.store.indicators import compute_indicators, plan
 
 
 @pytest.mark.slow

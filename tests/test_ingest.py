@@ -13,9 +13,9 @@ import pytest
 from milepost.example_db import generate as demo
 from milepost.schema.contract import load
 from milepost.validate import __version__
-from milepost.validate.database import open_reader
 from milepost.validate.errors import UsageError
-from milepost.validate.ingest import ingest, submission_digest
+from milepost.validate.store.database import open_reader
+from milepost.validate.store.ingest import ingest, submission_digest
 
 MODEL = "Halvik"
 KEY = ["model", "scenario", "region", "variable", "year"]

@@ -7,7 +7,7 @@ from pathlib import Path
 import pytest
 
 from milepost.example_db import generate as gen
-from milepost.validate.bench_ingest import LIMIT, run
+from milepost.validate.bench.ingest import LIMIT, run
 
 
 @pytest.mark.slow

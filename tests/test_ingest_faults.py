@@ -15,8 +15,8 @@ import pytest
 
 from milepost.example_db import generate as demo
 from milepost.schema.contract import load
-from milepost.validate.database import ENV_PAUSE_AT, ENV_PAUSE_FILE, PAUSE_STAGES, open_reader
-from milepost.validate.ingest import ingest
+from milepost.validate.store.database import ENV_PAUSE_AT, ENV_PAUSE_FILE, PAUSE_STAGES, open_reader
+from milepost.validate.store.ingest import ingest
 
 MODEL = "Halvik"
 
@@ -144,7 +144,7 @@ def test_a_writer_that_cannot_get_the_lock_fails_cleanly(tmp_path: Path, files, 
 
 READER = textwrap.dedent("""
     import sys, time
-    from milepost.validate.database import open_reader
+    from milepost.validate.store.database import open_reader
     r = open_reader(sys.argv[1])
     seen, bad = [], 0
     deadline = time.monotonic() + 60

@@ -8,7 +8,7 @@ from typing import Annotated
 
 import typer
 
-from milepost.validate.cli_common import EXIT_FINDINGS, EXIT_OK, TextJson, fail, handle_errors, load_contract
+from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, TextJson, fail, handle_errors, load_contract
 
 contract_app = typer.Typer(help="Inspect a contract: lint it, show it resolved, or write a submission template.",
                            no_args_is_help=True)

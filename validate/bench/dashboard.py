@@ -19,7 +19,7 @@ REPEATS = 7
 def build(workdir: Path, n_scenarios: int = N_SCENARIOS) -> Path:
     """The benchmark database: the generator's many-scenario ensemble, ingested per model (reused if present)."""
     from milepost.example_db.generate import CONTRACT_DIR, write_many_scenarios
-    from milepost.validate.ingest import ingest
+    from milepost.validate.store.ingest import ingest
 
     db = Path(workdir) / f"dashboard-bench-{n_scenarios}.duckdb"
     if db.exists():

@@ -7,7 +7,7 @@ value  the piecewise-linear interpolation of the reported points at the year (ye
 
 from __future__ import annotations
 
-from milepost.validate.indicators.base import Kind, Tables, frame, head
+from milepost.validate.store.indicators.base import Kind, Tables, frame, head
 
 
 def value_sql(t: Tables) -> str:

@@ -18,7 +18,7 @@ import time
 from pathlib import Path
 from typing import Any
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 DEMO_CONTRACT = ROOT / "example_db" / "contract"
 ROWS = 2_000_000
 FLOOR = (
@@ -89,9 +89,9 @@ def bench_check(workdir: Path, repeat: int = 3) -> list[dict[str, Any]]:
 
 
 SECTIONS = {
-    "check": "milepost.validate.bench:bench_check",
-    "ingest": "milepost.validate.bench_ingest:run",
-    "dashboard": "milepost.dashboard.bench:run",
+    "check": "milepost.validate.bench.check:bench_check",
+    "ingest": "milepost.validate.bench.ingest:run",
+    "dashboard": "milepost.validate.bench.dashboard:run",
 }
 
 

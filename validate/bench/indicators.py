@@ -1,4 +1,4 @@
-"""Time `compute_indicators` on invented intercomparison-sized data: `python -m milepost.validate.indicators.benchmark`.
+"""Time `compute_indicators` on invented intercomparison-sized data: `python -m milepost.validate.bench.indicators`.
 
 The data are made up in SQL (models M0.., scenarios S1.. each referring to scenario "ref", regions R0..), one
 row per contract variable, region and year; values are smooth invented paths, some crossing zero.
@@ -12,7 +12,7 @@ import time
 import duckdb
 
 from milepost.schema.contract import Contract, load
-from milepost.validate.indicators import compute_indicators
+from milepost.validate.store.indicators import compute_indicators
 
 
 def make_data(

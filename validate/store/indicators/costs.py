@@ -18,7 +18,7 @@ Costs are model results: they exclude avoided climate damages and co-benefits.
 
 from __future__ import annotations
 
-from milepost.validate.indicators.base import Kind, Tables, cagr, frame, head
+from milepost.validate.store.indicators.base import Kind, Tables, cagr, frame, head
 
 
 def loss_sql(t: Tables) -> str:

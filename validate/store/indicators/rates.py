@@ -9,7 +9,7 @@ Default periods (indicators.toml `pairs`): base -> first milestone, consecutive 
 
 from __future__ import annotations
 
-from milepost.validate.indicators.base import Kind, Tables, cagr, frame, head
+from milepost.validate.store.indicators.base import Kind, Tables, cagr, frame, head
 
 V0, V1 = "s.ends[p.i_from]", "s.ends[p.i_to]"
 

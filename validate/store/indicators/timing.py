@@ -11,7 +11,7 @@ peak_value     that highest value, in the unit of indicators.toml (normally the 
 
 from __future__ import annotations
 
-from milepost.validate.indicators.base import Kind, Tables, head, literal
+from milepost.validate.store.indicators.base import Kind, Tables, head, literal
 
 
 def _over_points(t: Tables, kind: str, value: str) -> str:

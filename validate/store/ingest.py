@@ -2,7 +2,7 @@
 
 Checking and loading share one DuckDB connection: `run_check` leaves the usable rows in the TEMP table
 `checked` and every finding in `findings`; the database copy is attached to that same connection and filled
-straight from them (see `milepost.validate.database.Writer` for how the copy is swapped in atomically).
+straight from them (see `milepost.validate.store.database.Writer` for how the copy is swapped in atomically).
 """
 
 from __future__ import annotations
@@ -19,8 +19,8 @@ from typing import Any
 
 import duckdb
 
-from milepost.validate.database import NEW, Writer, connect_memory, default_db_path, open_reader, quote
 from milepost.validate.errors import LoadError, UsageError
+from milepost.validate.store.database import NEW, Writer, connect_memory, default_db_path, open_reader, quote
 
 FINDING_COLUMNS = ("rule", "severity", "path", "line", "sheet", "model", "scenario", "region", "variable", "unit",
                    "year", "value", "expected", "message", "hint")
@@ -231,7 +231,7 @@ def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any) -> None:
     matter: the references of the new scenarios (so a policy scenario whose reference came earlier gets its
     losses) and the stored scenarios that name a new scenario as reference (their losses change with it).
     """
-    from milepost.validate.indicators import IndicatorDataError, IndicatorSpecError, compute_indicators
+    from milepost.validate.store.indicators import IndicatorDataError, IndicatorSpecError, compute_indicators
 
     con.execute(f"""
         CREATE OR REPLACE TEMP TABLE ingest_old AS

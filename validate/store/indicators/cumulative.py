@@ -10,7 +10,7 @@ cumulative  exact integral of the piecewise-linear series over [y0, y1], compute
 
 from __future__ import annotations
 
-from milepost.validate.indicators.base import Kind, Tables, frame, head, lerp
+from milepost.validate.store.indicators.base import Kind, Tables, frame, head, lerp
 
 
 def cumulative_sql(t: Tables) -> str:

@@ -23,10 +23,10 @@ from pathlib import Path
 import duckdb
 
 from milepost.schema.contract import Contract
-from milepost.validate.indicators import costs, cumulative, levels, rates, timing
-from milepost.validate.indicators.base import Kind, identifier
-from milepost.validate.indicators.definitions import IndicatorSpecError, Plan, load_definitions, resolve
-from milepost.validate.indicators.interpolation import IndicatorDataError, drop_helpers, prepare
+from milepost.validate.store.indicators import costs, cumulative, levels, rates, timing
+from milepost.validate.store.indicators.base import Kind, identifier
+from milepost.validate.store.indicators.definitions import IndicatorSpecError, Plan, load_definitions, resolve
+from milepost.validate.store.indicators.interpolation import IndicatorDataError, drop_helpers, prepare
 
 __all__ = [
     "COLUMNS",

@@ -17,9 +17,9 @@ from typing import Any
 
 import duckdb
 
-from milepost.validate.database import reading, schema_version
 from milepost.validate.errors import UsageError
 from milepost.validate.readers import sha256_of
+from milepost.validate.store.database import reading, schema_version
 
 XLSX_MAX_ROWS = 1_048_575  # an Excel sheet has 1,048,576 rows; one is the header
 CAUTIONS = (

@@ -10,7 +10,7 @@ from typing import Annotated, Any
 
 import typer
 
-from milepost.validate.cli_common import EXIT_OK, ContractOption, TextJson, fail, handle_errors, load_contract
+from milepost.validate.cli.common import EXIT_OK, ContractOption, TextJson, fail, handle_errors, load_contract
 
 DbOption = Annotated[
     Path | None,
@@ -58,9 +58,9 @@ def ingest_cmd(
     limit: Annotated[int, typer.Option(help="Findings listed for a rejected submission.", min=0)] = 20,
 ) -> None:
     """Check one submission and store it. Exit 0: stored (or already stored); 1: rejected; 2: usage error."""
-    from milepost.validate.database import default_db_path, warn
-    from milepost.validate.ingest import ingest
     from milepost.validate.reports import finding_line
+    from milepost.validate.store.database import default_db_path, warn
+    from milepost.validate.store.ingest import ingest
 
     c = load_contract(contract)
     result = ingest(files, default_db_path(db), c, by=by, note=note, accept_warnings=accept_warnings, progress=True,
@@ -105,8 +105,8 @@ def submissions_cmd(
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Output format.")] = TextJson.text,
 ) -> None:
     """List every submission: status, version per model, rows, findings, who and when."""
-    from milepost.validate.database import default_db_path
-    from milepost.validate.exports import submissions
+    from milepost.validate.store.database import default_db_path
+    from milepost.validate.store.exports import submissions
 
     rows = submissions(default_db_path(db))
     if fmt is TextJson.json:
@@ -143,8 +143,8 @@ def export_cmd(
                                                          "not (repeatable).")] = None,
 ) -> None:
     """Export data, indicators or findings as CSV, Parquet or XLSX."""
-    from milepost.validate.database import default_db_path
-    from milepost.validate.exports import Filters, export
+    from milepost.validate.store.database import default_db_path
+    from milepost.validate.store.exports import Filters, export
 
     filters = Filters(model or (), scenario or (), region or (), variable or (), submission or ())
     n = export(default_db_path(db), what.value, fmt.value, output, filters)
@@ -158,8 +158,8 @@ def snapshot_cmd(
     db: DbOption = None,
 ) -> None:
     """Write the current data, indicators and scenarios as Parquet partitioned by model, with a manifest."""
-    from milepost.validate.database import default_db_path
-    from milepost.validate.exports import snapshot
+    from milepost.validate.store.database import default_db_path
+    from milepost.validate.store.exports import snapshot
 
     manifest = snapshot(default_db_path(db), directory)
     t = manifest["tables"]
@@ -184,8 +184,8 @@ def diff_cmd(
     limit: Annotated[int, typer.Option(help="Rows listed per kind of change (0 = all).", min=0)] = 20,
 ) -> None:
     """Rows added, removed and changed beyond tolerance between two submissions. Exit 0 either way."""
-    from milepost.validate.database import default_db_path
-    from milepost.validate.exports import diff
+    from milepost.validate.store.database import default_db_path
+    from milepost.validate.store.exports import diff
 
     if a == b:
         fail("give two different submission ids")

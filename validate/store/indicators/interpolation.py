@@ -19,7 +19,7 @@ from collections.abc import Iterable
 
 import duckdb
 
-from milepost.validate.indicators.base import Tables, identifier, lerp
+from milepost.validate.store.indicators.base import Tables, identifier, lerp
 
 PREFIX = "_milepost_indicators_"
 HELPERS = ("grouped", "endpoints", "series", "points", "annual", "selection", "periods")

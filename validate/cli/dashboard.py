@@ -9,7 +9,7 @@ from typing import Annotated
 
 import typer
 
-from milepost.validate.cli_common import fail, handle_errors
+from milepost.validate.cli.common import fail, handle_errors
 
 MAX_UPLOAD_MB = 50
 
@@ -58,7 +58,7 @@ def register(app: typer.Typer) -> None:
                                                       "names).")] = None,
     ) -> None:
         """Serve the reviewer dashboard: screen scenarios by a milestone value, compare rates and costs per band."""
-        from milepost.validate.database import default_db_path
+        from milepost.validate.store.database import default_db_path
 
         path = default_db_path(db)
         if not path.is_file():

@@ -18,7 +18,7 @@ from typing import Any
 
 import milepost.schema
 from milepost.schema.contract import Contract
-from milepost.validate.indicators.base import SCALINGS, Kind
+from milepost.validate.store.indicators.base import SCALINGS, Kind
 
 DEFAULT_PATH = Path(milepost.schema.__file__).parent / "indicators.toml"
 PERIOD_SHAPES = ("points", "milestones", "pairs", "from_base", "reported")

@@ -9,7 +9,7 @@ from typing import Annotated
 
 import typer
 
-from milepost.validate.cli_common import EXIT_FINDINGS, EXIT_OK, ContractOption, fail, handle_errors, load_contract
+from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, ContractOption, fail, handle_errors, load_contract
 
 
 class Format(StrEnum):

@@ -1,4 +1,4 @@
-"""The `milepost` command line: a thin Typer app; each command family lives in its own `cli_*` module."""
+"""The `milepost` command line: a thin Typer app; each command family lives in its own module of this package."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ import typer
 from milepost.validate import __version__
 
 # Each module exposes register(app). Keep the order: it is the order of `milepost --help`.
-COMMAND_MODULES = ("cli_check", "cli_contract", "cli_db", "cli_dashboard")
+COMMAND_MODULES = ("check", "contract", "db", "dashboard")
 
 app = typer.Typer(
     add_completion=False,
@@ -34,7 +34,7 @@ def _root(
 
 
 for _name in COMMAND_MODULES:
-    importlib.import_module(f"milepost.validate.{_name}").register(app)
+    importlib.import_module(f"milepost.validate.cli.{_name}").register(app)
 
 
 def main() -> None:
