@@ -26,14 +26,21 @@ def band_scale(labels: list[str]) -> alt.Scale:
 
 def histogram(df: pd.DataFrame, edges: list[float], labels: list[str], title: str, unit: str) -> alt.LayerChart:
     """Counts of the ensemble at the milestone, coloured by band, with the band edges as rules."""
-    bars = alt.Chart(df).mark_bar().encode(
-        x=alt.X("value:Q", bin=alt.Bin(maxbins=30), title=f"{title} [{unit}]"),
-        y=alt.Y("count():Q", title="scenarios", stack=True),
-        color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band"),
-        tooltip=[alt.Tooltip("band_label:N", title="band"), alt.Tooltip("count():Q", title="scenarios")],
+    bars = (
+        alt.Chart(df)
+        .mark_bar()
+        .encode(
+            x=alt.X("value:Q", bin=alt.Bin(maxbins=30), title=f"{title} [{unit}]"),
+            y=alt.Y("count():Q", title="scenarios", stack=True),
+            color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band"),
+            tooltip=[alt.Tooltip("band_label:N", title="band"), alt.Tooltip("count():Q", title="scenarios")],
+        )
     )
-    rules = alt.Chart(pd.DataFrame({"edge": edges})).mark_rule(color="black", strokeDash=[4, 3]).encode(
-        x="edge:Q", tooltip=[alt.Tooltip("edge:Q", format=",.4~g", title="band edge")])
+    rules = (
+        alt.Chart(pd.DataFrame({"edge": edges}))
+        .mark_rule(color="black", strokeDash=[4, 3])
+        .encode(x="edge:Q", tooltip=[alt.Tooltip("edge:Q", format=",.4~g", title="band edge")])
+    )
     return alt.layer(bars, rules).properties(height=280)
 
 
@@ -44,18 +51,29 @@ def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> alt.FacetChart
         color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, legend=None),
     )
     box = base.mark_boxplot(extent=1.5, opacity=0.45, size=40, outliers=False).encode(
-        y=alt.Y("value:Q", title=f"{title} [%/yr]"))
-    points = base.mark_circle(size=28, opacity=0.75).encode(
-        y="value:Q",
-        xOffset=alt.XOffset("jitter:Q", scale=alt.Scale(domain=[-1, 1])),
-        tooltip=[
-            alt.Tooltip("model:N"), alt.Tooltip("scenario:N"), alt.Tooltip("band_label:N", title="band"),
-            alt.Tooltip("value:Q", format=".2f", title="%/yr"),
-            alt.Tooltip("band_value:Q", format=",.4~g", title="milestone value"),
-        ],
-    ).transform_calculate(jitter="(random() - 0.5) * 1.2")
-    return alt.layer(box, points, data=df).properties(width=300, height=320).facet(
-        column=alt.Column("rate:N", title=None)).resolve_scale(y="independent")
+        y=alt.Y("value:Q", title=f"{title} [%/yr]")
+    )
+    points = (
+        base.mark_circle(size=28, opacity=0.75)
+        .encode(
+            y="value:Q",
+            xOffset=alt.XOffset("jitter:Q", scale=alt.Scale(domain=[-1, 1])),
+            tooltip=[
+                alt.Tooltip("model:N"),
+                alt.Tooltip("scenario:N"),
+                alt.Tooltip("band_label:N", title="band"),
+                alt.Tooltip("value:Q", format=".2f", title="%/yr"),
+                alt.Tooltip("band_value:Q", format=",.4~g", title="milestone value"),
+            ],
+        )
+        .transform_calculate(jitter="(random() - 0.5) * 1.2")
+    )
+    return (
+        alt.layer(box, points, data=df)
+        .properties(width=300, height=320)
+        .facet(column=alt.Column("rate:N", title=None))
+        .resolve_scale(y="independent")
+    )
 
 
 def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> alt.FacetChart:
@@ -65,24 +83,45 @@ def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> alt.FacetChart:
     base = alt.Chart().encode(
         x=alt.X("year:O", title=None),
         xOffset=alt.XOffset("band_label:N", sort=labels),
-        color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band",
-                        legend=alt.Legend(orient="top")),
+        color=alt.Color(
+            "band_label:N", scale=band_scale(labels), sort=labels, title="band", legend=alt.Legend(orient="top")
+        ),
         tooltip=[
-            alt.Tooltip("metric:N"), alt.Tooltip("year:O"), alt.Tooltip("band_label:N", title="band"),
-            alt.Tooltip("n:Q"), alt.Tooltip("median:Q", format=",.4~g"),
-            alt.Tooltip("q25:Q", format=",.4~g"), alt.Tooltip("q75:Q", format=",.4~g"),
+            alt.Tooltip("metric:N"),
+            alt.Tooltip("year:O"),
+            alt.Tooltip("band_label:N", title="band"),
+            alt.Tooltip("n:Q"),
+            alt.Tooltip("median:Q", format=",.4~g"),
+            alt.Tooltip("q25:Q", format=",.4~g"),
+            alt.Tooltip("q75:Q", format=",.4~g"),
         ],
     )
     iqr = base.mark_rule(strokeWidth=6, opacity=0.45).encode(y=alt.Y("q25:Q", title=None), y2="q75:Q")
     med = base.mark_point(filled=True, size=60).encode(y="median:Q")
-    return alt.layer(iqr, med, data=summary).properties(width=210, height=200).facet(
-        facet=alt.Facet("panel:N", title=None, header=alt.Header(labelFontWeight="bold"),
-                        sort=list(dict.fromkeys(summary["panel"]))), columns=3,
-    ).resolve_scale(y="independent")
+    return (
+        alt.layer(iqr, med, data=summary)
+        .properties(width=210, height=200)
+        .facet(
+            facet=alt.Facet(
+                "panel:N",
+                title=None,
+                header=alt.Header(labelFontWeight="bold"),
+                sort=list(dict.fromkeys(summary["panel"])),
+            ),
+            columns=3,
+        )
+        .resolve_scale(y="independent")
+    )
 
 
-def pathway(bands: pd.DataFrame, labels: list[str], title: str, unit: str,
-            scenarios: pd.DataFrame | None = None, reference: pd.DataFrame | None = None) -> alt.LayerChart:
+def pathway(
+    bands: pd.DataFrame,
+    labels: list[str],
+    title: str,
+    unit: str,
+    scenarios: pd.DataFrame | None = None,
+    reference: pd.DataFrame | None = None,
+) -> alt.LayerChart:
     """Median line and 25-75 % / 5-95 % ranges per band over time, optional single scenarios and the reference."""
     colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band")
     x = alt.X("year:Q", axis=alt.Axis(format="d"), title=None)
@@ -91,24 +130,53 @@ def pathway(bands: pd.DataFrame, labels: list[str], title: str, unit: str,
     inner = base.mark_area(opacity=0.28).encode(y="q25:Q", y2="q75:Q")
     line = base.mark_line(strokeWidth=2.5).encode(
         y="median:Q",
-        tooltip=[alt.Tooltip("band_label:N", title="band"), alt.Tooltip("year:Q"), alt.Tooltip("n:Q"),
-                 alt.Tooltip("median:Q", format=",.4~g"), alt.Tooltip("q25:Q", format=",.4~g"),
-                 alt.Tooltip("q75:Q", format=",.4~g"), alt.Tooltip("q05:Q", format=",.4~g"),
-                 alt.Tooltip("q95:Q", format=",.4~g")],
+        tooltip=[
+            alt.Tooltip("band_label:N", title="band"),
+            alt.Tooltip("year:Q"),
+            alt.Tooltip("n:Q"),
+            alt.Tooltip("median:Q", format=",.4~g"),
+            alt.Tooltip("q25:Q", format=",.4~g"),
+            alt.Tooltip("q75:Q", format=",.4~g"),
+            alt.Tooltip("q05:Q", format=",.4~g"),
+            alt.Tooltip("q95:Q", format=",.4~g"),
+        ],
     )
     layers: list[alt.Chart] = [outer, inner, line]
     if scenarios is not None and not scenarios.empty:
-        layers.append(alt.Chart(scenarios).mark_line(strokeWidth=1.2, strokeDash=[5, 3], color="#333333").encode(
-            x=x, y="value:Q", detail="label:N",
-            tooltip=[alt.Tooltip("model:N"), alt.Tooltip("scenario:N"), alt.Tooltip("year:Q"),
-                     alt.Tooltip("value:Q", format=",.4~g")]))
+        layers.append(
+            alt.Chart(scenarios)
+            .mark_line(strokeWidth=1.2, strokeDash=[5, 3], color="#333333")
+            .encode(
+                x=x,
+                y="value:Q",
+                detail="label:N",
+                tooltip=[
+                    alt.Tooltip("model:N"),
+                    alt.Tooltip("scenario:N"),
+                    alt.Tooltip("year:Q"),
+                    alt.Tooltip("value:Q", format=",.4~g"),
+                ],
+            )
+        )
     if reference is not None and not reference.empty:
-        layers.append(alt.Chart(reference).mark_point(shape="diamond", size=160, filled=True, color="black").encode(
-            x=x, y="value:Q",
-            tooltip=[alt.Tooltip("label:N", title="reference"), alt.Tooltip("year:Q"),
-                     alt.Tooltip("value:Q", format=",.4~g")]))
-        layers.append(alt.Chart(reference).mark_text(align="left", dx=8, dy=-8, fontSize=11).encode(
-            x=x, y="value:Q", text="label:N"))
+        layers.append(
+            alt.Chart(reference)
+            .mark_point(shape="diamond", size=160, filled=True, color="black")
+            .encode(
+                x=x,
+                y="value:Q",
+                tooltip=[
+                    alt.Tooltip("label:N", title="reference"),
+                    alt.Tooltip("year:Q"),
+                    alt.Tooltip("value:Q", format=",.4~g"),
+                ],
+            )
+        )
+        layers.append(
+            alt.Chart(reference)
+            .mark_text(align="left", dx=8, dy=-8, fontSize=11)
+            .encode(x=x, y="value:Q", text="label:N")
+        )
     return alt.layer(*layers).properties(height=380)
 
 

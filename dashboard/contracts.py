@@ -58,8 +58,9 @@ def find(name: str | None) -> Found:
     return Found(None, f"contract {name!r} is not bundled; set {ENV_CONTRACT} to its folder")
 
 
-def reference_value(contract: Contract | None, region: str, variable: str,
-                    year: int | None) -> tuple[float, str] | None:
+def reference_value(
+    contract: Contract | None, region: str, variable: str, year: int | None
+) -> tuple[float, str] | None:
     """The contract's reference value (value, unit) for one region, variable and year, if it has one."""
     if contract is None or year is None:
         return None

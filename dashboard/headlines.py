@@ -23,8 +23,9 @@ def _band(summary: pd.DataFrame, band: int) -> pd.Series | None:
 ONE_BAND = "Only one band has scenarios: set band edges inside the range of values to compare bands."
 
 
-def rates(summary: pd.DataFrame, labels: list[str], top: int, bottom: int, period: tuple[int, int], variable: str,
-          region: str) -> str:
+def rates(
+    summary: pd.DataFrame, labels: list[str], top: int, bottom: int, period: tuple[int, int], variable: str, region: str
+) -> str:
     """'Median CAGR 2030–2050 of emissions.ghg (World): high band −6.1 %/yr vs low band −2.0 %/yr (n = 40 vs 40) ...'
 
     `top` and `bottom` are the highest and lowest bands that hold scenarios.
@@ -38,8 +39,10 @@ def rates(summary: pd.DataFrame, labels: list[str], top: int, bottom: int, perio
     head = f"Median CAGR {period[0]}–{period[1]} of {variable} ({region}): "
     if t is None or b is None:
         return head + f"not available for both the {labels[top]} and the {labels[bottom]} band."
-    text = (f"{head}{labels[top]} band {fmt(t['median'])} %/yr vs {labels[bottom]} band {fmt(b['median'])} %/yr "
-            f"(n = {int(t['n'])} vs {int(b['n'])})")
+    text = (
+        f"{head}{labels[top]} band {fmt(t['median'])} %/yr vs {labels[bottom]} band {fmt(b['median'])} %/yr "
+        f"(n = {int(t['n'])} vs {int(b['n'])})"
+    )
     if lt is not None and lb is not None:
         text += f"; linear rate {fmt(lt['median'])} vs {fmt(lb['median'])} %/yr"
     missing = int(cagr["n_missing"].sum())
@@ -76,5 +79,4 @@ def _clause(r: pd.Series, what: str) -> str:
     unit = r["unit"]
     top = f"{sig(r['median_top'])} {unit}" if unit == "%" else sig(r["median_top"])
     ratio = f"×{fmt(r['ratio'], 2)}, " if pd.notna(r["ratio"]) else ""
-    return (f"{what} {top} vs {sig(r['median_bottom'])} {unit} "
-            f"({ratio}n = {int(r['n_top'])} vs {int(r['n_bottom'])})")
+    return f"{what} {top} vs {sig(r['median_bottom'])} {unit} ({ratio}n = {int(r['n_top'])} vs {int(r['n_bottom'])})"

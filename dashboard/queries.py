@@ -119,28 +119,32 @@ def choices(con: duckdb.DuckDBPyConnection) -> Choices:
     def column(sql: str) -> list[Any]:
         return [v for (v,) in con.execute(sql).fetchall()]
 
-    years = [int(y) for y in column(
-        f"SELECT DISTINCT year_from FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")]
+    years = [
+        int(y) for y in column(f"SELECT DISTINCT year_from FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")
+    ]
     variables = column(f"SELECT DISTINCT variable FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")
-    regions = column(f"SELECT DISTINCT region FROM indicators WHERE kind = 'value' AND {live} "
-                     "ORDER BY region <> 'World', region")
+    regions = column(
+        f"SELECT DISTINCT region FROM indicators WHERE kind = 'value' AND {live} ORDER BY region <> 'World', region"
+    )
     models = column("SELECT DISTINCT model FROM current_scenarios ORDER BY 1")
     attributes = column("""SELECT DISTINCT k FROM (SELECT unnest(json_keys(attributes)) AS k FROM current_scenarios
                            WHERE attributes IS NOT NULL) WHERE k <> 'reference' ORDER BY 1""")
     # the base year is where every `cumulative` indicator starts; without them, the first value year
     (base,) = con.execute(
         f"SELECT coalesce((SELECT min(year_from) FROM indicators WHERE kind = 'cumulative' AND {live}), "
-        f"(SELECT min(year_from) FROM indicators WHERE kind = 'value' AND {live}))").fetchall()[0]
+        f"(SELECT min(year_from) FROM indicators WHERE kind = 'value' AND {live}))"
+    ).fetchall()[0]
     data_variables = column(f"SELECT DISTINCT variable FROM data WHERE {live} ORDER BY 1")
-    return Choices(variables, years, int(base) if base is not None else None, regions, models, attributes,
-                   data_variables)
+    return Choices(
+        variables, years, int(base) if base is not None else None, regions, models, attributes, data_variables
+    )
 
 
 def attribute_values(con: duckdb.DuckDBPyConnection, attribute: str) -> list[str]:
     """The distinct values of one scenario attribute."""
     rows = con.execute(
-        "SELECT DISTINCT attributes ->> $a AS v FROM current_scenarios WHERE v IS NOT NULL ORDER BY 1",
-        {"a": attribute}).fetchall()
+        "SELECT DISTINCT attributes ->> $a AS v FROM current_scenarios WHERE v IS NOT NULL ORDER BY 1", {"a": attribute}
+    ).fetchall()
     return [v for (v,) in rows]
 
 
@@ -152,8 +156,10 @@ def band_edges(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[float]:
 
 def selected(con: duckdb.DuckDBPyConnection, sel: Selection) -> pd.DataFrame:
     """The selected scenarios with their band number and value at the milestone."""
-    sql = (f"WITH {_BANDED} SELECT model, scenario, band, band_value FROM banded "
-           "ORDER BY band, band_value, model, scenario")
+    sql = (
+        f"WITH {_BANDED} SELECT model, scenario, band, band_value FROM banded "
+        "ORDER BY band, band_value, model, scenario"
+    )
     return _df(con, sql, sel.params())
 
 
@@ -163,12 +169,18 @@ def variable_unit(con: duckdb.DuckDBPyConnection, variable: str) -> str:
     return (rows[0][0] or "") if rows else ""
 
 
-def screen_table(con: duckdb.DuckDBPyConnection, sel: Selection, base_year: int | None,
-                 next_year: int | None, attributes: list[str] | tuple[str, ...] = ()) -> pd.DataFrame:
+def screen_table(
+    con: duckdb.DuckDBPyConnection,
+    sel: Selection,
+    base_year: int | None,
+    next_year: int | None,
+    attributes: list[str] | tuple[str, ...] = (),
+) -> pd.DataFrame:
     """One row per selected scenario: band, value at the milestone and key indicators of the same variable."""
     params = {**sel.params(), "base": base_year, "next": next_year}
     attr_cols = "".join(
-        f", b.attributes ->> $attr_{i} AS \"{a.replace(chr(34), chr(34) * 2)}\"" for i, a in enumerate(attributes))
+        f', b.attributes ->> $attr_{i} AS "{a.replace(chr(34), chr(34) * 2)}"' for i, a in enumerate(attributes)
+    )
     params.update({f"attr_{i}": a for i, a in enumerate(attributes)})
     sql = f"""WITH {_BANDED}
     SELECT b.model, b.scenario{attr_cols}, b.band, b.band_value AS value,
@@ -192,7 +204,8 @@ def rate_periods(con: duckdb.DuckDBPyConnection, variable: str, region: str) -> 
     rows = con.execute(
         """SELECT DISTINCT year_from, year_to FROM current_indicators
            WHERE kind IN ('rate_cagr', 'rate_linear') AND variable = $v AND region = $r ORDER BY 1, 2""",
-        {"v": variable, "r": region}).fetchall()
+        {"v": variable, "r": region},
+    ).fetchall()
     return [(int(a), int(b)) for a, b in rows]
 
 
@@ -237,8 +250,9 @@ def pathway_bands(con: duckdb.DuckDBPyConnection, sel: Selection, variable: str,
     return _df(con, sql, {**sel.params(), "pv": variable, "pr": region})
 
 
-def scenario_series(con: duckdb.DuckDBPyConnection, variable: str, region: str,
-                    keys: list[tuple[str, str]]) -> pd.DataFrame:
+def scenario_series(
+    con: duckdb.DuckDBPyConnection, variable: str, region: str, keys: list[tuple[str, str]]
+) -> pd.DataFrame:
     """The reported points of `variable` in `region` for the given (model, scenario) pairs."""
     sql = """WITH k AS (SELECT unnest($m::VARCHAR[]) AS model, unnest($s::VARCHAR[]) AS scenario)
     SELECT d.model, d.scenario, d.year, d.value, d.unit
@@ -249,8 +263,10 @@ def scenario_series(con: duckdb.DuckDBPyConnection, variable: str, region: str,
 
 def data_regions(con: duckdb.DuckDBPyConnection, variable: str) -> list[str]:
     """Regions that report `variable`, World first."""
-    rows = con.execute("SELECT DISTINCT region FROM current_data WHERE variable = $v "
-                       "ORDER BY region <> 'World', region", {"v": variable}).fetchall()
+    rows = con.execute(
+        "SELECT DISTINCT region FROM current_data WHERE variable = $v ORDER BY region <> 'World', region",
+        {"v": variable},
+    ).fetchall()
     return [r for (r,) in rows]
 
 
@@ -273,12 +289,20 @@ def submissions(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
 
 def rule_counts(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
     """Findings per submission, rule and severity."""
-    return _df(con, """SELECT submission_id, rule, severity, count(*) AS n FROM findings
-                       GROUP BY ALL ORDER BY submission_id, rule""")
+    return _df(
+        con,
+        """SELECT submission_id, rule, severity, count(*) AS n FROM findings
+                       GROUP BY ALL ORDER BY submission_id, rule""",
+    )
 
 
-def findings(con: duckdb.DuckDBPyConnection, submission_id: int, rules: list[str] | tuple[str, ...] = (),
-             severities: list[str] | tuple[str, ...] = (), limit: int = 5000) -> pd.DataFrame:
+def findings(
+    con: duckdb.DuckDBPyConnection,
+    submission_id: int,
+    rules: list[str] | tuple[str, ...] = (),
+    severities: list[str] | tuple[str, ...] = (),
+    limit: int = 5000,
+) -> pd.DataFrame:
     """The findings of one submission, optionally restricted to some rules and severities."""
     sql = """SELECT rule, severity, path, line, sheet, model, scenario, region, variable, unit, year, value,
                     expected, message, hint
@@ -294,13 +318,15 @@ def findings(con: duckdb.DuckDBPyConnection, submission_id: int, rules: list[str
 def summarise(df: pd.DataFrame, by: list[str], value: str = "value") -> pd.DataFrame:
     """n (non-null), n_missing, median and interquartile range of `value` per group (linear quantiles)."""
     g = df.groupby(by, sort=True, observed=True)[value]
-    out = pd.DataFrame({
-        "n": g.count(),
-        "n_missing": g.size() - g.count(),
-        "median": g.median(),
-        "q25": g.quantile(0.25),
-        "q75": g.quantile(0.75),
-    }).reset_index()
+    out = pd.DataFrame(
+        {
+            "n": g.count(),
+            "n_missing": g.size() - g.count(),
+            "median": g.median(),
+            "q25": g.quantile(0.25),
+            "q75": g.quantile(0.75),
+        }
+    ).reset_index()
     out["iqr"] = out["q75"] - out["q25"]
     return out
 

@@ -53,9 +53,18 @@ def _url_values(param: str) -> list[str]:
     return st.query_params.get_all(param) if param in st.query_params else []
 
 
-def url_widget(widget: Callable[..., T], label: str, *, key: str, param: str, default: Any,
-               parse: Callable[[list[str]], Any], dump: Callable[[Any], str | list[str]],
-               valid: Callable[[Any], bool] = lambda v: True, **kwargs: Any) -> T:
+def url_widget(
+    widget: Callable[..., T],
+    label: str,
+    *,
+    key: str,
+    param: str,
+    default: Any,
+    parse: Callable[[list[str]], Any],
+    dump: Callable[[Any], str | list[str]],
+    valid: Callable[[Any], bool] = lambda v: True,
+    **kwargs: Any,
+) -> T:
     """A widget whose value starts from the URL (if valid), else from earlier on this session, else `default`.
 
     Its value is written back to the URL at the end of the run.
@@ -80,19 +89,46 @@ def url_widget(widget: Callable[..., T], label: str, *, key: str, param: str, de
     return value
 
 
-def url_selectbox(label: str, options: list[Any], *, key: str, param: str, default: Any,
-                  cast: Callable[[str], Any] = str, **kwargs: Any) -> Any:
+def url_selectbox(
+    label: str,
+    options: list[Any],
+    *,
+    key: str,
+    param: str,
+    default: Any,
+    cast: Callable[[str], Any] = str,
+    **kwargs: Any,
+) -> Any:
     """A selectbox backed by one query parameter."""
     fallback = default if default in options else (options[0] if options else None)
-    return url_widget(st.selectbox, label, key=key, param=param, default=fallback, options=options,
-                      parse=lambda raw: cast(raw[0]), dump=str, valid=lambda v: v in options, **kwargs)
+    return url_widget(
+        st.selectbox,
+        label,
+        key=key,
+        param=param,
+        default=fallback,
+        options=options,
+        parse=lambda raw: cast(raw[0]),
+        dump=str,
+        valid=lambda v: v in options,
+        **kwargs,
+    )
 
 
 def url_multiselect(label: str, options: list[str], *, key: str, param: str, **kwargs: Any) -> list[str]:
     """A multiselect backed by a repeated query parameter."""
-    return url_widget(st.multiselect, label, key=key, param=param, default=[], options=options,
-                      parse=list, dump=list, valid=lambda v: isinstance(v, list) and set(v) <= set(options),
-                      **kwargs)
+    return url_widget(
+        st.multiselect,
+        label,
+        key=key,
+        param=param,
+        default=[],
+        options=options,
+        parse=list,
+        dump=list,
+        valid=lambda v: isinstance(v, list) and set(v) <= set(options),
+        **kwargs,
+    )
 
 
 def query(fn: Callable[..., T], *args: Any, **kwargs: Any) -> T:
@@ -120,8 +156,9 @@ def require_database() -> None:
     try:
         connection.connection(path)
     except FileNotFoundError:
-        st.error(f"No database at `{path}`. Load submissions with `milepost ingest`, or pass `--db PATH` "
-                 "(env MILEPOST_DB).")
+        st.error(
+            f"No database at `{path}`. Load submissions with `milepost ingest`, or pass `--db PATH` (env MILEPOST_DB)."
+        )
         stop()
     except duckdb.Error as e:
         st.error(f"Cannot open `{path}` read-only: {e}")
@@ -137,10 +174,24 @@ def chart(ch: alt.TopLevelMixin, name: str, key: str) -> None:
     """Show an Altair chart with PNG and SVG downloads (rendered only when clicked)."""
     st.altair_chart(ch, width="stretch")
     c1, c2, _ = st.columns([1, 1, 6])
-    c1.download_button("PNG", data=lambda: charts.to_png(ch), file_name=f"{name}.png", mime="image/png",
-                       key=f"{key}_png", on_click="ignore", icon=":material/image:")
-    c2.download_button("SVG", data=lambda: charts.to_svg(ch), file_name=f"{name}.svg", mime="image/svg+xml",
-                       key=f"{key}_svg", on_click="ignore", icon=":material/image:")
+    c1.download_button(
+        "PNG",
+        data=lambda: charts.to_png(ch),
+        file_name=f"{name}.png",
+        mime="image/png",
+        key=f"{key}_png",
+        on_click="ignore",
+        icon=":material/image:",
+    )
+    c2.download_button(
+        "SVG",
+        data=lambda: charts.to_svg(ch),
+        file_name=f"{name}.svg",
+        mime="image/svg+xml",
+        key=f"{key}_svg",
+        on_click="ignore",
+        icon=":material/image:",
+    )
 
 
 def table(df: pd.DataFrame, name: str, key: str, **kwargs: Any) -> None:
@@ -148,8 +199,15 @@ def table(df: pd.DataFrame, name: str, key: str, **kwargs: Any) -> None:
     config = {c: st.column_config.NumberColumn(format="%.2f") for c, t in df.dtypes.items() if t.kind == "f"}
     config.update(kwargs.pop("column_config", {}))
     st.dataframe(df, hide_index=True, width="stretch", key=key, column_config=config, **kwargs)
-    st.download_button("CSV", data=df.to_csv(index=False).encode("utf-8"), file_name=f"{name}.csv",
-                       mime="text/csv", key=f"{key}_csv", on_click="ignore", icon=":material/download:")
+    st.download_button(
+        "CSV",
+        data=df.to_csv(index=False).encode("utf-8"),
+        file_name=f"{name}.csv",
+        mime="text/csv",
+        key=f"{key}_csv",
+        on_click="ignore",
+        icon=":material/download:",
+    )
 
 
 def fmt(x: float | None, digits: int = 1) -> str:
@@ -171,16 +229,29 @@ def band_sidebar(ch: queries.Choices) -> queries.Selection:
     sb = st.sidebar
     with sb:
         st.header("Bands")
-        variable = url_selectbox("Variable", ch.variables, key="band_variable", param="var",
-                                 default="emissions.ghg", help="The scenarios are grouped by this variable's value.")
+        variable = url_selectbox(
+            "Variable",
+            ch.variables,
+            key="band_variable",
+            param="var",
+            default="emissions.ghg",
+            help="The scenarios are grouped by this variable's value.",
+        )
         years = ch.milestones or ch.years
         year = url_selectbox("Milestone year", years, key="band_year", param="year", default=2030, cast=int)
         region = url_selectbox("Region", ch.regions, key="band_region", param="region", default="World")
         edges_text = url_widget(
-            st.text_input, "Band edges", key="band_edges", param="edges", default="",
-            parse=lambda raw: raw[0], dump=str,
-            placeholder="empty = terciles", help="Values that separate the bands, e.g. `42000 52000`; "
-            "a scenario at an edge belongs to the band above. Empty: the terciles of the selected scenarios.")
+            st.text_input,
+            "Band edges",
+            key="band_edges",
+            param="edges",
+            default="",
+            parse=lambda raw: raw[0],
+            dump=str,
+            placeholder="empty = terciles",
+            help="Values that separate the bands, e.g. `42000 52000`; "
+            "a scenario at an edge belongs to the band above. Empty: the terciles of the selected scenarios.",
+        )
         try:
             edges = parse_edges(edges_text)
         except ValueError:
@@ -188,19 +259,43 @@ def band_sidebar(ch: queries.Choices) -> queries.Selection:
             edges = ()
         st.header("Filters")
         models = url_multiselect("Models", ch.models, key="band_models", param="model", placeholder="all models")
-        attribute = url_selectbox("Scenario attribute", ["", *ch.attributes], key="band_attr", param="attr",
-                                  default="", format_func=lambda a: a or "(none)")
+        attribute = url_selectbox(
+            "Scenario attribute",
+            ["", *ch.attributes],
+            key="band_attr",
+            param="attr",
+            default="",
+            format_func=lambda a: a or "(none)",
+        )
         values: list[str] = []
         if attribute:
-            values = url_multiselect(f"{attribute} is one of", query(queries.attribute_values, attribute),
-                                     key="band_attr_values", param="attr_value", placeholder="any value")
+            values = url_multiselect(
+                f"{attribute} is one of",
+                query(queries.attribute_values, attribute),
+                key="band_attr_values",
+                param="attr_value",
+                placeholder="any value",
+            )
         include_refs = url_widget(
-            st.checkbox, "Include reference scenarios", key="band_refs", param="refs", default=False,
-            parse=lambda raw: raw[0] == "1", dump=lambda v: "1" if v else "0",
-            help="Scenarios that other scenarios name as their reference (usually no-policy runs).")
-    return queries.Selection(variable=variable or "", year=int(year or 0), region=region or "", edges=edges,
-                             models=tuple(models), attribute=attribute or "", attribute_values=tuple(values),
-                             include_references=bool(include_refs))
+            st.checkbox,
+            "Include reference scenarios",
+            key="band_refs",
+            param="refs",
+            default=False,
+            parse=lambda raw: raw[0] == "1",
+            dump=lambda v: "1" if v else "0",
+            help="Scenarios that other scenarios name as their reference (usually no-policy runs).",
+        )
+    return queries.Selection(
+        variable=variable or "",
+        year=int(year or 0),
+        region=region or "",
+        edges=edges,
+        models=tuple(models),
+        attribute=attribute or "",
+        attribute_values=tuple(values),
+        include_references=bool(include_refs),
+    )
 
 
 def label_bands(df: pd.DataFrame, labels: list[str], column: str = "band") -> pd.DataFrame:

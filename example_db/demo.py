@@ -41,8 +41,18 @@ def main(argv: list[str] | None = None) -> int:
     if args.db.exists():
         args.db.unlink()
     for name, paths, expected in batches:
-        code = _milepost("ingest", *paths, "--db", args.db, "--contract", CONTRACT, "--by", "demo",
-                         "--note", f"demo submission: {name}")
+        code = _milepost(
+            "ingest",
+            *paths,
+            "--db",
+            args.db,
+            "--contract",
+            CONTRACT,
+            "--by",
+            "demo",
+            "--note",
+            f"demo submission: {name}",
+        )
         if code != expected:
             print(f"unexpected exit code {code} when ingesting the {name} submission", file=sys.stderr)
             return 1

@@ -52,36 +52,42 @@ PPP_RATIO0 = np.array([1.1, 2.1, 1.7, 2.6, 1.8])  # PPP / MER GDP, converging to
 CONS_SHARE = np.array([0.62, 0.45, 0.50, 0.70, 0.58])  # consumption / GDP
 PE0 = np.array([190.0, 230.0, 70.0, 45.0, 65.0])  # EJ/yr
 FUELS = ("coal", "oil", "gas", "nuclear", "biomass", "hydro", "wind", "solar", "other")
-FUEL_SHARE0 = np.array([  # regions x fuels, rows sum to 1
-    [0.14, 0.36, 0.27, 0.09, 0.05, 0.03, 0.03, 0.015, 0.015],
-    [0.45, 0.22, 0.08, 0.03, 0.08, 0.05, 0.04, 0.03, 0.02],
-    [0.10, 0.38, 0.40, 0.02, 0.04, 0.04, 0.01, 0.005, 0.005],
-    [0.15, 0.30, 0.08, 0.00, 0.38, 0.05, 0.01, 0.02, 0.01],
-    [0.20, 0.38, 0.22, 0.04, 0.06, 0.05, 0.025, 0.015, 0.01],
-])
+FUEL_SHARE0 = np.array(
+    [  # regions x fuels, rows sum to 1
+        [0.14, 0.36, 0.27, 0.09, 0.05, 0.03, 0.03, 0.015, 0.015],
+        [0.45, 0.22, 0.08, 0.03, 0.08, 0.05, 0.04, 0.03, 0.02],
+        [0.10, 0.38, 0.40, 0.02, 0.04, 0.04, 0.01, 0.005, 0.005],
+        [0.15, 0.30, 0.08, 0.00, 0.38, 0.05, 0.01, 0.02, 0.01],
+        [0.20, 0.38, 0.22, 0.04, 0.06, 0.05, 0.025, 0.015, 0.01],
+    ]
+)
 # Slow shift of the reference mix by 2100 (sums to zero, so shares stay shares).
 FUEL_SHIFT = np.array([-0.05, -0.05, 0.01, 0.0, -0.01, 0.0, 0.04, 0.05, 0.01])
 # Where energy no longer supplied by fossil fuels comes from in policy scenarios (sums to 1).
 LOW_CARBON_SHARE = np.array([0.0, 0.0, 0.0, 0.14, 0.08, 0.05, 0.34, 0.36, 0.03])
 EMISSION_FACTOR = np.array([94.0, 66.0, 56.0])  # Mt CO2 per EJ of coal, oil, gas (net of non-energy use)
 SECTORS = ("power", "industry", "transport", "buildings", "other")
-FUEL_TO_SECTOR = np.array([  # fossil fuels x sectors, rows sum to 1
-    [0.70, 0.25, 0.00, 0.03, 0.02],
-    [0.04, 0.15, 0.66, 0.10, 0.05],
-    [0.42, 0.25, 0.03, 0.27, 0.03],
-])
+FUEL_TO_SECTOR = np.array(
+    [  # fossil fuels x sectors, rows sum to 1
+        [0.70, 0.25, 0.00, 0.03, 0.02],
+        [0.04, 0.15, 0.66, 0.10, 0.05],
+        [0.42, 0.25, 0.03, 0.27, 0.03],
+    ]
+)
 PROCESS0 = np.array([350.0, 1400.0, 200.0, 200.0, 250.0])  # Mt CO2/yr, industrial processes (sector "other")
 LAND0 = np.array([-300.0, 600.0, 800.0, 1600.0, 800.0])  # Mt CO2/yr
 CH40 = np.array([60.0, 110.0, 70.0, 70.0, 40.0])  # Mt CH4/yr
 N2O0 = np.array([1800.0, 3500.0, 1500.0, 2200.0, 1000.0])  # kt N2O/yr
 FE_RATIO = np.array([0.68, 0.66, 0.70, 0.85, 0.70])  # final / primary energy
-FE_SHARE = np.array([  # regions x (industry, transport, buildings)
-    [0.30, 0.35, 0.35],
-    [0.50, 0.20, 0.30],
-    [0.38, 0.32, 0.30],
-    [0.20, 0.20, 0.60],
-    [0.32, 0.36, 0.32],
-])
+FE_SHARE = np.array(
+    [  # regions x (industry, transport, buildings)
+        [0.30, 0.35, 0.35],
+        [0.50, 0.20, 0.30],
+        [0.38, 0.32, 0.30],
+        [0.20, 0.20, 0.60],
+        [0.32, 0.36, 0.32],
+    ]
+)
 FE_CUT_WEIGHT = np.array([1.0, 1.1, 0.9])  # transport demand responds a little more than buildings
 # Population and per-capita GDP growth (fraction/yr) in 2020 and 2100, interpolated linearly in between.
 POP_GROWTH = np.array([[0.003, -0.003], [0.007, -0.006], [0.010, 0.000], [0.020, -0.004], [0.008, -0.002]])
@@ -195,8 +201,13 @@ def _models(names: tuple[str, ...], rng: np.random.Generator) -> Models:
     u = lambda lo, hi: rng.uniform(lo, hi, m)  # noqa: E731
     pop_scale, gdp_scale, aeei = u(0.85, 1.15), u(0.85, 1.15), u(0.010, 0.016)
     params = dict(
-        price_scale=u(0.85, 1.3), cost_scale=u(0.7, 1.4), turnover_scale=u(0.85, 1.25), beccs_scale=u(0.4, 1.4),
-        sink_scale=u(0.6, 1.3), gdp_loss=u(0.8, 1.3), demand_share=u(0.35, 0.55),
+        price_scale=u(0.85, 1.3),
+        cost_scale=u(0.7, 1.4),
+        turnover_scale=u(0.85, 1.25),
+        beccs_scale=u(0.4, 1.4),
+        sink_scale=u(0.6, 1.3),
+        gdp_loss=u(0.8, 1.3),
+        demand_share=u(0.35, 0.55),
     )
     # Calibration: each model's 2020 values differ from the reference data by up to 4 %; the paths then wander
     # by a small random walk that starts at zero, so the base year stays inside the contract's tolerance.
@@ -240,9 +251,13 @@ def _price(level: np.ndarray, start: np.ndarray, premium: np.ndarray, g1: np.nda
     return np.minimum(np.where(on, path * premium[:, None], 0.0), PRICE_CAP)
 
 
-def _protocol_runs(models: Models, ghg_factor: dict[str, float],
-                   protocol: tuple[tuple[str, str, str, float], ...] = PROTOCOL,
-                   only: tuple[str, ...] | None = None, price_factor: float = 1.0) -> Runs:
+def _protocol_runs(
+    models: Models,
+    ghg_factor: dict[str, float],
+    protocol: tuple[tuple[str, str, str, float], ...] = PROTOCOL,
+    only: tuple[str, ...] | None = None,
+    price_factor: float = 1.0,
+) -> Runs:
     """Every model x every protocol scenario (or only the models named in `only`), delayed runs matched to their
     immediate siblings."""
     idx = [i for i, name in enumerate(models.names) if only is None or name in only]
@@ -260,8 +275,9 @@ def _protocol_runs(models: Models, ghg_factor: dict[str, float],
 def _subset(runs: Runs, idx: np.ndarray) -> Runs:
     """The runs at positions `idx`."""
     pick = lambda xs: tuple(xs[i] for i in idx)  # noqa: E731
-    return Runs(runs.model[idx], pick(runs.scenario), pick(runs.family), pick(runs.ambition), runs.start[idx],
-                runs.price[idx])
+    return Runs(
+        runs.model[idx], pick(runs.scenario), pick(runs.family), pick(runs.ambition), runs.start[idx], runs.price[idx]
+    )
 
 
 def _delay_price(price: np.ndarray, premium: np.ndarray, fade: np.ndarray) -> np.ndarray:
@@ -272,9 +288,12 @@ def _delay_price(price: np.ndarray, premium: np.ndarray, fade: np.ndarray) -> np
 
 def _regional_ghg(leaves: dict[str, np.ndarray], ghg_factor: dict[str, float]) -> np.ndarray:
     """Regional GHG [N, R, T] in Mt CO2e from the emission leaves."""
-    return (sum(leaves[f"emissions.co2.fossil.{s}"] for s in SECTORS) + leaves["emissions.co2.land"]
-            + leaves["emissions.ch4"] * ghg_factor["emissions.ch4"]
-            + leaves["emissions.n2o"] * ghg_factor["emissions.n2o"])
+    return (
+        sum(leaves[f"emissions.co2.fossil.{s}"] for s in SECTORS)
+        + leaves["emissions.co2.land"]
+        + leaves["emissions.ch4"] * ghg_factor["emissions.ch4"]
+        + leaves["emissions.n2o"] * ghg_factor["emissions.n2o"]
+    )
 
 
 def _match_siblings(models: Models, runs: Runs, ghg_factor: dict[str, float], iterations: int = 40) -> Runs:
@@ -316,8 +335,15 @@ def _mac_area(goal: np.ndarray, potential: np.ndarray) -> np.ndarray:
     return potential * (1.0 - u - u * goal)
 
 
-def _vintage_step(a: np.ndarray, cost: np.ndarray, price: np.ndarray, scale: np.ndarray, base_scale: np.ndarray,
-                  potential: np.ndarray, turnover: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _vintage_step(
+    a: np.ndarray,
+    cost: np.ndarray,
+    price: np.ndarray,
+    scale: np.ndarray,
+    base_scale: np.ndarray,
+    potential: np.ndarray,
+    turnover: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
     """One five-year step of the capital stock of every group: (abated fraction, cost in USD_2015 per t of base).
 
     New capital (the replaced share, plus whatever is scrapped early) is built at the abatement that is
@@ -331,12 +357,18 @@ def _vintage_step(a: np.ndarray, cost: np.ndarray, price: np.ndarray, scale: np.
     gain = price * (new - a) - (new_cost - cost)
     scrap = np.clip(gain / (2.0 * SCRAP_COST * base_scale), 0.0, 1.0 - turnover)
     share = turnover + scrap
-    return ((1.0 - share) * a + share * new,
-            (1.0 - share) * cost + share * new_cost + SCRAP_COST * base_scale * scrap**2)
+    return (
+        (1.0 - share) * a + share * new,
+        (1.0 - share) * cost + share * new_cost + SCRAP_COST * base_scale * scrap**2,
+    )
 
 
-def _simulate(models: Models, runs: Runs, ghg_factor: dict[str, float],
-              adjust: Callable[[dict[str, np.ndarray]], None] | None = None) -> dict[str, np.ndarray]:
+def _simulate(
+    models: Models,
+    runs: Runs,
+    ghg_factor: dict[str, float],
+    adjust: Callable[[dict[str, np.ndarray]], None] | None = None,
+) -> dict[str, np.ndarray]:
     """Leaf variables of every run as float arrays [N, R, T] (regions only; World comes later).
 
     `ghg_factor` maps each gas variable to its GWP100 factor into Mt CO2e, as the contract resolves it.
@@ -352,8 +384,9 @@ def _simulate(models: Models, runs: Runs, ghg_factor: dict[str, float],
     experience = np.zeros(frac.shape[:-1])
     for t in range(1, len(YEARS)):  # the capital stock is a recursion in time; everything else is vectorised
         scale = scale0 * (1.0 + experience / EXPERIENCE0) ** -LEARNING
-        frac[..., t], unit_cost[..., t] = _vintage_step(frac[..., t - 1], unit_cost[..., t - 1], price[None, :, :, t],
-                                                        scale, scale0, potential, turnover)
+        frac[..., t], unit_cost[..., t] = _vintage_step(
+            frac[..., t - 1], unit_cost[..., t - 1], price[None, :, :, t], scale, scale0, potential, turnover
+        )
         experience = experience + 5.0 * frac[..., t]
     a = dict(zip(GROUPS, frac, strict=True))
 
@@ -371,8 +404,9 @@ def _simulate(models: Models, runs: Runs, ghg_factor: dict[str, float],
     out["energy.primary.biomass"] = out["energy.primary.biomass"] + beccs / BECCS_MT_PER_EJ
     pe_ref = sum(ref[f"fuel.{f}"] for f in FUELS)
     cut = 0.9 * demand * lost / pe_ref
-    for i, (sector, name) in enumerate(zip(("ind", "trans", "bldg"), ("industry", "transport", "buildings"),
-                                           strict=True)):
+    for i, (sector, name) in enumerate(
+        zip(("ind", "trans", "bldg"), ("industry", "transport", "buildings"), strict=True)
+    ):
         out[f"energy.final.{name}"] = ref[f"fe.{sector}"] * (1.0 - cut * FE_CUT_WEIGHT[i])
 
     fuel_co2 = [q * ef for q, ef in zip(fossil, EMISSION_FACTOR, strict=True)]
@@ -391,10 +425,16 @@ def _simulate(models: Models, runs: Runs, ghg_factor: dict[str, float],
 
     # Costs: what the capital in place costs over the reference (see _vintage_step), billion USD/yr.
     bases = {
-        "coal": fossil_ref[0] * EMISSION_FACTOR[0], "oil": fossil_ref[1] * EMISSION_FACTOR[1],
-        "gas": fossil_ref[2] * EMISSION_FACTOR[2], "ccs": captured_base, "process": ref["process"],
-        "land": land_base, "sink": sink, "beccs": BECCS_MAX[None, :, None] * models.beccs_scale[mi][:, None, None],
-        "ch4": ref["ch4"] * ghg_factor["emissions.ch4"], "n2o": ref["n2o"] * ghg_factor["emissions.n2o"],
+        "coal": fossil_ref[0] * EMISSION_FACTOR[0],
+        "oil": fossil_ref[1] * EMISSION_FACTOR[1],
+        "gas": fossil_ref[2] * EMISSION_FACTOR[2],
+        "ccs": captured_base,
+        "process": ref["process"],
+        "land": land_base,
+        "sink": sink,
+        "beccs": BECCS_MAX[None, :, None] * models.beccs_scale[mi][:, None, None],
+        "ch4": ref["ch4"] * ghg_factor["emissions.ch4"],
+        "n2o": ref["n2o"] * ghg_factor["emissions.n2o"],
     }
     cost = sum(bases[k] * unit_cost[i] for i, k in enumerate(GROUPS)) / 1000.0  # Mt x USD/t -> billion USD
     out["cost.abatement"] = cost
@@ -460,33 +500,41 @@ def _long(cube: np.ndarray, runs: Runs, models: Models, con: Contract) -> pd.Dat
     names = list(con.variables)
     units = np.array([con.variables[x].unit for x in names], dtype=object)
     model_names = np.array(models.names, dtype=object)[runs.model]
-    return pd.DataFrame({
-        "model": np.repeat(model_names, per_run),
-        "scenario": np.repeat(np.array(runs.scenario, dtype=object), per_run),
-        "region": np.tile(np.repeat(np.array(ALL_REGIONS, dtype=object), v * t), n),
-        "variable": np.tile(np.repeat(np.array(names, dtype=object), t), n * r),
-        "unit": np.tile(np.repeat(units, t), n * r),
-        "year": np.tile(YEARS.astype(np.int64), n * r * v),
-        "value": cube.reshape(-1) / QUANTUM,
-    })
+    return pd.DataFrame(
+        {
+            "model": np.repeat(model_names, per_run),
+            "scenario": np.repeat(np.array(runs.scenario, dtype=object), per_run),
+            "region": np.tile(np.repeat(np.array(ALL_REGIONS, dtype=object), v * t), n),
+            "variable": np.tile(np.repeat(np.array(names, dtype=object), t), n * r),
+            "unit": np.tile(np.repeat(units, t), n * r),
+            "year": np.tile(YEARS.astype(np.int64), n * r * v),
+            "value": cube.reshape(-1) / QUANTUM,
+        }
+    )
 
 
 def _scenario_table(runs: Runs, models: Models) -> pd.DataFrame:
     """One row per run: the scenario attributes a submission declares."""
     model_names = np.array(models.names, dtype=object)[runs.model]
     fam = np.array(runs.family, dtype=object)
-    return pd.DataFrame({
-        "model": model_names,
-        "scenario": np.array(runs.scenario, dtype=object),
-        "reference": np.where(fam == "reference", None, REFERENCE_NAME),
-        "family": fam,
-        "ambition": np.where(np.array(runs.ambition, dtype=object) == "", None, np.array(runs.ambition)),
-        "policy_start": pd.Series(runs.start, dtype="Int64").where(runs.start > 0),
-    })
+    return pd.DataFrame(
+        {
+            "model": model_names,
+            "scenario": np.array(runs.scenario, dtype=object),
+            "reference": np.where(fam == "reference", None, REFERENCE_NAME),
+            "family": fam,
+            "ambition": np.where(np.array(runs.ambition, dtype=object) == "", None, np.array(runs.ambition)),
+            "policy_start": pd.Series(runs.start, dtype="Int64").where(runs.start > 0),
+        }
+    )
 
 
-def _ensemble(names: tuple[str, ...] = MODELS, only: tuple[str, ...] | None = None, price_factor: float = 1.0,
-              adjust: Callable[[dict[str, np.ndarray]], None] | None = None) -> tuple[pd.DataFrame, pd.DataFrame]:
+def _ensemble(
+    names: tuple[str, ...] = MODELS,
+    only: tuple[str, ...] | None = None,
+    price_factor: float = 1.0,
+    adjust: Callable[[dict[str, np.ndarray]], None] | None = None,
+) -> tuple[pd.DataFrame, pd.DataFrame]:
     con = contract()
     models = _models(names, np.random.default_rng(SEED))
     factors = ghg_factors(con)
@@ -506,6 +554,7 @@ def scenario_frame() -> pd.DataFrame:
 
 
 # --- files ---------------------------------------------------------------------------------------------------
+
 
 def _write_csv(df: pd.DataFrame, path: Path) -> Path:
     df.to_csv(path, index=False, lineterminator="\n")
@@ -551,15 +600,17 @@ def flawed_frames() -> tuple[pd.DataFrame, pd.DataFrame]:
     # A typo in a variable name (the real name is then missing for that scenario).
     data.loc[(scen == "act-firm") & (data["variable"] == "consumption"), "variable"] = "consumtion"
     # An energy unit on an emissions variable.
-    data.loc[(scen == "act-firm") & (data["region"] == "Estrel") & (data["variable"] == "emissions.ch4"),
-             "unit"] = "EJ/yr"
+    data.loc[(scen == "act-firm") & (data["region"] == "Estrel") & (data["variable"] == "emissions.ch4"), "unit"] = (
+        "EJ/yr"
+    )
     # A sector that no longer adds up to its total (also at World, where the sector was summed over regions).
     hit = (scen == REFERENCE_NAME) & (data["year"] == 2050) & (data["variable"] == "emissions.co2.fossil.transport")
     data.loc[hit & data["region"].isin(["Belmora", WORLD]), "value"] += 1500.0
     # A World value that is not the sum of its regions.
     hit = (scen == REFERENCE_NAME) & (data["year"] == 2050) & (data["variable"] == "population")
-    data.loc[hit & (data["region"] == WORLD), "value"] = (data.loc[hit & (data["region"] == WORLD), "value"]
-                                                          * 1.05).round(4)
+    data.loc[hit & (data["region"] == WORLD), "value"] = (
+        data.loc[hit & (data["region"] == WORLD), "value"] * 1.05
+    ).round(4)
     return data, _scenario_table(runs, models)
 
 
@@ -584,8 +635,10 @@ def write_demo(out_dir: Path) -> DemoFiles:
         if model == XLSX_MODEL:
             submissions[model] = [_write_xlsx(d, s, out_dir / f"{stem}.xlsx")]
         else:
-            submissions[model] = [_write_csv(d, out_dir / f"{stem}.csv"),
-                                  _write_csv(s, out_dir / f"{stem}-scenarios.csv")]
+            submissions[model] = [
+                _write_csv(d, out_dir / f"{stem}.csv"),
+                _write_csv(s, out_dir / f"{stem}-scenarios.csv"),
+            ]
     fd, fs = flawed_frames()
     stem = FLAWED_MODEL.lower()
     flawed = [_write_csv(fd, out_dir / f"{stem}.csv"), _write_csv(fs, out_dir / f"{stem}-scenarios.csv")]
@@ -597,8 +650,15 @@ def write_demo(out_dir: Path) -> DemoFiles:
 
 # --- contract tables ------------------------------------------------------------------------------------------
 
-REFERENCE_VARIABLES = ("emissions.co2", "emissions.ch4", "emissions.n2o", "emissions.ghg", "energy.primary",
-                       "population", "gdp.mer")
+REFERENCE_VARIABLES = (
+    "emissions.co2",
+    "emissions.ch4",
+    "emissions.n2o",
+    "emissions.ghg",
+    "energy.primary",
+    "population",
+    "gdp.mer",
+)
 
 
 def reference_frame() -> pd.DataFrame:
@@ -610,8 +670,12 @@ def reference_frame() -> pd.DataFrame:
     factor = ghg_factors(con)
     ch4_f, n2o_f = factor["emissions.ch4"], factor["emissions.n2o"]
     values = {
-        "emissions.co2": co2, "emissions.ch4": CH40, "emissions.n2o": N2O0,
-        "emissions.ghg": co2 + ch4_f * CH40 + n2o_f * N2O0, "energy.primary": PE0, "population": POP0,
+        "emissions.co2": co2,
+        "emissions.ch4": CH40,
+        "emissions.n2o": N2O0,
+        "emissions.ghg": co2 + ch4_f * CH40 + n2o_f * N2O0,
+        "energy.primary": PE0,
+        "population": POP0,
         "gdp.mer": GDP0,
     }
     rows = []
@@ -651,6 +715,7 @@ def write_contract_tables(contract_dir: Path = CONTRACT_DIR) -> tuple[Path, Path
 
 
 # --- benchmark inputs -----------------------------------------------------------------------------------------
+
 
 def write_synthetic(path: Path, rows: int, seed: int = 0) -> Path:
     """A large long-format CSV of exactly `rows` rows with valid names, units and years (values do not add up)."""
@@ -701,10 +766,17 @@ def _many_runs(models: Models, n_scenarios: int, rng: np.random.Generator) -> Ru
     family = np.where(is_ref, "reference", np.where(delayed, "delayed", "immediate"))
     label = np.array(["mild", "firm", "bold", "deep", "max"])[np.digitize(level, [15.0, 40.0, 80.0, 150.0])]
     counter = np.tile(np.arange(per_model), m)
-    names = np.where(is_ref, REFERENCE_NAME,
-                     np.char.add(np.where(delayed, "wait-", "act-"), np.char.zfill(counter.astype(str), 4)))
-    return Runs(model, tuple(names.tolist()), tuple(family.tolist()),
-                tuple(np.where(is_ref, "", label).tolist()), start, _price(level, start, premium, g1, g2))
+    names = np.where(
+        is_ref, REFERENCE_NAME, np.char.add(np.where(delayed, "wait-", "act-"), np.char.zfill(counter.astype(str), 4))
+    )
+    return Runs(
+        model,
+        tuple(names.tolist()),
+        tuple(family.tolist()),
+        tuple(np.where(is_ref, "", label).tolist()),
+        start,
+        _price(level, start, premium, g1, g2),
+    )
 
 
 def write_many_scenarios(out_dir: Path, n_scenarios: int = 3000, fmt: str = "parquet") -> list[Path]:
@@ -734,16 +806,19 @@ def write_many_scenarios(out_dir: Path, n_scenarios: int = 3000, fmt: str = "par
             return pa.DictionaryArray.from_arrays(pa.array(codes, pa.int32()), pa.array(values)).cast(pa.string())
 
         scen_names = [runs.scenario[i] for i in sel]
-        table = pa.table({
-            "model": dict_col(np.zeros(k * r * v * t, dtype=np.int32), [model]),
-            "scenario": dict_col(np.repeat(np.arange(k, dtype=np.int32), r * v * t), scen_names),
-            "region": dict_col(np.tile(np.repeat(np.arange(r, dtype=np.int32), v * t), k), list(ALL_REGIONS)),
-            "variable": dict_col(np.tile(np.repeat(np.arange(v, dtype=np.int32), t), k * r), names),
-            "unit": dict_col(np.tile(np.repeat(np.arange(v, dtype=np.int32), t), k * r),
-                             [con_.variables[x].unit for x in names]),
-            "year": pa.array(np.tile(YEARS.astype(np.int64), k * r * v)),
-            "value": pa.array(cube[sel].reshape(-1) / QUANTUM),
-        })
+        table = pa.table(
+            {
+                "model": dict_col(np.zeros(k * r * v * t, dtype=np.int32), [model]),
+                "scenario": dict_col(np.repeat(np.arange(k, dtype=np.int32), r * v * t), scen_names),
+                "region": dict_col(np.tile(np.repeat(np.arange(r, dtype=np.int32), v * t), k), list(ALL_REGIONS)),
+                "variable": dict_col(np.tile(np.repeat(np.arange(v, dtype=np.int32), t), k * r), names),
+                "unit": dict_col(
+                    np.tile(np.repeat(np.arange(v, dtype=np.int32), t), k * r), [con_.variables[x].unit for x in names]
+                ),
+                "year": pa.array(np.tile(YEARS.astype(np.int64), k * r * v)),
+                "value": pa.array(cube[sel].reshape(-1) / QUANTUM),
+            }
+        )
         stem = f"many-{model.lower()}"
         if fmt == "parquet":
             data_path = out_dir / f"{stem}.parquet"

@@ -302,8 +302,9 @@ def _resolve(
     except (KeyError, TypeError, ValueError) as e:
         raise ContractError(f"{where}: [years] needs whole numbers first, last, base (and milestones): {e}") from None
     tol = head.get("tolerance", {})
-    tolerance = Tolerance(**{k: _number(v, f"{where} [tolerance] {k}") for k, v in tol.items()
-                             if k in Tolerance.__dataclass_fields__})
+    tolerance = Tolerance(
+        **{k: _number(v, f"{where} [tolerance] {k}") for k, v in tol.items() if k in Tolerance.__dataclass_fields__}
+    )
     unknown_tol = sorted(set(tol) - set(Tolerance.__dataclass_fields__))
     if unknown_tol:
         raise ContractError(f"{where}: [tolerance] has unknown keys {', '.join(unknown_tol)}")

@@ -71,16 +71,18 @@ class Deflator:
 class Units:
     """A unit registry for one contract: parsing, compatibility and conversion factors."""
 
-    def __init__(self, deflators: tuple[Deflator, ...] = (), carbon_to_co2: bool = False,
-                 shapes: tuple[str, ...] = ("Mt CO2/yr", "t CO2", "USD_2015/t CO2")) -> None:
+    def __init__(
+        self,
+        deflators: tuple[Deflator, ...] = (),
+        carbon_to_co2: bool = False,
+        shapes: tuple[str, ...] = ("Mt CO2/yr", "t CO2", "USD_2015/t CO2"),
+    ) -> None:
         """`shapes`: units (usually the contract's) whose carbon counterparts may convert when carbon_to_co2 is on."""
         import pint
 
         self.pint = pint
         self.carbon_to_co2 = carbon_to_co2
-        reg = pint.UnitRegistry(
-            on_redefinition="ignore", preprocessors=[_group_denominators], cache_folder=None
-        )
+        reg = pint.UnitRegistry(on_redefinition="ignore", preprocessors=[_group_denominators], cache_folder=None)
         for symbol, name in SPECIES.items():
             reg.define(f"{name} = [{name}] = {symbol}")
         for d in ("kilotonne = 1e3 * tonne = kt", "billion = 1e9", "million = 1e6", "thousand = 1e3"):

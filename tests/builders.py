@@ -16,8 +16,9 @@ def _leaf_value(name: str, region: str, year: int) -> float:
     return 10.0 + (h % 9000) / 10.0
 
 
-def consistent_rows(contract: Contract, model: str = "M1", scenario: str = "S1",
-                    years: tuple[int, ...] | None = None) -> list[dict]:
+def consistent_rows(
+    contract: Contract, model: str = "M1", scenario: str = "S1", years: tuple[int, ...] | None = None
+) -> list[dict]:
     """Every contract variable in every leaf region and its parent, with all sums exact."""
     years = years or (contract.base_year, *contract.milestones)
     parents = {r.name: r.parts for r in contract.regions.values() if r.parts}
@@ -36,20 +37,29 @@ def consistent_rows(contract: Contract, model: str = "M1", scenario: str = "S1",
                 return 0.0
             i = leaves.index(region)
             base = _leaf_value(var, "any", year)
-            return base * (1 if i % 2 == 0 else -1) if len(leaves) % 2 == 0 else (
-                base * (i - (len(leaves) - 1) / 2))
+            return base * (1 if i % 2 == 0 else -1) if len(leaves) % 2 == 0 else (base * (i - (len(leaves) - 1) / 2))
         return _leaf_value(var, region, year)
 
     regions = [*parents, *[r for r in leaves if r not in parents]]
     return [
-        {"model": model, "scenario": scenario, "region": r, "variable": v.name, "unit": v.unit, "year": y,
-         "value": round(value(v.name, r, y), 9)}
-        for r in regions for v in contract.variables.values() for y in years
+        {
+            "model": model,
+            "scenario": scenario,
+            "region": r,
+            "variable": v.name,
+            "unit": v.unit,
+            "year": y,
+            "value": round(value(v.name, r, y), 9),
+        }
+        for r in regions
+        for v in contract.variables.values()
+        for y in years
     ]
 
 
-def write_csv(path: Path, rows: list[dict], header: list[str] | None = None, delimiter: str = ",",
-              encoding: str = "utf-8") -> Path:
+def write_csv(
+    path: Path, rows: list[dict], header: list[str] | None = None, delimiter: str = ",", encoding: str = "utf-8"
+) -> Path:
     """Write rows as CSV; row i (0-based) lands on physical line i + 2."""
     header = header or HEADER
     with path.open("w", newline="", encoding=encoding) as f:

@@ -48,16 +48,24 @@ def sql(demo_db: Path):
     con.close()
 
 
-def milestone_values(con: duckdb.DuckDBPyConnection, variable: str, year: int, region: str = "World",
-                     models: tuple[str, ...] = (), with_references: bool = False) -> pd.DataFrame:
+def milestone_values(
+    con: duckdb.DuckDBPyConnection,
+    variable: str,
+    year: int,
+    region: str = "World",
+    models: tuple[str, ...] = (),
+    with_references: bool = False,
+) -> pd.DataFrame:
     """The expected selection, written independently of dashboard/queries.py: straight from the stored rows."""
     df = con.execute(
         """SELECT i.model, i.scenario, i.value, s.attributes
            FROM current_indicators i JOIN current_scenarios s USING (model, scenario)
            WHERE i.kind = 'value' AND i.variable = ? AND i.year_from = ? AND i.region = ?""",
-        [variable, year, region]).df()
-    refs = con.execute("SELECT DISTINCT model, reference AS scenario FROM current_scenarios "
-                       "WHERE reference IS NOT NULL").df()
+        [variable, year, region],
+    ).df()
+    refs = con.execute(
+        "SELECT DISTINCT model, reference AS scenario FROM current_scenarios WHERE reference IS NOT NULL"
+    ).df()
     if not with_references:
         marked = df.merge(refs, on=["model", "scenario"], how="left", indicator=True)
         df = df[(marked["_merge"] == "left_only").to_numpy()]

@@ -19,16 +19,26 @@ from dashboard_fixtures import demo, demo_db, milestone_values  # noqa: F401
 from milepost.dashboard.ui import fmt
 
 CHROMIUM = Path("/usr/bin/chromium")
-ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-        "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-dev-shm-usage"]
+ARGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+    "--disable-dev-shm-usage",
+]
 RENDERED = """() => document.querySelector('[data-testid="stApp"]')
    ?.getAttribute('data-test-script-state') === 'notRunning' && !document.querySelector('[data-stale="true"]')"""
 CHART = '[data-testid="stVegaLiteChart"] canvas, [data-testid="stVegaLiteChart"] svg'
 
 pytestmark = [
     pytest.mark.browser,
-    pytest.mark.skipif(not CHROMIUM.exists(), reason="no system Chromium at /usr/bin/chromium "
-                       "(apt-get install chromium); the real-browser test needs it"),
+    pytest.mark.skipif(
+        not CHROMIUM.exists(),
+        reason="no system Chromium at /usr/bin/chromium (apt-get install chromium); the real-browser test needs it",
+    ),
 ]
 
 
@@ -44,9 +54,12 @@ def server(demo_db: Path):  # noqa: F811
     port = _free_port()
     log = demo_db.parent / "dashboard-server.log"
     with log.open("wb") as out:
-        proc = subprocess.Popen([sys.executable, "-m", "milepost.validate", "dashboard", "--db", str(demo_db),
-                                 "--port", str(port)], stdout=out, stderr=subprocess.STDOUT,
-                                env={**os.environ, "MILEPOST_CONTRACT": ""})
+        proc = subprocess.Popen(
+            [sys.executable, "-m", "milepost.validate", "dashboard", "--db", str(demo_db), "--port", str(port)],
+            stdout=out,
+            stderr=subprocess.STDOUT,
+            env={**os.environ, "MILEPOST_CONTRACT": ""},
+        )
     url = f"http://127.0.0.1:{port}"
     try:
         deadline = time.monotonic() + 60

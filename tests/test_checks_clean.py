@@ -40,7 +40,9 @@ def test_usable_rows_are_the_same_with_and_without_the_per_row_lookups(tmp_path,
     rows = consistent_rows(basic)
     fast = check(write_csv(tmp_path / "fast.csv", rows), basic)
     slow = check(write_csv(tmp_path / "slow.csv", [*rows, dict(rows[0], variable="not.a.variable")]), basic)
-    query = ("SELECT CAST(model AS VARCHAR), CAST(scenario AS VARCHAR), CAST(region AS VARCHAR), "
-             "CAST(variable AS VARCHAR), CAST(unit AS VARCHAR), year, value, line FROM checked ORDER BY line")
+    query = (
+        "SELECT CAST(model AS VARCHAR), CAST(scenario AS VARCHAR), CAST(region AS VARCHAR), "
+        "CAST(variable AS VARCHAR), CAST(unit AS VARCHAR), year, value, line FROM checked ORDER BY line"
+    )
     assert fast.con.execute(query).fetchall() == slow.con.execute(query).fetchall()
     assert slow.counts["error"] == 1 and fast.counts["error"] == 0

@@ -10,8 +10,14 @@ from builders import consistent_rows, write_csv
 from conftest import rules_at
 
 
-@pytest.mark.parametrize(("bad", "hint"), [("emisions.co2", "emissions.co2"), ("Emissions.CO2", "emissions.co2"),
-                                           ("energy_primary_coal", "energy.primary.coal")])
+@pytest.mark.parametrize(
+    ("bad", "hint"),
+    [
+        ("emisions.co2", "emissions.co2"),
+        ("Emissions.CO2", "emissions.co2"),
+        ("energy_primary_coal", "energy.primary.coal"),
+    ],
+)
 def test_unknown_variable_with_hint(tmp_path, basic, check, bad, hint):
     rows = consistent_rows(basic)
     rows[20]["variable"] = bad
@@ -59,8 +65,9 @@ def test_country_groups_sum_their_iso_codes(tmp_path, check):
     folder = tmp_path / "groups"
     folder.mkdir()
     (folder / "contract.toml").write_text('name = "groups"\nextends = "core"\n')
-    (folder / "regions.toml").write_text('countries = false\n["World"]\nparts = ["Northland"]\n'
-                                         '["Northland"]\nparts = ["NOR", "SWE"]\n')
+    (folder / "regions.toml").write_text(
+        'countries = false\n["World"]\nparts = ["Northland"]\n["Northland"]\nparts = ["NOR", "SWE"]\n'
+    )
     contract = load(folder)
     assert lint(contract) == []
     rows = consistent_rows(contract)

@@ -20,8 +20,9 @@ def with_reference(tmp_path, basic):
     folder.mkdir()
     (folder / "contract.toml").write_text(f'name = "ref"\nextends = "{BASIC_CONTRACT.as_posix()}"\n')
     # Reference given in Gt CO2/yr: the checker converts it into the contract unit (Mt CO2/yr) first.
-    (folder / "reference.csv").write_text("region,variable,unit,year,value\n"
-                                          f"World,emissions.co2,Gt CO2/yr,2020,{co2['value'] / 1000 * 1.25}\n")
+    (folder / "reference.csv").write_text(
+        f"region,variable,unit,year,value\nWorld,emissions.co2,Gt CO2/yr,2020,{co2['value'] / 1000 * 1.25}\n"
+    )
     return load(folder), rows, co2
 
 

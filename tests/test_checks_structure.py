@@ -43,8 +43,10 @@ def test_unexpected_column_is_a_warning(tmp_path, basic, check, rows):
     assert result.passed("error") and not result.passed("warning")
 
 
-@pytest.mark.parametrize(("cell", "expected_rule"), [("2030.5", "bad-year"), ("twenty", "bad-year"),
-                                                     ("2200", "bad-year"), ("", "missing-value")])
+@pytest.mark.parametrize(
+    ("cell", "expected_rule"),
+    [("2030.5", "bad-year"), ("twenty", "bad-year"), ("2200", "bad-year"), ("", "missing-value")],
+)
 def test_bad_year(tmp_path, basic, check, rows, cell, expected_rule):
     rows[7]["year"] = cell
     result = check(write_csv(tmp_path / "y.csv", rows), basic)

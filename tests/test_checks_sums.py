@@ -42,8 +42,11 @@ def test_ghg_parts_use_published_gwp100(tmp_path, basic, check):
     sar = co2 + ch4 * gwp.data["SARGWP100"]["CH4"] + n2o / 1000 * gwp.data["SARGWP100"]["N2O"]
     assert abs(sar - ar6) / ar6 > 0.01, "test data too weak to tell the GWP sets apart"
     rows[g]["value"] = sar
-    found = [f for f in rules_at(check(write_csv(tmp_path / "g.csv", rows), basic), "sum-of-parts")
-             if f.variable == "emissions.ghg"]
+    found = [
+        f
+        for f in rules_at(check(write_csv(tmp_path / "g.csv", rows), basic), "sum-of-parts")
+        if f.variable == "emissions.ghg"
+    ]
     assert [f.line for f in found] == [g + 2]
     assert float(found[0].expected) == pytest.approx(ar6, rel=1e-5)
 

@@ -37,9 +37,9 @@ def test_net_land_co2_may_be_negative(tmp_path, basic, check):
 def bounded(tmp_path):
     folder = tmp_path / "bounded"
     shutil.copytree(BASIC_CONTRACT, folder)
-    (folder / "bounds.csv").write_text("variable,region,year_from,year_to,low,high\n"
-                                       "price.carbon,,2030,2050,0,1000\n"
-                                       "population,World,,,1000,\n")
+    (folder / "bounds.csv").write_text(
+        "variable,region,year_from,year_to,low,high\nprice.carbon,,2030,2050,0,1000\npopulation,World,,,1000,\n"
+    )
     return load(folder)
 
 

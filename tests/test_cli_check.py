@@ -41,8 +41,10 @@ def test_clean_file_exits_0_with_passed_line(tmp_path, basic):
 def test_findings_exit_1_with_compiler_style_lines(broken):
     res = _run("check", broken, "--contract", BASIC_CONTRACT)
     assert res.exit_code == 1
-    assert (f"{broken}:22: error unknown-variable: variable emisions.co2 is not in the contract — "
-            "Did you mean emissions.co2?") in res.stdout.splitlines()
+    assert (
+        f"{broken}:22: error unknown-variable: variable emisions.co2 is not in the contract — "
+        "Did you mean emissions.co2?"
+    ) in res.stdout.splitlines()
     assert res.stdout.splitlines()[-1].startswith("FAILED: ")
 
 

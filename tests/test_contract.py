@@ -16,17 +16,31 @@ from conftest import BASIC_CONTRACT, DEMO_CONTRACT
 
 
 def test_core_has_the_agreed_variables(core):
-    expected = {"emissions.ghg": "Mt CO2e/yr", "emissions.co2": "Mt CO2/yr", "emissions.co2.fossil": "Mt CO2/yr",
-                "emissions.co2.land": "Mt CO2/yr", "emissions.ch4": "Mt CH4/yr", "emissions.n2o": "kt N2O/yr",
-                "energy.primary": "EJ/yr", "energy.final": "EJ/yr", "population": "million",
-                "gdp.ppp": "billion USD_2015/yr", "gdp.mer": "billion USD_2015/yr",
-                "consumption": "billion USD_2015/yr", "price.carbon": "USD_2015/t CO2",
-                "cost.abatement": "billion USD_2015/yr", "trade.permits": "Mt CO2e/yr"}
+    expected = {
+        "emissions.ghg": "Mt CO2e/yr",
+        "emissions.co2": "Mt CO2/yr",
+        "emissions.co2.fossil": "Mt CO2/yr",
+        "emissions.co2.land": "Mt CO2/yr",
+        "emissions.ch4": "Mt CH4/yr",
+        "emissions.n2o": "kt N2O/yr",
+        "energy.primary": "EJ/yr",
+        "energy.final": "EJ/yr",
+        "population": "million",
+        "gdp.ppp": "billion USD_2015/yr",
+        "gdp.mer": "billion USD_2015/yr",
+        "consumption": "billion USD_2015/yr",
+        "price.carbon": "USD_2015/t CO2",
+        "cost.abatement": "billion USD_2015/yr",
+        "trade.permits": "Mt CO2e/yr",
+    }
     assert {k: core.variables[k].unit for k in expected} == expected
     assert core.variables["price.carbon"].regions == "none"
     assert core.variables["trade.permits"].regions == "zero"
     assert [p.variable for p in core.variables["energy.final"].parts] == [
-        "energy.final.industry", "energy.final.transport", "energy.final.buildings"]
+        "energy.final.industry",
+        "energy.final.transport",
+        "energy.final.buildings",
+    ]
 
 
 @pytest.mark.parametrize("metric", ["AR6GWP100", "AR5GWP100", "AR4GWP100", "SARGWP100"])
@@ -82,8 +96,10 @@ def test_show_json_shape(demo_contract):
     assert d["years"] == {"first": 2010, "last": 2100}
     v = next(v for v in d["variables"] if v["name"] == "emissions.co2")
     assert set(v) >= {"name", "unit", "required", "sign", "regions", "parts"}
-    assert v["parts"] == [{"variable": "emissions.co2.fossil", "factor": 1.0, "gwp": None},
-                          {"variable": "emissions.co2.land", "factor": 1.0, "gwp": None}]
+    assert v["parts"] == [
+        {"variable": "emissions.co2.fossil", "factor": 1.0, "gwp": None},
+        {"variable": "emissions.co2.land", "factor": 1.0, "gwp": None},
+    ]
 
 
 def test_shipped_contracts_lint_clean(core, demo_contract):
@@ -92,8 +108,9 @@ def test_shipped_contracts_lint_clean(core, demo_contract):
 
 
 def _broken(tmp_path, variables: str, regions: str = "", reference: str | None = None):
-    (tmp_path / "contract.toml").write_text('name = "broken"\n[years]\nfirst = 2010\nlast = 2100\nbase = 2020\n'
-                                            'milestones = [2030]\n')
+    (tmp_path / "contract.toml").write_text(
+        'name = "broken"\n[years]\nfirst = 2010\nlast = 2100\nbase = 2020\nmilestones = [2030]\n'
+    )
     (tmp_path / "variables.toml").write_text(variables)
     (tmp_path / "regions.toml").write_text(regions or '["World"]\n')
     if reference is not None:
@@ -102,8 +119,9 @@ def _broken(tmp_path, variables: str, regions: str = "", reference: str | None =
 
 
 def test_lint_finds_a_cycle(tmp_path):
-    rules, found = _broken(tmp_path, '["a.x"]\nunit = "EJ/yr"\nparts = ["a.y"]\n["a.y"]\nunit = "EJ/yr"\n'
-                                     'parts = ["a.x"]\n')
+    rules, found = _broken(
+        tmp_path, '["a.x"]\nunit = "EJ/yr"\nparts = ["a.y"]\n["a.y"]\nunit = "EJ/yr"\nparts = ["a.x"]\n'
+    )
     assert "contract-cycle" in rules
     assert any("a.x -> a.y -> a.x" in f.message for f in found)
 
@@ -119,8 +137,12 @@ def test_lint_finds_unknown_units_names_and_parts(tmp_path):
 
 
 def test_lint_finds_bad_references(tmp_path):
-    rules, found = _broken(tmp_path, '["a"]\nunit = "EJ/yr"\n', reference="region,variable,unit,year,value\n"
-                           "World,a,Mt CO2/yr,2020,1\nMars,a,EJ/yr,2020,1\nWorld,zz,EJ/yr,2020,1\n")
+    rules, found = _broken(
+        tmp_path,
+        '["a"]\nunit = "EJ/yr"\n',
+        reference="region,variable,unit,year,value\n"
+        "World,a,Mt CO2/yr,2020,1\nMars,a,EJ/yr,2020,1\nWorld,zz,EJ/yr,2020,1\n",
+    )
     assert rules == {"contract-reference"}
     assert len(found) == 3
 

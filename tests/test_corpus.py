@@ -39,8 +39,10 @@ def _corpus(tmp_path, basic):
         "huge.csv": ("\n".join([lines[0], lines[1].rsplit(",", 1)[0] + ",1e999", *lines[2:]]).encode(), "bad-value"),
         "inf.csv": ("\n".join([lines[0], lines[1].rsplit(",", 1)[0] + ",inf", *lines[2:]]).encode(), "bad-value"),
         "na.csv": ("\n".join([lines[0], lines[1].rsplit(",", 1)[0] + ",n/a", *lines[2:]]).encode(), "missing-value"),
-        "half-year.csv": ("\n".join([lines[0], lines[1].replace(",2020,", ",2030.5,"), *lines[2:]]).encode(),
-                          "bad-year"),
+        "half-year.csv": (
+            "\n".join([lines[0], lines[1].replace(",2020,", ",2030.5,"), *lines[2:]]).encode(),
+            "bad-year",
+        ),
         "ragged.csv": ("\n".join([lines[0], lines[1] + ",extra,cells", *lines[2:]]).encode(), "unreadable-file"),
         "old.xls": (b"\xd0\xcf\x11\xe0" + b"\x00" * 100, "unreadable-file"),
         "parquet.parquet": (b"PAR1 not really", "unreadable-file"),
@@ -62,15 +64,28 @@ def test_every_bad_input_gives_its_finding(tmp_path, basic):
 
 def test_real_entry_point_never_prints_a_traceback(tmp_path, basic):
     names = list(_corpus(tmp_path, basic))
-    proc = subprocess.run([sys.executable, "-m", "milepost.validate", "check", *[str(tmp_path / n) for n in names],
-                           "--contract", str(BASIC_CONTRACT)], capture_output=True, text=True, timeout=120)
+    proc = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "milepost.validate",
+            "check",
+            *[str(tmp_path / n) for n in names],
+            "--contract",
+            str(BASIC_CONTRACT),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert proc.returncode == 1
     assert "Traceback" not in proc.stdout + proc.stderr
     assert proc.stdout.splitlines()[-1].startswith("FAILED: ")
 
 
-@pytest.mark.parametrize(("encoding", "bom", "delimiter"), [("utf-8", False, ","), ("utf-8", True, ";"),
-                                                            ("latin-1", False, "\t")])
+@pytest.mark.parametrize(
+    ("encoding", "bom", "delimiter"), [("utf-8", False, ","), ("utf-8", True, ";"), ("latin-1", False, "\t")]
+)
 def test_encodings_and_delimiters(tmp_path, basic, check, encoding, bom, delimiter):
     rows = consistent_rows(basic)
     rows[0]["model"] = "Modèle-É"

@@ -59,9 +59,12 @@ def band_rates(sql, year_from: int, year_to: int, kind: str = "rate_cagr") -> tu
     sel = milestone_values(sql, "emissions.ghg", 2030)
     _, band = numpy_bands(sel["value"].to_numpy())
     sel = sel.assign(band=band)
-    r = sql.execute("""SELECT model, scenario, value AS rate FROM current_indicators
+    r = sql.execute(
+        """SELECT model, scenario, value AS rate FROM current_indicators
                        WHERE kind = ? AND variable = 'emissions.ghg' AND region = 'World'
-                         AND year_from = ? AND year_to = ?""", [kind, year_from, year_to]).df()
+                         AND year_from = ? AND year_to = ?""",
+        [kind, year_from, year_to],
+    ).df()
     return band, sel.merge(r, on=["model", "scenario"])
 
 
@@ -177,8 +180,10 @@ def test_costs_sentence_ratio_and_thin_evidence(demo_db, sql):  # noqa: F811
             at.multiselect(key="band_models").set_value(list(models)).run()
         hi, lo, n_hi, n_lo = _npv_medians(sql, models)
         text = at.info[0].value
-        assert (f"NPV of abatement cost 2020–2100 {sig(hi)} vs {sig(lo)} billion USD_2015 "
-                f"(×{fmt(hi / lo, 2)}, n = {n_hi} vs {n_lo})") in text
+        assert (
+            f"NPV of abatement cost 2020–2100 {sig(hi)} vs {sig(lo)} billion USD_2015 "
+            f"(×{fmt(hi / lo, 2)}, n = {n_hi} vs {n_lo})"
+        ) in text
         ratio = frame(at, "ratio of medians")
         row = ratio[(ratio["metric"] == "NPV of abatement cost") & (ratio["year"] == 2100)].iloc[0]
         assert row["ratio of medians"] == pytest.approx(hi / lo)
@@ -216,8 +221,9 @@ def test_submissions_and_drill_down(demo_db, sql):  # noqa: F811
     subs = frame(at, "version")
     assert len(subs) == sql.execute("SELECT count(*) FROM submissions").fetchall()[0][0]
     rejected = sql.execute("SELECT id FROM submissions WHERE status = 'rejected'").fetchall()[0][0]
-    per_rule = dict(sql.execute("SELECT rule, count(*) FROM findings WHERE submission_id = ? GROUP BY rule",
-                                [rejected]).fetchall())
+    per_rule = dict(
+        sql.execute("SELECT rule, count(*) FROM findings WHERE submission_id = ? GROUP BY rule", [rejected]).fetchall()
+    )
     row = subs[subs["id"] == rejected].iloc[0]
     assert {r: int(row[r]) for r in per_rule} == per_rule
     # the one submission with findings is preselected
@@ -238,22 +244,23 @@ def test_selfcheck_reports_findings_without_writing(demo, sql):  # noqa: F811
     db, files = demo
     before = _signature(db)
     at = open_app(db, "views/selfcheck.py")
-    at.file_uploader(key="check_files").set_value(
-        [(p.name, p.read_bytes(), "text/csv") for p in files.flawed]).run()
+    at.file_uploader(key="check_files").set_value([(p.name, p.read_bytes(), "text/csv") for p in files.flawed]).run()
     assert not at.exception, [e.message for e in at.exception]
     sid, errors = sql.execute("SELECT id, errors FROM submissions WHERE model = 'Vossel'").fetchall()[0]
     metric = {m.label: m.value for m in at.metric}
     assert int(metric["Errors"].replace(",", "")) == errors
     assert any("rejected" in e.value for e in at.error)
-    stored = dict(sql.execute("SELECT rule, count(*) FROM findings WHERE submission_id = ? GROUP BY rule",
-                              [sid]).fetchall())
+    stored = dict(
+        sql.execute("SELECT rule, count(*) FROM findings WHERE submission_id = ? GROUP BY rule", [sid]).fetchall()
+    )
     shown = frame(at, "hint")
     assert shown.groupby("rule").size().to_dict() == stored
     assert {b.label for b in at.get("download_button")} >= {"JSON report", "XLSX report"}
     assert _signature(db) == before  # nothing was written to the database
 
     at.file_uploader(key="check_files").set_value(
-        [(p.name, p.read_bytes(), "text/csv") for p in files.submissions["Ferrow"]]).run()
+        [(p.name, p.read_bytes(), "text/csv") for p in files.submissions["Ferrow"]]
+    ).run()
     assert any("would be accepted" in s.value for s in at.success)
 
 
@@ -282,12 +289,18 @@ def test_dashboard_reads_during_an_ingest_and_then_sees_the_new_version(demo, tm
     n_before = next(m for m in at.metric if m.label == "Scenarios").value
 
     flag = tmp_path / "paused"
-    env = {**os.environ, "MILEPOST_PAUSE_AT": "in-transaction", "MILEPOST_PAUSE_FILE": str(flag),
-           "MILEPOST_PAUSE_SECONDS": "3"}
-    code = ("import sys; from milepost.validate.store.ingest import ingest; "
-            "ingest(sys.argv[3:], sys.argv[1], sys.argv[2])")
-    proc = subprocess.Popen([sys.executable, "-c", code, str(db), str(CONTRACT_DIR),
-                             *map(str, files.submissions["Ormund"])], env=env)
+    env = {
+        **os.environ,
+        "MILEPOST_PAUSE_AT": "in-transaction",
+        "MILEPOST_PAUSE_FILE": str(flag),
+        "MILEPOST_PAUSE_SECONDS": "3",
+    }
+    code = (
+        "import sys; from milepost.validate.store.ingest import ingest; ingest(sys.argv[3:], sys.argv[1], sys.argv[2])"
+    )
+    proc = subprocess.Popen(
+        [sys.executable, "-c", code, str(db), str(CONTRACT_DIR), *map(str, files.submissions["Ormund"])], env=env
+    )
     try:
         deadline = time.monotonic() + 60
         while not flag.exists():

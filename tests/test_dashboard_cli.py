@@ -43,8 +43,11 @@ def test_the_command_serves_the_app(demo_db: Path):  # noqa: F811
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))
         port = s.getsockname()[1]
-    proc = subprocess.Popen([sys.executable, "-m", "milepost.validate", "dashboard", "--db", str(demo_db),
-                             "--port", str(port)], stdout=subprocess.PIPE, stderr=subprocess.STDOUT)
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "milepost.validate", "dashboard", "--db", str(demo_db), "--port", str(port)],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.STDOUT,
+    )
     try:
         deadline = time.monotonic() + 60
         health = None

@@ -55,7 +55,8 @@ def test_user_edges_filters_and_reference_scenarios(con, sql):  # noqa: F811
     _, band = numpy_bands(want["value"].to_numpy(), [5000.0, 20000.0])
     assert queries.band_edges(con, sel) == [5000.0, 20000.0]
     assert sorted(zip(got["scenario"] + got["model"], got["band"], strict=True)) == sorted(
-        zip(want["scenario"] + want["model"], band, strict=True))
+        zip(want["scenario"] + want["model"], band, strict=True)
+    )
     assert set(got["model"]) == {"Ferrow", "Ormund"}
 
     with_refs = queries.selected(con, queries.Selection(include_references=True))
@@ -82,7 +83,12 @@ def test_rates_are_the_cagr_of_the_stored_series(con, sql):  # noqa: F811
     np.testing.assert_allclose(cagr.to_numpy(dtype=float), expected, rtol=1e-9, equal_nan=True)
     assert set(df["kind"]) == {"rate_cagr", "rate_linear"}
     assert queries.rate_periods(con, "emissions.ghg", "World") == [
-        (2020, 2030), (2020, 2050), (2020, 2100), (2030, 2050), (2050, 2100)]
+        (2020, 2030),
+        (2020, 2050),
+        (2020, 2100),
+        (2030, 2050),
+        (2050, 2100),
+    ]
 
 
 def test_summarise_matches_numpy_percentiles(con):
@@ -102,7 +108,8 @@ def test_costs_and_ratio_of_band_medians(con, sql):  # noqa: F811
     sel = queries.Selection()
     df = queries.costs(con, sel, 2020)
     assert {("loss_pct", "gdp.mer"), ("npv", "cost.abatement"), ("value", "price.carbon")} <= set(
-        zip(df["kind"], df["variable"], strict=True))
+        zip(df["kind"], df["variable"], strict=True)
+    )
     assert not ((df["kind"] == "value") & (df["year"] == 2020)).any()  # carbon price at milestones only
     by = ["kind", "variable", "year"]
     ratios = queries.band_ratio(queries.summarise(df, [*by, "band"]), by, top=2, bottom=0)
@@ -118,8 +125,9 @@ def test_costs_and_ratio_of_band_medians(con, sql):  # noqa: F811
 
 
 def test_band_ratio_needs_a_positive_denominator():
-    s = pd.DataFrame({"m": ["a", "a", "b", "b"], "band": [0, 1, 0, 1], "median": [2.0, 3.0, 0.0, 1.0],
-                      "n": [4, 5, 4, 5]})
+    s = pd.DataFrame(
+        {"m": ["a", "a", "b", "b"], "band": [0, 1, 0, 1], "median": [2.0, 3.0, 0.0, 1.0], "n": [4, 5, 4, 5]}
+    )
     r = queries.band_ratio(s, ["m"], top=1, bottom=0).set_index("m")
     assert r.loc["a", "ratio"] == 1.5 and np.isnan(r.loc["b", "ratio"])
     assert r.loc["a", "n_top"] == 5 and r.loc["a", "n_bottom"] == 4
@@ -151,13 +159,16 @@ def test_submissions_versions_and_findings(con, sql):  # noqa: F811
     rejected = int(subs.loc[subs["status"] == "rejected", "id"].iloc[0])
     counts = queries.rule_counts(con)
     mine = counts[counts["submission_id"] == rejected]
-    assert mine["n"].sum() == sql.execute("SELECT count(*) FROM findings WHERE submission_id = ?",
-                                          [rejected]).fetchall()[0][0]
+    assert (
+        mine["n"].sum()
+        == sql.execute("SELECT count(*) FROM findings WHERE submission_id = ?", [rejected]).fetchall()[0][0]
+    )
     rule = mine.sort_values("n").iloc[-1]["rule"]
     found = queries.findings(con, rejected, [rule])
     assert len(found) == int(mine.loc[mine["rule"] == rule, "n"].sum()) and set(found["rule"]) == {rule}
     assert queries.findings(con, rejected, [], ["note"]).empty or set(
-        queries.findings(con, rejected, [], ["note"])["severity"]) == {"note"}
+        queries.findings(con, rejected, [], ["note"])["severity"]
+    ) == {"note"}
     assert queries.contract_name(con) == "lowmoor-demo"
 
 
@@ -198,8 +209,9 @@ def test_reference_value_comes_from_the_demo_contract():
 def test_chart_exports_are_real_png_and_svg(con):
     df = queries.screen_table(con, queries.Selection(), 2020, 2050)
     df["band_label"] = np.array(queries.band_labels(3))[df["band"].to_numpy()]
-    chart = charts.histogram(df, queries.band_edges(con, queries.Selection()), queries.band_labels(3),
-                             "emissions.ghg", "Mt CO2e/yr")
+    chart = charts.histogram(
+        df, queries.band_edges(con, queries.Selection()), queries.band_labels(3), "emissions.ghg", "Mt CO2e/yr"
+    )
     png = charts.to_png(chart, scale=1)
     # PNG signature and IHDR chunk (ISO/IEC 15948): width and height are the first two big-endian uint32
     assert png[:8] == b"\x89PNG\r\n\x1a\n" and png[12:16] == b"IHDR"

@@ -12,33 +12,79 @@ from pathlib import Path
 import duckdb
 import pytest
 
-from milepost.validate.store import database as dbm
 from milepost.validate.errors import LoadError, LockTimeout
+from milepost.validate.store import database as dbm
 
 TABLES = {"meta", "submissions", "findings", "data", "scenarios", "indicators"}
 VIEWS = {"current_versions", "current_data", "current_scenarios", "current_indicators"}
 # The column names the dashboard reads (notes/db-spec.md); a rename here breaks it.
 SPEC_COLUMNS = {
-    "submissions": ["id", "model", "files", "sha256", "contract_name", "contract_hash", "milepost_version",
-                    "submitted_by", "note", "submitted_at", "status", "superseded_by", "rows", "errors", "warnings",
-                    "notes"],
-    "findings": ["submission_id", "rule", "severity", "path", "line", "sheet", "model", "scenario", "region",
-                 "variable", "unit", "year", "value", "expected", "message", "hint"],
+    "submissions": [
+        "id",
+        "model",
+        "files",
+        "sha256",
+        "contract_name",
+        "contract_hash",
+        "milepost_version",
+        "submitted_by",
+        "note",
+        "submitted_at",
+        "status",
+        "superseded_by",
+        "rows",
+        "errors",
+        "warnings",
+        "notes",
+    ],
+    "findings": [
+        "submission_id",
+        "rule",
+        "severity",
+        "path",
+        "line",
+        "sheet",
+        "model",
+        "scenario",
+        "region",
+        "variable",
+        "unit",
+        "year",
+        "value",
+        "expected",
+        "message",
+        "hint",
+    ],
     "data": ["submission_id", "model", "scenario", "region", "variable", "unit", "year", "value"],
     "scenarios": ["submission_id", "model", "scenario", "reference", "attributes"],
-    "indicators": ["submission_id", "model", "scenario", "region", "kind", "variable", "year_from", "year_to",
-                   "value", "unit"],
+    "indicators": [
+        "submission_id",
+        "model",
+        "scenario",
+        "region",
+        "kind",
+        "variable",
+        "year_from",
+        "year_to",
+        "value",
+        "unit",
+    ],
 }
 
 
 def catalog(con: duckdb.DuckDBPyConnection, name: str) -> tuple[dict, dict]:
     cols: dict[str, list[tuple[str, str]]] = {}
     for table, column, dtype in con.execute(
-            "SELECT table_name, column_name, data_type FROM duckdb_columns() WHERE database_name = ? "
-            "ORDER BY table_name, column_index", [name]).fetchall():
+        "SELECT table_name, column_name, data_type FROM duckdb_columns() WHERE database_name = ? "
+        "ORDER BY table_name, column_index",
+        [name],
+    ).fetchall():
         cols.setdefault(table, []).append((column, dtype))
-    views = dict(con.execute("SELECT view_name, sql FROM duckdb_views() WHERE database_name = ? AND NOT internal",
-                             [name]).fetchall())
+    views = dict(
+        con.execute(
+            "SELECT view_name, sql FROM duckdb_views() WHERE database_name = ? AND NOT internal", [name]
+        ).fetchall()
+    )
     return cols, views
 
 
@@ -150,8 +196,10 @@ def test_stale_copies_of_a_killed_writer_are_removed(tmp_path: Path) -> None:
 
 def test_missing_folder_and_missing_file_give_clear_errors(tmp_path: Path) -> None:
     con = dbm.connect_memory()
-    with pytest.raises(LoadError, match="folder of the database does not exist"), \
-            dbm.Writer(tmp_path / "nope" / "m.duckdb", con):
+    with (
+        pytest.raises(LoadError, match="folder of the database does not exist"),
+        dbm.Writer(tmp_path / "nope" / "m.duckdb", con),
+    ):
         pass
     with pytest.raises(LoadError, match="no database at"):
         dbm.open_reader(tmp_path / "m.duckdb")
@@ -233,8 +281,10 @@ def test_read_only_connection_of_another_process_does_not_block_a_write(tmp_path
     db = tmp_path / "m.duckdb"
     build(db)
     # A plain duckdb.connect(read_only=True), as a dashboard might hold it.
-    code = ("import duckdb, sys, time; c = duckdb.connect(sys.argv[1], read_only=True); "
-            "print(c.execute('SELECT count(*) FROM data').fetchall()[0][0], flush=True); time.sleep(30)")
+    code = (
+        "import duckdb, sys, time; c = duckdb.connect(sys.argv[1], read_only=True); "
+        "print(c.execute('SELECT count(*) FROM data').fetchall()[0][0], flush=True); time.sleep(30)"
+    )
     holder = subprocess.Popen([sys.executable, "-c", code, str(db)], stdout=subprocess.PIPE, text=True)
     try:
         assert holder.stdout is not None and holder.stdout.readline().strip() == "0"
@@ -268,8 +318,9 @@ def test_no_wal_is_left_next_to_the_live_file(tmp_path: Path) -> None:
     con = dbm.connect_memory()
     with dbm.Writer(db, con) as w:
         w.begin()
-        con.execute("INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000 + i % 100, i "
-                    "FROM range(300000) t(i)")
+        con.execute(
+            "INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000 + i % 100, i FROM range(300000) t(i)"
+        )
     con.close()
     assert not os.path.exists(str(db) + ".wal")
     with dbm.open_reader(db) as r:

@@ -72,6 +72,7 @@ def world(df: pd.DataFrame, variable: str) -> pd.DataFrame:
 
 # --- files ----------------------------------------------------------------------------------------------------
 
+
 def test_same_bytes_twice(demo: gen.DemoFiles, tmp_path: Path) -> None:
     again = gen.write_demo(tmp_path)
     first, second = demo.all_paths(), again.all_paths()
@@ -114,6 +115,7 @@ def test_xlsx_round_trips(demo: gen.DemoFiles, frame: pd.DataFrame) -> None:
 
 
 # --- completeness and consistency of the clean ensemble -------------------------------------------------------
+
 
 def test_every_variable_for_every_scenario_region_year(frame: pd.DataFrame, con: Contract) -> None:
     assert not frame.duplicated(["model", "scenario", "region", "variable", "year"]).any()
@@ -187,6 +189,7 @@ def test_bounds_hold(frame: pd.DataFrame, con: Contract) -> None:
 
 # --- base year and reference data -----------------------------------------------------------------------------
 
+
 def test_contract_tables_match_generator() -> None:
     ref = pd.read_csv(gen.CONTRACT_DIR / "reference.csv")
     pd.testing.assert_frame_equal(ref, gen.reference_frame(), check_dtype=False)
@@ -213,6 +216,7 @@ def test_base_year_is_of_realistic_magnitude(frame: pd.DataFrame, con: Contract)
     base = frame[(frame["region"] == gen.WORLD) & (frame["year"] == 2020)]
     v = base.groupby("variable")["value"].agg(["min", "max"])
     ch4, n2o = (p.factor for p in con.variables["emissions.ghg"].parts[1:])
+
     # 2019 emissions by gas, AR6 WGIII Ch. 2 Sect. 2.2.2.1 Table 2.1 (Gt CO2e, AR6 GWP100): CO2-FFI 38 +- 3,
     # CO2-LULUCF 6.6 +- 4.6, CH4 11 +- 3.2, N2O 2.7 +- 1.6. A 2019 range is a magnitude check for 2020 values.
     def within(var: str, low: float, high: float, factor: float = 1.0) -> bool:
@@ -227,6 +231,7 @@ def test_base_year_is_of_realistic_magnitude(frame: pd.DataFrame, con: Contract)
 
 
 # --- scenario design ------------------------------------------------------------------------------------------
+
 
 def cagr(v0: float, v1: float, years: int) -> float:
     """Compound annual growth rate via numpy_financial.rate (fv = pv * (1 + r)^n with no payments)."""
@@ -366,6 +371,7 @@ def test_prices_costs_and_gdp(frame: pd.DataFrame) -> None:
 
 # --- the flawed submission and the revision -------------------------------------------------------------------
 
+
 def test_flawed_submission_has_exactly_the_planted_flaws(demo: gen.DemoFiles, con: Contract) -> None:
     data = pd.read_csv(demo.flawed[0])
     assert set(data["model"]) == {gen.FLAWED_MODEL}
@@ -374,12 +380,15 @@ def test_flawed_submission_has_exactly_the_planted_flaws(demo: gen.DemoFiles, co
     units = data["variable"].map({n: v.unit for n, v in con.variables.items()})
     wrong = data[units.notna() & (data["unit"] != units)]
     assert set(zip(wrong["variable"], wrong["unit"], wrong["region"], strict=True)) == {
-        ("emissions.ch4", "EJ/yr", "Estrel")}
+        ("emissions.ch4", "EJ/yr", "Estrel")
+    }
     negative = data[(data["variable"] == "emissions.ch4") & (data["value"] < 0)]
     assert len(negative) == 1 and negative["region"].iloc[0] == "Dovania"
     parts = failing(parts_gaps(data, con), con)
     assert set(zip(parts["region"], parts["total"], parts["year"], strict=True)) == {
-        ("Belmora", "emissions.co2.fossil", 2050), (gen.WORLD, "emissions.co2.fossil", 2050)}
+        ("Belmora", "emissions.co2.fossil", 2050),
+        (gen.WORLD, "emissions.co2.fossil", 2050),
+    }
     regions = failing(region_gaps(data, con), con)
     assert set(zip(regions["variable"], regions["year"], strict=True)) == {("population", 2050)}
     dev = _base_deviation(data, con)
@@ -403,6 +412,7 @@ def test_revision_changes_two_scenarios(demo: gen.DemoFiles, frame: pd.DataFrame
 
 
 # --- benchmark inputs -----------------------------------------------------------------------------------------
+
 
 def test_synthetic_file_is_valid_and_seeded(tmp_path: Path, con: Contract) -> None:
     a = gen.write_synthetic(tmp_path / "a.csv", rows=10_000, seed=3)

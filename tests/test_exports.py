@@ -16,8 +16,8 @@ import pytest
 
 from milepost.example_db import generate as demo
 from milepost.schema.contract import load
-from milepost.validate.store import database as dbm
 from milepost.validate.errors import UsageError
+from milepost.validate.store import database as dbm
 from milepost.validate.store.exports import CAUTIONS, XLSX_MAX_ROWS, Filters, diff, export, snapshot, submissions
 from milepost.validate.store.ingest import ingest
 
@@ -37,8 +37,14 @@ def source() -> dict[str, pd.DataFrame]:
     keep_s = scen["model"].isin(["Ferrow", "Halvik"]) & scen["scenario"].isin(["drift", "act-firm", "wait-firm"])
     v2, v2_scen = demo.revision_frames()
     flawed, flawed_scen = demo.flawed_frames()
-    return {"data": data[keep], "scen": scen[keep_s], "v2": v2, "v2_scen": v2_scen, "flawed": flawed,
-            "flawed_scen": flawed_scen}
+    return {
+        "data": data[keep],
+        "scen": scen[keep_s],
+        "v2": v2,
+        "v2_scen": v2_scen,
+        "flawed": flawed,
+        "flawed_scen": flawed_scen,
+    }
 
 
 @pytest.fixture(scope="module")
@@ -47,10 +53,12 @@ def db(tmp_path_factory: pytest.TempPathFactory, source, contract) -> Path:
     folder = tmp_path_factory.mktemp("exports")
     path = folder / "m.duckdb"
     d, s = source["data"], source["scen"]
-    plan = [("ferrow", d[d["model"] == "Ferrow"], s[s["model"] == "Ferrow"]),
-            ("halvik", d[d["model"] == "Halvik"], s[s["model"] == "Halvik"]),
-            ("vossel", source["flawed"], source["flawed_scen"]),
-            ("halvik-v2", source["v2"], source["v2_scen"])]
+    plan = [
+        ("ferrow", d[d["model"] == "Ferrow"], s[s["model"] == "Ferrow"]),
+        ("halvik", d[d["model"] == "Halvik"], s[s["model"] == "Halvik"]),
+        ("vossel", source["flawed"], source["flawed_scen"]),
+        ("halvik-v2", source["v2"], source["v2_scen"]),
+    ]
     for stem, data, scen in plan:
         files = [folder / f"{stem}.csv", folder / f"{stem}-scenarios.csv"]
         data.to_csv(files[0], index=False, lineterminator="\n")
@@ -68,13 +76,21 @@ def current_source(source) -> pd.DataFrame:
 
 def test_csv_export_with_filters_matches_the_source_rows(tmp_path: Path, db, source) -> None:
     out = tmp_path / "d.csv"
-    f = Filters(model=["Halvik"], scenario=["act-firm", "drift"], region=["World", "Ardena"],
-                variable=["emissions.co2", "gdp.mer"])
+    f = Filters(
+        model=["Halvik"],
+        scenario=["act-firm", "drift"],
+        region=["World", "Ardena"],
+        variable=["emissions.co2", "gdp.mer"],
+    )
     n = export(db, "data", "csv", out, f)
     got = pd.read_csv(out)
     want = current_source(source)
-    want = want[(want["model"] == "Halvik") & want["scenario"].isin(f.scenario) & want["region"].isin(f.region)
-                & want["variable"].isin(f.variable)].reset_index(drop=True)
+    want = want[
+        (want["model"] == "Halvik")
+        & want["scenario"].isin(f.scenario)
+        & want["region"].isin(f.region)
+        & want["variable"].isin(f.variable)
+    ].reset_index(drop=True)
     assert n == len(got) == len(want) > 0
     assert list(got.columns) == ["submission_id", *LONG]
     pd.testing.assert_frame_equal(got[LONG].sort_values(KEY).reset_index(drop=True), want, check_dtype=False)
@@ -88,8 +104,18 @@ def test_parquet_export_equals_csv_export(tmp_path: Path, db) -> None:
     a = pd.read_csv(tmp_path / "i.csv")
     b = pq.read_table(tmp_path / "i.parquet").to_pandas()
     assert n_csv == n_pq == len(a) == len(b) > 0
-    assert list(b.columns) == ["submission_id", "model", "scenario", "region", "kind", "variable", "year_from",
-                               "year_to", "value", "unit"]
+    assert list(b.columns) == [
+        "submission_id",
+        "model",
+        "scenario",
+        "region",
+        "kind",
+        "variable",
+        "year_from",
+        "year_to",
+        "value",
+        "unit",
+    ]
     np.testing.assert_allclose(a["value"].to_numpy(float), b["value"].to_numpy(float), equal_nan=True)
 
 
@@ -106,8 +132,10 @@ def test_a_submission_filter_exports_history(tmp_path: Path, db, source) -> None
     n = export(db, "data", "csv", tmp_path / "old.csv", Filters(submission=[2], scenario=["act-firm"]))
     d = source["data"]
     assert n == ((d["model"] == "Halvik") & (d["scenario"] == "act-firm")).sum()
-    assert export(db, "data", "csv", tmp_path / "cur.csv", Filters(model=["Halvik"], scenario=["act-firm"])) == \
-        (source["v2"]["scenario"] == "act-firm").sum()
+    assert (
+        export(db, "data", "csv", tmp_path / "cur.csv", Filters(model=["Halvik"], scenario=["act-firm"]))
+        == (source["v2"]["scenario"] == "act-firm").sum()
+    )
 
 
 def test_xlsx_export_has_the_rows_and_the_cautions(tmp_path: Path, db) -> None:
@@ -128,11 +156,14 @@ def test_xlsx_refuses_more_rows_than_a_sheet_holds(tmp_path: Path) -> None:
     con = dbm.connect_memory()
     with dbm.Writer(path, con) as w:
         w.begin()
-        con.execute("INSERT INTO new.submissions (id, model, status, rows) VALUES (1, 'M', 'accepted', ?)",
-                    [XLSX_MAX_ROWS + 1])
+        con.execute(
+            "INSERT INTO new.submissions (id, model, status, rows) VALUES (1, 'M', 'accepted', ?)", [XLSX_MAX_ROWS + 1]
+        )
         con.execute("INSERT INTO new.scenarios VALUES (1, 'M', 'S', NULL, '{}')")
-        con.execute("INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000, i FROM range(?) t(i)",
-                    [XLSX_MAX_ROWS + 1])
+        con.execute(
+            "INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000, i FROM range(?) t(i)",
+            [XLSX_MAX_ROWS + 1],
+        )
     con.close()
     out = tmp_path / "big.xlsx"
     with pytest.raises(UsageError, match=r"1,048,576 rows do not fit in an Excel sheet \(at most 1,048,575\)"):
@@ -186,15 +217,19 @@ def test_snapshot_partition_names_survive_odd_model_names(tmp_path: Path) -> Non
     with dbm.Writer(path, con) as w:
         w.begin()
         for i, m in enumerate(models, start=1):
-            con.execute("INSERT INTO new.submissions (id, model, status, rows, contract_hash) "
-                        "VALUES (?, ?, 'accepted', 1, 'h')", [i, m])
+            con.execute(
+                "INSERT INTO new.submissions (id, model, status, rows, contract_hash) "
+                "VALUES (?, ?, 'accepted', 1, 'h')",
+                [i, m],
+            )
             con.execute("INSERT INTO new.scenarios VALUES (?, ?, 'S', NULL, '{}')", [i, m])
             con.execute("INSERT INTO new.data VALUES (?, ?, 'S', 'World', 'v', 'u', 2020, ?)", [i, m, float(i)])
     con.close()
     out = tmp_path / "snap"
     snapshot(path, out)
-    a = duckdb.sql(f"SELECT model, value FROM read_parquet('{out}/data/**/*.parquet', hive_partitioning = true) "
-                   "ORDER BY value").fetchall()
+    a = duckdb.sql(
+        f"SELECT model, value FROM read_parquet('{out}/data/**/*.parquet', hive_partitioning = true) ORDER BY value"
+    ).fetchall()
     b = pads.dataset(out / "data", format="parquet", partitioning="hive").to_table().to_pandas()
     assert a == [(m, float(i)) for i, m in enumerate(models, start=1)]
     assert sorted(b["model"].astype(str)) == sorted(models)
@@ -225,14 +260,21 @@ def test_diff_matches_a_pandas_comparison(db, source, contract) -> None:
     m = v1.merge(source["v2"][LONG], on=KEY, how="outer", suffixes=("_a", "_b"), indicator=True)
     both = m[m["_merge"] == "both"]
     changed = (both["value_b"] - both["value_a"]).abs() > np.maximum(rel * both["value_a"].abs(), ab)
-    assert d.counts == {"added": int((m["_merge"] == "right_only").sum()),
-                        "removed": int((m["_merge"] == "left_only").sum()),
-                        "changed": int(changed.sum()), "same": int((~changed).sum())}
+    assert d.counts == {
+        "added": int((m["_merge"] == "right_only").sum()),
+        "removed": int((m["_merge"] == "left_only").sum()),
+        "changed": int(changed.sum()),
+        "same": int((~changed).sum()),
+    }
     assert d.counts["removed"] > 0 and d.counts["changed"] > 0 and d.counts["added"] == 0
     assert len(d.changed) == d.counts["changed"]
     first = both[changed].sort_values(KEY).iloc[0]
-    assert (d.changed[0]["scenario"], d.changed[0]["region"], d.changed[0]["variable"], d.changed[0]["year"]) == \
-        (first["scenario"], first["region"], first["variable"], first["year"])
+    assert (d.changed[0]["scenario"], d.changed[0]["region"], d.changed[0]["variable"], d.changed[0]["year"]) == (
+        first["scenario"],
+        first["region"],
+        first["variable"],
+        first["year"],
+    )
     assert d.changed[0]["delta"] == pytest.approx(first["value_b"] - first["value_a"])
     # The reverse direction swaps added and removed.
     r = diff(db, 4, 2, rel, ab, limit=5)
@@ -252,7 +294,10 @@ def test_diff_refuses_rejected_and_unknown_submissions(db) -> None:
 def test_submissions_lists_status_and_versions(db) -> None:
     subs = submissions(db)
     assert [(s["id"], s["model"], s["status"], s["version"]) for s in subs] == [
-        (1, "Ferrow", "accepted", 1), (2, "Halvik", "accepted", 1), (3, "Vossel", "rejected", None),
-        (4, "Halvik", "accepted", 2)]
+        (1, "Ferrow", "accepted", 1),
+        (2, "Halvik", "accepted", 1),
+        (3, "Vossel", "rejected", None),
+        (4, "Halvik", "accepted", 2),
+    ]
     assert subs[1]["current_scenarios"] == ["drift"] and subs[3]["current_scenarios"] == ["act-firm", "wait-firm"]
     assert [f["name"] for f in subs[0]["files"]] == ["ferrow.csv", "ferrow-scenarios.csv"]

@@ -46,8 +46,9 @@ def load_scenarios(con: duckdb.DuckDBPyConnection, rows: list[tuple[str, str, st
         con.executemany("INSERT INTO checked_scenarios VALUES (?, ?, ?)", rows)
 
 
-def indicators(con: duckdb.DuckDBPyConnection, table: str = "computed_indicators",
-               models: bool = False) -> dict[tuple, float | None]:
+def indicators(
+    con: duckdb.DuckDBPyConnection, table: str = "computed_indicators", models: bool = False
+) -> dict[tuple, float | None]:
     """{([model,] scenario, region, kind, variable, year_from, year_to): value}; checks that keys are unique."""
     got = con.execute(
         f"SELECT scenario, region, kind, variable, year_from, year_to, value, model FROM {table}"
@@ -87,8 +88,13 @@ IRREGULAR: Points = {2020: 3.0, 2023: 7.5, 2030: -2.0, 2047: 4.25, 2050: 4.0, 21
 
 
 def test_annual_interpolation_matches_numpy_interp(con, core):
-    load_rows(con, [("M", "S", "World", "population", "million", IRREGULAR),
-                    ("M", "S", "World", "energy.final", "EJ/yr", {2025: 1.0, 2060: 8.0})])
+    load_rows(
+        con,
+        [
+            ("M", "S", "World", "population", "million", IRREGULAR),
+            ("M", "S", "World", "energy.final", "EJ/yr", {2025: 1.0, 2060: 8.0}),
+        ],
+    )
     load_scenarios(con, [("M", "S", None)])
     periods = [("value", y, y) for y in (2020, 2030, 2050, 2100)]
     selection = [("value", "population", "million", 1.0), ("value", "energy.final", "EJ/yr", 1.0)]
@@ -97,7 +103,8 @@ def test_annual_interpolation_matches_numpy_interp(con, core):
         for variable, pts in (("population", IRREGULAR), ("energy.final", {2025: 1.0, 2060: 8.0})):
             got = con.execute(
                 f"SELECT a.year, a.value FROM {t.annual} a JOIN {t.series} s USING (sid) WHERE s.variable = ?"
-                " ORDER BY a.year", [variable]
+                " ORDER BY a.year",
+                [variable],
             ).fetchall()
             xp, fp = list(pts), list(pts.values())
             years = np.array([y for y, _ in got])
@@ -124,8 +131,15 @@ def test_interpolation_property_matches_numpy_interp(pts):
     try:
         load_rows(c, [("M", "S", "World", "population", "million", pts)])
         load_scenarios(c, [])
-        t = prepare(c, "checked", "checked_scenarios", [("value", "population", "million", 1.0)],
-                    [("value", 2000, 2000), ("value", 2050, 2050)], 2000, 5.0)
+        t = prepare(
+            c,
+            "checked",
+            "checked_scenarios",
+            [("value", "population", "million", 1.0)],
+            [("value", 2000, 2000), ("value", 2050, 2050)],
+            2000,
+            5.0,
+        )
         got = c.execute(f"SELECT year, value FROM {t.annual} ORDER BY year").fetchall()
         xp = sorted(pts)
         fp = [pts[y] for y in xp]
@@ -139,9 +153,11 @@ def test_interpolation_property_matches_numpy_interp(pts):
 def test_value_at_base_and_milestones(con, core):
     pts = {2015: 10.0, 2025: 20.0, 2040: 5.0, 2060: 65.0, 2100: 65.0}
     late = {2035: 1.0, 2045: 2.0}
-    got = compute(con, years_contract(core, 2020, (2030, 2050, 2100)),
-                  [("M", "S", "World", "energy.primary", "EJ/yr", pts),
-                   ("M", "S", "World", "energy.final", "EJ/yr", late)])
+    got = compute(
+        con,
+        years_contract(core, 2020, (2030, 2050, 2100)),
+        [("M", "S", "World", "energy.primary", "EJ/yr", pts), ("M", "S", "World", "energy.final", "EJ/yr", late)],
+    )
     for y in (2020, 2030, 2050, 2100):
         # reference: numpy.interp at years that are not reported
         want = np.interp(y, list(pts), list(pts.values()))
@@ -153,11 +169,15 @@ def test_value_at_base_and_milestones(con, core):
 
 # ---------------------------------------------------------------------------------------------- rates
 
+
 def test_cagr_reproduces_published_ghg_growth(con, core):
     # IPCC AR6 WGIII SPM B.1.1: global net GHG emissions in 2019 were about 12 % higher than in 2010 (59 vs ~53 Gt
     # CO2-eq); SPM B.1 / FAQ 2.1: average growth 1.3 %/yr over 2010-2019. 53 -> 59.36 is +12 %.
-    got = compute(con, years_contract(core, 2010, (2019,)),
-                  [("M", "S", "World", "emissions.ghg", "Mt CO2e/yr", {2010: 53_000.0, 2019: 59_360.0})])
+    got = compute(
+        con,
+        years_contract(core, 2010, (2019,)),
+        [("M", "S", "World", "emissions.ghg", "Mt CO2e/yr", {2010: 53_000.0, 2019: 59_360.0})],
+    )
     cagr = got[("S", "World", "rate_cagr", "emissions.ghg", 2010, 2019)]
     assert cagr == pytest.approx((1.12 ** (1 / 9) - 1) * 100, rel=1e-9)  # derived: 1.267 %/yr
     assert abs(cagr - 1.3) < 0.1  # published 1.3 %/yr; rates from rounded levels match to ~0.1 (reference-values)
@@ -168,8 +188,9 @@ def test_cagr_reproduces_published_ghg_growth(con, core):
 
 def test_rates_over_every_pair(con, core):
     pts = {2020: 50.0, 2025: 61.0, 2040: 70.0, 2050: 90.0, 2070: 80.0, 2100: 140.0}
-    got = compute(con, years_contract(core, 2020, (2030, 2050, 2100)),
-                  [("M", "S", "R1", "gdp.mer", "billion USD_2015/yr", pts)])
+    got = compute(
+        con, years_contract(core, 2020, (2030, 2050, 2100)), [("M", "S", "R1", "gdp.mer", "billion USD_2015/yr", pts)]
+    )
     pairs = {(k[4], k[5]) for k in got if k[2] == "rate_cagr"}
     assert pairs == {(2020, 2030), (2030, 2050), (2050, 2100), (2020, 2050), (2020, 2100)}
     v = {y: float(np.interp(y, list(pts), list(pts.values()))) for y in (2020, 2030, 2050, 2100)}
@@ -178,21 +199,26 @@ def test_rates_over_every_pair(con, core):
         want = (np.power(v[y1] / v[y0], 1 / (y1 - y0)) - 1) * 100
         assert got[("S", "R1", "rate_cagr", "gdp.mer", y0, y1)] == pytest.approx(want, rel=1e-10)
         assert got[("S", "R1", "rate_linear", "gdp.mer", y0, y1)] == pytest.approx(
-            (v[y1] - v[y0]) / (v[y0] * (y1 - y0)) * 100, rel=1e-10)
+            (v[y1] - v[y0]) / (v[y0] * (y1 - y0)) * 100, rel=1e-10
+        )
 
 
 def test_rates_null_where_undefined(con, core):
     c = years_contract(core, 2020, (2030, 2050))
-    got = compute(con, c, [
-        ("M", "S", "World", "emissions.co2", "Mt CO2/yr", {2020: 0.0, 2030: 10.0, 2050: 20.0}),
-        ("M", "S", "World", "emissions.ch4", "Mt CH4/yr", {2020: -4.0, 2030: 2.0, 2050: 0.0}),
-    ])
+    got = compute(
+        con,
+        c,
+        [
+            ("M", "S", "World", "emissions.co2", "Mt CO2/yr", {2020: 0.0, 2030: 10.0, 2050: 20.0}),
+            ("M", "S", "World", "emissions.ch4", "Mt CH4/yr", {2020: -4.0, 2030: 2.0, 2050: 0.0}),
+        ],
+    )
     key = ("S", "World")
-    assert got[(*key, "rate_cagr", "emissions.co2", 2020, 2030)] is None          # v0 = 0
-    assert got[(*key, "rate_linear", "emissions.co2", 2020, 2030)] is None        # v0 = 0
+    assert got[(*key, "rate_cagr", "emissions.co2", 2020, 2030)] is None  # v0 = 0
+    assert got[(*key, "rate_linear", "emissions.co2", 2020, 2030)] is None  # v0 = 0
     assert got[(*key, "rate_cagr", "emissions.co2", 2030, 2050)] == pytest.approx((2 ** (1 / 20) - 1) * 100)
-    assert got[(*key, "rate_cagr", "emissions.ch4", 2020, 2030)] is None          # v0 < 0
-    assert got[(*key, "rate_cagr", "emissions.ch4", 2030, 2050)] is None          # v1 = 0
+    assert got[(*key, "rate_cagr", "emissions.ch4", 2020, 2030)] is None  # v0 < 0
+    assert got[(*key, "rate_cagr", "emissions.ch4", 2030, 2050)] is None  # v1 = 0
     # linear rate with a negative start follows the formula: (2 - -4) / (-4 * 10) * 100 = -15
     assert got[(*key, "rate_linear", "emissions.ch4", 2020, 2030)] == pytest.approx(-15.0)
     assert got[(*key, "rate_linear", "emissions.ch4", 2030, 2050)] == pytest.approx(-5.0)
@@ -204,8 +230,11 @@ def test_cagr_chain_reconstructs_the_long_rate(core, values):
     c = duckdb.connect()
     try:
         contract = years_contract(core, 2020, (2030, 2050, 2100))
-        got = compute(c, contract, [("M", "S", "World", "population", "million", dict(zip(
-            (2020, 2030, 2050, 2100), values, strict=True)))])
+        got = compute(
+            c,
+            contract,
+            [("M", "S", "World", "population", "million", dict(zip((2020, 2030, 2050, 2100), values, strict=True)))],
+        )
         r = {(k[4], k[5]): v / 100 for k, v in got.items() if k[2] == "rate_cagr"}
         chained = (1 + r[(2020, 2030)]) ** 10 * (1 + r[(2030, 2050)]) ** 20 * (1 + r[(2050, 2100)]) ** 50
         assert chained == pytest.approx((1 + r[(2020, 2100)]) ** 80, rel=1e-9)
@@ -218,14 +247,19 @@ def test_cagr_chain_reconstructs_the_long_rate(core, values):
 
 # ---------------------------------------------------------------------------------------------- cumulative
 
+
 def test_cumulative_matches_scipy_trapezoid(con, core):
     co2 = {2020: 40_000.0, 2025: 38_000.0, 2035: 20_000.0, 2050: -2_000.0, 2070: -6_000.0, 2100: -1_000.0}
     n2o = {2020: 9_000.0, 2040: 7_000.0, 2050: 6_500.0, 2100: 5_000.0}
-    got = compute(con, years_contract(core, 2020, (2030, 2050, 2100)), [
-        ("M", "S", "World", "emissions.co2", "Mt CO2/yr", co2),
-        ("M", "S", "World", "emissions.n2o", "kt N2O/yr", n2o),
-        ("M", "S", "World", "emissions.ch4", "Mt CH4/yr", {2025: 300.0, 2100: 100.0}),
-    ])
+    got = compute(
+        con,
+        years_contract(core, 2020, (2030, 2050, 2100)),
+        [
+            ("M", "S", "World", "emissions.co2", "Mt CO2/yr", co2),
+            ("M", "S", "World", "emissions.n2o", "kt N2O/yr", n2o),
+            ("M", "S", "World", "emissions.ch4", "Mt CH4/yr", {2025: 300.0, 2100: 100.0}),
+        ],
+    )
     for variable, pts, per_gt in (("emissions.co2", co2, 1e3), ("emissions.n2o", n2o, 1e6)):
         for m in (2030, 2050, 2100):
             years = np.arange(2020, m + 1)
@@ -259,38 +293,50 @@ def pairs_spec(tmp_path_factory):
     return spec
 
 
-@given(values=st.lists(st.floats(-5e4, 5e4, allow_nan=False), min_size=7, max_size=7),
-       extra_years=st.lists(st.integers(2021, 2099), min_size=0, max_size=3, unique=True))
+@given(
+    values=st.lists(st.floats(-5e4, 5e4, allow_nan=False), min_size=7, max_size=7),
+    extra_years=st.lists(st.integers(2021, 2099), min_size=0, max_size=3, unique=True),
+)
 def test_cumulative_is_additive_over_consecutive_periods(core, pairs_spec, values, extra_years):
     c = duckdb.connect()
     try:
         years = sorted({2020, 2100, *extra_years, 2033, 2061})
         pts = dict(zip(years, values, strict=False))
-        got = compute(c, years_contract(core, 2020, (2030, 2050, 2100)),
-                      [("M", "S", "World", "emissions.co2", "Mt CO2/yr", pts)], definitions=pairs_spec)
+        got = compute(
+            c,
+            years_contract(core, 2020, (2030, 2050, 2100)),
+            [("M", "S", "World", "emissions.co2", "Mt CO2/yr", pts)],
+            definitions=pairs_spec,
+        )
         cum = {(k[4], k[5]): v for k, v in got.items()}
         assert cum[(2020, 2030)] + cum[(2030, 2050)] + cum[(2050, 2100)] == pytest.approx(
-            cum[(2020, 2100)], rel=1e-9, abs=1e-9)
+            cum[(2020, 2100)], rel=1e-9, abs=1e-9
+        )
         xs = np.arange(2020, 2101)
         assert cum[(2020, 2100)] == pytest.approx(
-            trapezoid(np.interp(xs, list(pts), list(pts.values())), xs) / 1e3, rel=1e-9, abs=1e-9)  # scipy reference
+            trapezoid(np.interp(xs, list(pts), list(pts.values())), xs) / 1e3, rel=1e-9, abs=1e-9
+        )  # scipy reference
     finally:
         c.close()
 
 
 # ---------------------------------------------------------------------------------------------- timing
 
+
 def test_net_zero_year(con, core):
     cases = {
-        "emissions.co2": {2020: 40.0, 2030: 30.0, 2050: 10.0, 2060: -10.0, 2100: -20.0},   # 2055 by hand
-        "emissions.co2.fossil": {2020: 35.0, 2050: -5.0, 2100: -5.0},                       # 2020 + 35/40*30
-        "emissions.co2.land": {2015: -1.0, 2020: 2.0, 2100: 3.0},                           # first value <= 0
-        "emissions.co2.fossil.power": {2020: 10.0, 2040: 0.0, 2060: 5.0, 2100: -5.0},       # touches 0 at 2040
-        "emissions.co2.fossil.other": {2020: 10.0, 2100: 0.5},                              # never
-        "emissions.ghg": {2020: 50.0, 2045: -5.0, 2060: 20.0, 2080: -40.0},                 # first of two crossings
+        "emissions.co2": {2020: 40.0, 2030: 30.0, 2050: 10.0, 2060: -10.0, 2100: -20.0},  # 2055 by hand
+        "emissions.co2.fossil": {2020: 35.0, 2050: -5.0, 2100: -5.0},  # 2020 + 35/40*30
+        "emissions.co2.land": {2015: -1.0, 2020: 2.0, 2100: 3.0},  # first value <= 0
+        "emissions.co2.fossil.power": {2020: 10.0, 2040: 0.0, 2060: 5.0, 2100: -5.0},  # touches 0 at 2040
+        "emissions.co2.fossil.other": {2020: 10.0, 2100: 0.5},  # never
+        "emissions.ghg": {2020: 50.0, 2045: -5.0, 2060: 20.0, 2080: -40.0},  # first of two crossings
     }
-    got = compute(con, years_contract(core, 2020, (2030, 2050, 2100)),
-                  [("M", "S", "World", v, core.variables[v].unit, pts) for v, pts in cases.items()])
+    got = compute(
+        con,
+        years_contract(core, 2020, (2030, 2050, 2100)),
+        [("M", "S", "World", v, core.variables[v].unit, pts) for v, pts in cases.items()],
+    )
     nz = {k[3]: (v, k[4], k[5]) for k, v in got.items() if k[2] == "net_zero_year"}
     assert nz["emissions.co2"] == (2055.0, 2020, 2100)
     assert nz["emissions.co2.fossil"][0] == pytest.approx(2046.25)
@@ -313,10 +359,14 @@ def test_net_zero_year(con, core):
 def test_peak_year_and_value(con, core):
     pts = {2010: 5.0, 2020: 7.0, 2030: 7.0, 2040: 6.0, 2100: 1.0}
     rising = {2020: 1.0, 2050: 3.0, 2100: 9.5}
-    got = compute(con, years_contract(core, 2020, (2030, 2050, 2100)), [
-        ("M", "S", "World", "emissions.ch4", "Mt CH4/yr", pts),
-        ("M", "S", "World", "emissions.n2o", "kt N2O/yr", rising),
-    ])
+    got = compute(
+        con,
+        years_contract(core, 2020, (2030, 2050, 2100)),
+        [
+            ("M", "S", "World", "emissions.ch4", "Mt CH4/yr", pts),
+            ("M", "S", "World", "emissions.n2o", "kt N2O/yr", rising),
+        ],
+    )
     for variable, series in (("emissions.ch4", pts), ("emissions.n2o", rising)):
         xs, vs = list(series), list(series.values())
         first, last = min(xs), max(xs)
@@ -331,19 +381,28 @@ def test_peak_year_and_value(con, core):
 
 # ---------------------------------------------------------------------------------------------- costs
 
+
 def test_loss_pct_against_reference_from_another_table(con, core):
     contract = years_contract(core, 2020, (2030, 2050, 2100))
     ref = {2020: 100.0, 2030: 130.0, 2040: 160.0, 2060: 220.0, 2100: 400.0}
     scen = {2020: 100.0, 2030: 127.0, 2050: 180.0, 2100: 380.0}
     unit = "billion USD_2015/yr"
     # the stored reference lives in another table; the new submission's rows in `checked`
-    load_rows(con, [("M", "base", r, "gdp.mer", unit, ref) for r in ("World", "R1")]
-              + [("M2", "strict", "World", "gdp.mer", unit, {2020: 1.0, 2030: 1.0, 2050: 1.0, 2100: 1.0})],
-              table="stored")
-    load_rows(con, [("M", "strict", "World", "gdp.mer", unit, scen),
-                    ("M", "strict", "R2", "gdp.mer", unit, scen),
-                    ("M", "loose", "World", "gdp.mer", unit, scen),
-                    ("M2", "other", "World", "gdp.mer", unit, scen)])
+    load_rows(
+        con,
+        [("M", "base", r, "gdp.mer", unit, ref) for r in ("World", "R1")]
+        + [("M2", "strict", "World", "gdp.mer", unit, {2020: 1.0, 2030: 1.0, 2050: 1.0, 2100: 1.0})],
+        table="stored",
+    )
+    load_rows(
+        con,
+        [
+            ("M", "strict", "World", "gdp.mer", unit, scen),
+            ("M", "strict", "R2", "gdp.mer", unit, scen),
+            ("M", "loose", "World", "gdp.mer", unit, scen),
+            ("M2", "other", "World", "gdp.mer", unit, scen),
+        ],
+    )
     con.execute("CREATE TEMP VIEW everything AS SELECT * FROM checked UNION ALL SELECT * FROM stored")
     load_scenarios(con, [("M", "strict", "base"), ("M", "loose", None), ("M2", "other", "strict")])
     compute_indicators(con, contract, data="everything")
@@ -352,9 +411,9 @@ def test_loss_pct_against_reference_from_another_table(con, core):
         r, s = np.interp(m, list(ref), list(ref.values())), np.interp(m, list(scen), list(scen.values()))
         # reference: the definition evaluated with numpy on numpy.interp values
         assert got[("M", "strict", "World", "loss_pct", "gdp.mer", m, m)] == pytest.approx((r - s) / r * 100, rel=1e-12)
-        assert got[("M", "strict", "R2", "loss_pct", "gdp.mer", m, m)] is None      # reference has no R2
-        assert got[("M", "loose", "World", "loss_pct", "gdp.mer", m, m)] is None    # no reference attribute
-        assert got[("M", "base", "World", "loss_pct", "gdp.mer", m, m)] is None     # the reference itself
+        assert got[("M", "strict", "R2", "loss_pct", "gdp.mer", m, m)] is None  # reference has no R2
+        assert got[("M", "loose", "World", "loss_pct", "gdp.mer", m, m)] is None  # no reference attribute
+        assert got[("M", "base", "World", "loss_pct", "gdp.mer", m, m)] is None  # the reference itself
         # M2/other names "strict", which exists only in model M2 as stored constant 1.0 -> uses that, not M's
         assert got[("M2", "other", "World", "loss_pct", "gdp.mer", m, m)] == pytest.approx((1.0 - s) / 1.0 * 100)
     assert units_of(con)[("loss_pct", "gdp.mer")] == {"%"}
@@ -369,10 +428,17 @@ def test_growth_reduction_pp(con, core):
     scen = {y: 100 * 1.0194 ** (y - 2020) for y in years}
     dip = {2020: 100.0, 2030: 0.0, 2050: 150.0, 2100: 300.0}
     unit = "billion USD_2015/yr"
-    got = compute(con, contract, [
-        ("M", "ref", "World", "consumption", unit, ref), ("M", "pol", "World", "consumption", unit, scen),
-        ("M", "ref", "R1", "consumption", unit, ref), ("M", "pol", "R1", "consumption", unit, dip),
-    ], scenarios=[("M", "ref", None), ("M", "pol", "ref")])
+    got = compute(
+        con,
+        contract,
+        [
+            ("M", "ref", "World", "consumption", unit, ref),
+            ("M", "pol", "World", "consumption", unit, scen),
+            ("M", "ref", "R1", "consumption", unit, ref),
+            ("M", "pol", "R1", "consumption", unit, dip),
+        ],
+        scenarios=[("M", "ref", None), ("M", "pol", "ref")],
+    )
     for m in (2030, 2050, 2100):
         n = m - 2020
         # reference: the definition with numpy, CAGR(reference) - CAGR(scenario) in pp/yr
@@ -380,7 +446,7 @@ def test_growth_reduction_pp(con, core):
         assert got[("pol", "World", "growth_reduction_pp", "consumption", 2020, m)] == pytest.approx(want, rel=1e-9)
         assert want == pytest.approx(0.06, abs=1e-9)
         assert got[("ref", "World", "growth_reduction_pp", "consumption", 2020, m)] is None  # no reference
-    assert got[("pol", "R1", "growth_reduction_pp", "consumption", 2020, 2030)] is None    # CAGR undefined (v1 = 0)
+    assert got[("pol", "R1", "growth_reduction_pp", "consumption", 2020, 2030)] is None  # CAGR undefined (v1 = 0)
     assert got[("pol", "R1", "growth_reduction_pp", "consumption", 2020, 2050)] is not None
     assert units_of(con)[("growth_reduction_pp", "consumption")] == {"pp/yr"}
 
@@ -388,10 +454,14 @@ def test_growth_reduction_pp(con, core):
 def test_npv_matches_numpy_financial(con, core):
     contract = years_contract(core, 2020, (2030, 2050, 2100))
     pts = {2020: 10.0, 2025: 40.0, 2030: 55.0, 2040: 120.0, 2050: 90.0, 2100: 300.0}
-    got = compute(con, contract, [
-        ("M", "S", "World", "cost.abatement", "billion USD_2015/yr", pts),
-        ("M", "S", "R1", "cost.abatement", "billion USD_2015/yr", {2025: 1.0, 2100: 2.0}),
-    ])
+    got = compute(
+        con,
+        contract,
+        [
+            ("M", "S", "World", "cost.abatement", "billion USD_2015/yr", pts),
+            ("M", "S", "R1", "cost.abatement", "billion USD_2015/yr", {2025: 1.0, 2100: 2.0}),
+        ],
+    )
     rate = contract.discount_rate / 100
     assert rate == 0.05  # core contract default; 5 %/yr as in AR4 WGIII Fig. 3.25 note
     for m in (2030, 2050, 2100):
@@ -413,6 +483,7 @@ def test_npv_docstring_example_of_numpy_financial(con, core):
 
 # ---------------------------------------------------------------------------------------------- the table itself
 
+
 def test_output_table_shape_and_helpers_dropped(con, core):
     got = compute(con, core, [("M", "S", "World", "emissions.co2", "Mt CO2/yr", {2020: 1.0, 2100: 2.0})])
     assert got
@@ -421,8 +492,10 @@ def test_output_table_shape_and_helpers_dropped(con, core):
     described = con.execute('DESCRIBE "other target"').fetchall()
     assert [(r[0], r[1]) for r in described] == list(COLUMNS)
     assert count == len(got)
-    left = con.execute("SELECT table_name FROM duckdb_tables() WHERE table_name LIKE '_milepost_indicators_%'"
-                       " UNION ALL SELECT view_name FROM duckdb_views() WHERE view_name LIKE '_milepost_%'").fetchall()
+    left = con.execute(
+        "SELECT table_name FROM duckdb_tables() WHERE table_name LIKE '_milepost_indicators_%'"
+        " UNION ALL SELECT view_name FROM duckdb_views() WHERE view_name LIKE '_milepost_%'"
+    ).fetchall()
     assert left == []
 
 
@@ -455,8 +528,9 @@ def test_null_and_non_finite_values_are_bridged(con, core):
 
 
 def test_conflicting_references_raise(con, core):
-    load_rows(con, [("M", s, "World", "gdp.mer", "billion USD_2015/yr", {2020: 1.0, 2100: 2.0})
-                    for s in ("a", "b", "c")])
+    load_rows(
+        con, [("M", s, "World", "gdp.mer", "billion USD_2015/yr", {2020: 1.0, 2100: 2.0}) for s in ("a", "b", "c")]
+    )
     load_scenarios(con, [("M", "c", "a"), ("M", "c", "b")])
     with pytest.raises(IndicatorDataError, match="more than one reference"):
         compute_indicators(con, core)

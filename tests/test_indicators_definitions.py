@@ -41,7 +41,12 @@ def test_core_plan(core):
     assert "emissions.ch4" not in by_kind["net_zero_year"] and "emissions.co2" in by_kind["net_zero_year"]
     assert p.skipped == ()
     assert {(y0, y1) for k, y0, y1 in p.periods if k == "rate_cagr"} == {
-        (2020, 2030), (2030, 2050), (2050, 2100), (2020, 2050), (2020, 2100)}
+        (2020, 2030),
+        (2030, 2050),
+        (2050, 2100),
+        (2020, 2050),
+        (2020, 2100),
+    }
     assert not [row for row in p.periods if row[0] in ("net_zero_year", "peak_year", "peak_value")]
 
 
@@ -52,7 +57,12 @@ def test_period_shapes():
     # base -> first milestone is both "first pair" and "base -> milestone": listed once
     assert periods_for("pairs", 2020, (2030,)) == ((2020, 2030),)
     assert periods_for("pairs", 2020, (2100, 2030, 2050)) == (
-        (2020, 2030), (2020, 2050), (2020, 2100), (2030, 2050), (2050, 2100))
+        (2020, 2030),
+        (2020, 2050),
+        (2020, 2100),
+        (2030, 2050),
+        (2050, 2100),
+    )
     assert periods_for("reported", 2020, (2030,)) == ()
     with pytest.raises(IndicatorSpecError):
         periods_for("decades", 2020, (2030,))
@@ -88,9 +98,12 @@ def test_bad_definitions(tmp_path, core, text, message):
 
 def test_unfit_units_are_skipped_not_guessed(tmp_path, core):
     path = tmp_path / "indicators.toml"
-    path.write_text('[cumulative]\nvariables = ["population", "emissions.co2"]\nperiods = "from_base"\n'
-                    'unit = "Gt {gas}"\n[value]\nvariables = ["energy.final"]\nperiods = "points"\n'
-                    'unit = "Mt CO2/yr"\n', encoding="utf-8")
+    path.write_text(
+        '[cumulative]\nvariables = ["population", "emissions.co2"]\nperiods = "from_base"\n'
+        'unit = "Gt {gas}"\n[value]\nvariables = ["energy.final"]\nperiods = "points"\n'
+        'unit = "Mt CO2/yr"\n',
+        encoding="utf-8",
+    )
     p = plan(core, path)
     assert [row[:2] for row in p.selection] == [("cumulative", "emissions.co2")]
     assert {(k, v) for k, v, _ in p.skipped} == {("cumulative", "population"), ("value", "energy.final")}
@@ -98,21 +111,28 @@ def test_unfit_units_are_skipped_not_guessed(tmp_path, core):
 
 def test_level_units_convert_with_the_contract_registry(tmp_path, core):
     path = tmp_path / "indicators.toml"
-    path.write_text('[value]\nvariables = ["emissions.co2", "energy.final"]\nperiods = "points"\n'
-                    'unit = "Gt CO2/yr"\n[peak_value]\nvariables = ["emissions.co2"]\nperiods = "reported"\n'
-                    'unit = "Gt CO2/yr"\n', encoding="utf-8")
+    path.write_text(
+        '[value]\nvariables = ["emissions.co2", "energy.final"]\nperiods = "points"\n'
+        'unit = "Gt CO2/yr"\n[peak_value]\nvariables = ["emissions.co2"]\nperiods = "reported"\n'
+        'unit = "Gt CO2/yr"\n',
+        encoding="utf-8",
+    )
     p = plan(core, path)
     assert ("value", "emissions.co2", "Gt CO2/yr", pytest.approx(1e-3)) in p.selection
     con = duckdb.connect()
     try:
-        con.execute("CREATE TEMP TABLE checked AS SELECT 'M' AS model, 'S' AS scenario, 'World' AS region,"
-                    " 'emissions.co2' AS variable, 'Mt CO2/yr' AS unit, y::INTEGER AS year, 40000.0 - 100 * (y - 2020)"
-                    " AS value FROM range(2020, 2101, 10) t(y)")
-        con.execute("CREATE TEMP TABLE checked_scenarios AS SELECT 'M' AS model, 'S' AS scenario,"
-                    " NULL::VARCHAR AS reference")
+        con.execute(
+            "CREATE TEMP TABLE checked AS SELECT 'M' AS model, 'S' AS scenario, 'World' AS region,"
+            " 'emissions.co2' AS variable, 'Mt CO2/yr' AS unit, y::INTEGER AS year, 40000.0 - 100 * (y - 2020)"
+            " AS value FROM range(2020, 2101, 10) t(y)"
+        )
+        con.execute(
+            "CREATE TEMP TABLE checked_scenarios AS SELECT 'M' AS model, 'S' AS scenario, NULL::VARCHAR AS reference"
+        )
         compute_indicators(con, core, definitions=path)
-        got = dict(((k, y), v) for k, y, v in con.execute(
-            "SELECT kind, year_to, value FROM computed_indicators").fetchall())
+        got = dict(
+            ((k, y), v) for k, y, v in con.execute("SELECT kind, year_to, value FROM computed_indicators").fetchall()
+        )
     finally:
         con.close()
     assert got[("value", 2050)] == pytest.approx(37.0)  # 37,000 Mt = 37 Gt (SI prefixes)
@@ -133,12 +153,17 @@ def test_demo_contract_indicators(demo_contract):
             " (VALUES ('emissions.co2', 'Mt CO2/yr', 9000.0), ('emissions.n2o', 'kt N2O/yr', 2000.0),"
             " ('gdp.mer', 'billion USD_2015/yr', 50000.0), ('consumption', 'billion USD_2015/yr', 30000.0),"
             " ('cost.abatement', 'billion USD_2015/yr', 100.0), ('population', 'million', 900.0)) c(v, u, base),"
-            " (SELECT unnest(?::INTEGER[]) AS y)", [years])
-        con.execute("CREATE TEMP TABLE checked_scenarios AS SELECT * FROM (VALUES ('Tarn', 'steady', NULL),"
-                    " ('Tarn', 'brisk', 'steady')) t(model, scenario, reference)")
+            " (SELECT unnest(?::INTEGER[]) AS y)",
+            [years],
+        )
+        con.execute(
+            "CREATE TEMP TABLE checked_scenarios AS SELECT * FROM (VALUES ('Tarn', 'steady', NULL),"
+            " ('Tarn', 'brisk', 'steady')) t(model, scenario, reference)"
+        )
         n = compute_indicators(con, c)
-        rows = con.execute("SELECT model, scenario, region, kind, variable, year_from, year_to, value, unit"
-                           " FROM computed_indicators").fetchall()
+        rows = con.execute(
+            "SELECT model, scenario, region, kind, variable, year_from, year_to, value, unit FROM computed_indicators"
+        ).fetchall()
     finally:
         con.close()
     assert n == len(rows)
@@ -174,15 +199,19 @@ def test_plan_on_a_contract_without_milestones(core):
 def test_definitions_with_no_periods(tmp_path, core):
     # only a kind over the reported range: no period endpoints at all
     path = tmp_path / "indicators.toml"
-    path.write_text('[net_zero_year]\nvariables = ["emissions.co2"]\nperiods = "reported"\nunit = "year"\n',
-                    encoding="utf-8")
+    path.write_text(
+        '[net_zero_year]\nvariables = ["emissions.co2"]\nperiods = "reported"\nunit = "year"\n', encoding="utf-8"
+    )
     con = duckdb.connect()
     try:
-        con.execute("CREATE TEMP TABLE checked AS SELECT 'M' AS model, 'S' AS scenario, 'World' AS region,"
-                    " 'emissions.co2' AS variable, 'Mt CO2/yr' AS unit, (2020 + 10 * i)::INTEGER AS year,"
-                    " 5.0 - i AS value FROM range(9) t(i)")
-        con.execute("CREATE TEMP TABLE checked_scenarios AS SELECT 'M' AS model, 'S' AS scenario,"
-                    " NULL::VARCHAR AS reference")
+        con.execute(
+            "CREATE TEMP TABLE checked AS SELECT 'M' AS model, 'S' AS scenario, 'World' AS region,"
+            " 'emissions.co2' AS variable, 'Mt CO2/yr' AS unit, (2020 + 10 * i)::INTEGER AS year,"
+            " 5.0 - i AS value FROM range(9) t(i)"
+        )
+        con.execute(
+            "CREATE TEMP TABLE checked_scenarios AS SELECT 'M' AS model, 'S' AS scenario, NULL::VARCHAR AS reference"
+        )
         assert compute_indicators(con, core, definitions=path) == 1
         got = con.execute("SELECT kind, year_from, year_to, value, unit FROM computed_indicators").fetchall()
     finally:

@@ -32,10 +32,17 @@ def test_full_scale_is_set_based_and_correct(core):
         for model, scenario, region in (("M0", "S1", "R0"), ("M7", "S299", "R5")):
             pts = con.execute(
                 "SELECT year, value FROM checked WHERE model = ? AND scenario = ? AND region = ?"
-                " AND variable = 'emissions.co2' ORDER BY year", [model, scenario, region]).fetchall()
-            got = dict(((k, y0, y1), v) for k, y0, y1, v in con.execute(
-                "SELECT kind, year_from, year_to, value FROM computed_indicators WHERE model = ? AND scenario = ?"
-                " AND region = ? AND variable = 'emissions.co2'", [model, scenario, region]).fetchall())
+                " AND variable = 'emissions.co2' ORDER BY year",
+                [model, scenario, region],
+            ).fetchall()
+            got = dict(
+                ((k, y0, y1), v)
+                for k, y0, y1, v in con.execute(
+                    "SELECT kind, year_from, year_to, value FROM computed_indicators WHERE model = ? AND scenario = ?"
+                    " AND region = ? AND variable = 'emissions.co2'",
+                    [model, scenario, region],
+                ).fetchall()
+            )
             xp, fp = [y for y, _ in pts], [v for _, v in pts]
             years = np.arange(2020, 2101)
             # references: numpy.interp and scipy.integrate.trapezoid on the annual series (Mt -> Gt: / 1000)

@@ -66,8 +66,12 @@ def test_accepted_submission_is_stored_with_its_provenance(tmp_path: Path, frame
     assert [f["name"] for f in json.loads(sub["files"])] == ["halvik.csv", "halvik-scenarios.csv"]
     assert sub["sha256"] == hashlib.sha256("\n".join(sorted(digests)).encode()).hexdigest() == res.sha256
     assert (sub["contract_name"], sub["contract_hash"]) == (contract.name, contract.hash)
-    assert (sub["milepost_version"], sub["submitted_by"], sub["note"], sub["status"]) == \
-        (__version__, "team-h", "first run", "accepted")
+    assert (sub["milepost_version"], sub["submitted_by"], sub["note"], sub["status"]) == (
+        __version__,
+        "team-h",
+        "first run",
+        "accepted",
+    )
     assert (sub["rows"], sub["errors"], sub["warnings"]) == (len(d), 0, 0)
     # The stored rows are the file's rows (read back independently with pandas), values unchanged.
     stored = query(db, "SELECT model, scenario, region, variable, unit, year, value FROM current_data")
@@ -92,8 +96,11 @@ def test_rejected_submission_keeps_findings_and_none_of_its_rows(tmp_path: Path,
     assert res.counts["error"] > 0 and "no rows were stored" in res.reason
     sub = query(db, "SELECT status, rows, errors FROM submissions WHERE id = ?", [res.submission_id]).iloc[0]
     assert (sub["status"], sub["rows"], sub["errors"]) == ("rejected", 0, res.counts["error"])
-    n = query(db, "SELECT count(*) AS n, count(DISTINCT rule) AS rules FROM findings WHERE submission_id = ?",
-              [res.submission_id]).iloc[0]
+    n = query(
+        db,
+        "SELECT count(*) AS n, count(DISTINCT rule) AS rules FROM findings WHERE submission_id = ?",
+        [res.submission_id],
+    ).iloc[0]
     assert n["n"] == res.counts["error"] and n["rules"] >= 2
     for table in ("data", "scenarios", "indicators"):
         assert query(db, f"SELECT count(*) AS n FROM {table}")["n"][0] == 0
@@ -107,8 +114,12 @@ def test_the_same_files_twice_is_a_no_op(tmp_path: Path, frames, contract) -> No
     assert ingest(files, db, contract).status == "accepted"
     before = (db.stat().st_ino, db.stat().st_mtime_ns, db.read_bytes())
     again = ingest(list(reversed(files)), db, contract)  # order of the files does not matter
-    assert (again.status, again.duplicate_of, again.duplicate_status, again.exit_code) == \
-        ("unchanged", 1, "accepted", 0)
+    assert (again.status, again.duplicate_of, again.duplicate_status, again.exit_code) == (
+        "unchanged",
+        1,
+        "accepted",
+        0,
+    )
     assert "already ingested as submission 1" in again.reason
     assert (db.stat().st_ino, db.stat().st_mtime_ns, db.read_bytes()) == before
     bad_data, bad_scen = demo.flawed_frames()
@@ -149,8 +160,11 @@ def test_a_new_version_supersedes_per_scenario_and_keeps_history(tmp_path: Path,
     old = query(db, "SELECT count(*) AS n FROM data WHERE submission_id = 1 AND scenario = 'act-firm'")["n"][0]
     assert old == (d1["scenario"] == "act-firm").sum()
     new_firm = d2[(d2["scenario"] == "act-firm") & (d2["variable"] == "price.carbon") & (d2["region"] == "World")]
-    shown = query(db, "SELECT year, value FROM current_data WHERE scenario = 'act-firm' AND variable = "
-                      "'price.carbon' AND region = 'World' ORDER BY year")
+    shown = query(
+        db,
+        "SELECT year, value FROM current_data WHERE scenario = 'act-firm' AND variable = "
+        "'price.carbon' AND region = 'World' ORDER BY year",
+    )
     np.testing.assert_allclose(shown["value"], new_firm.sort_values("year")["value"])
     # Replace the last scenario of submission 1: it becomes superseded, by the newest submission.
     d3 = d1[d1["scenario"] == "drift"].iloc[::-1]  # the same rows in another order: new bytes, same content
@@ -182,8 +196,10 @@ def test_loss_uses_a_reference_submitted_earlier_and_follows_its_revision(tmp_pa
     assert ingest(write(tmp_path / "a", "ref", d_ref, s_ref), db, contract).submission_id == 1
     res = ingest(write(tmp_path / "b", "pol", d_pol, s_pol), db, contract)
     assert res.submission_id == 2
-    sql = ("SELECT submission_id, region, variable, year_to AS year, value FROM current_indicators "
-           "WHERE kind = 'loss_pct' AND scenario = 'act-firm'")
+    sql = (
+        "SELECT submission_id, region, variable, year_to AS year, value FROM current_indicators "
+        "WHERE kind = 'loss_pct' AND scenario = 'act-firm'"
+    )
     got = query(db, sql)
     assert set(got["submission_id"]) == {2}
     want = losses(pd.concat([d_ref, d_pol]), "act-firm", "drift", contract.milestones)

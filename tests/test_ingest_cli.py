@@ -26,9 +26,11 @@ def subs(tmp_path_factory: pytest.TempPathFactory) -> dict[str, list[str]]:
     v2, v2_s = demo.revision_frames()
     bad, bad_s = demo.flawed_frames()
     out = {}
-    for name, d, s in (("halvik", data[pick], scen[pick_s]), ("halvik-v2", v2[v2["scenario"] == "act-firm"],
-                                                               v2_s[v2_s["scenario"] == "act-firm"]),
-                       ("vossel", bad, bad_s)):
+    for name, d, s in (
+        ("halvik", data[pick], scen[pick_s]),
+        ("halvik-v2", v2[v2["scenario"] == "act-firm"], v2_s[v2_s["scenario"] == "act-firm"]),
+        ("vossel", bad, bad_s),
+    ):
         paths = [folder / f"{name}.csv", folder / f"{name}-scenarios.csv"]
         d.to_csv(paths[0], index=False, lineterminator="\n")
         s.to_csv(paths[1], index=False, lineterminator="\n")
@@ -52,8 +54,9 @@ def test_ingest_accept_repeat_reject_and_list(tmp_path: Path, subs) -> None:
     ]
     r = run("ingest", *subs["halvik"], "--db", db, "-c", CONTRACT)
     assert r.exit_code == 0
-    assert r.stdout == (f"Unchanged: these files were already ingested as submission 1 (accepted); "
-                        f"nothing was written to {db}.\n")
+    assert r.stdout == (
+        f"Unchanged: these files were already ingested as submission 1 (accepted); nothing was written to {db}.\n"
+    )
     r = run("ingest", *subs["vossel"], "--db", db, "-c", CONTRACT, "--limit", "2")
     assert r.exit_code == 1
     lines = r.stdout.splitlines()
@@ -70,7 +73,10 @@ def test_ingest_accept_repeat_reject_and_list(tmp_path: Path, subs) -> None:
     table = r.stdout.splitlines()
     assert table[0].split()[:4] == ["id", "status", "model", "ver"]
     assert [line.split()[:4] for line in table[1:]] == [
-        ["1", "accepted", "Halvik", "v1"], ["2", "rejected", "Vossel", "-"], ["3", "accepted", "Halvik", "v2"]]
+        ["1", "accepted", "Halvik", "v1"],
+        ["2", "rejected", "Vossel", "-"],
+        ["3", "accepted", "Halvik", "v2"],
+    ]
     r = run("submissions", "--db", db, "--format", "json")
     assert [s["status"] for s in json.loads(r.stdout)] == ["accepted", "rejected", "accepted"]
 
@@ -80,8 +86,23 @@ def test_export_snapshot_and_diff_commands(tmp_path: Path, subs) -> None:
     assert run("ingest", *subs["halvik"], "--db", db, "-c", CONTRACT).exit_code == 0
     assert run("ingest", *subs["halvik-v2"], "--db", db, "-c", CONTRACT).exit_code == 0
     out = tmp_path / "d.csv"
-    r = run("export", "--db", db, "--what", "data", "--model", "Halvik", "--scenario", "drift",
-            "--region", "World", "--format", "csv", "-o", str(out))
+    r = run(
+        "export",
+        "--db",
+        db,
+        "--what",
+        "data",
+        "--model",
+        "Halvik",
+        "--scenario",
+        "drift",
+        "--region",
+        "World",
+        "--format",
+        "csv",
+        "-o",
+        str(out),
+    )
     assert r.exit_code == 0
     n = len(pd.read_csv(out))
     assert r.stderr == f"Wrote {n:,} rows to {out}.\n" and n > 0
@@ -89,8 +110,9 @@ def test_export_snapshot_and_diff_commands(tmp_path: Path, subs) -> None:
     assert r.exit_code == 0 and (tmp_path / "snap" / "manifest.json").exists()
     r = run("snapshot", str(tmp_path / "snap"), "--db", db)
     assert r.exit_code == 2
-    assert r.stderr == (f"Error: {tmp_path / 'snap'} exists and is not an empty folder; choose a new folder "
-                        "for the snapshot\n")
+    assert r.stderr == (
+        f"Error: {tmp_path / 'snap'} exists and is not an empty folder; choose a new folder for the snapshot\n"
+    )
     r = run("diff", "1", "2", "--db", db, "-c", CONTRACT, "--limit", "1")
     assert r.exit_code == 0
     lines = r.stdout.splitlines()
@@ -98,8 +120,7 @@ def test_export_snapshot_and_diff_commands(tmp_path: Path, subs) -> None:
     assert lines[1] == "Scenarios only in 1: Halvik | drift"
     r = run("diff", "1", "2", "--db", db, "-c", CONTRACT, "--common", "--format", "json")
     d = json.loads(r.stdout)
-    assert d["counts"]["removed"] == 0 and d["counts"]["changed"] > 0 and d["scenarios_only_in_a"] == \
-        ["Halvik | drift"]
+    assert d["counts"]["removed"] == 0 and d["counts"]["changed"] > 0 and d["scenarios_only_in_a"] == ["Halvik | drift"]
 
 
 def test_errors_are_one_line_with_exit_code_2(tmp_path: Path, subs) -> None:
@@ -131,9 +152,11 @@ def test_db_from_environment(tmp_path: Path, subs) -> None:
 def test_module_entry_point_exit_codes(tmp_path: Path, subs) -> None:
     db = str(tmp_path / "m.duckdb")
     base = [sys.executable, "-m", "milepost.validate"]
-    rejected = subprocess.run([*base, "ingest", *subs["vossel"], "--db", db, "-c", CONTRACT],
-                              capture_output=True, text=True, timeout=120)
+    rejected = subprocess.run(
+        [*base, "ingest", *subs["vossel"], "--db", db, "-c", CONTRACT], capture_output=True, text=True, timeout=120
+    )
     assert rejected.returncode == 1 and "Traceback" not in rejected.stderr
-    listed = subprocess.run([*base, "submissions", "--db", db, "--format", "json"], capture_output=True, text=True,
-                            timeout=120)
+    listed = subprocess.run(
+        [*base, "submissions", "--db", db, "--format", "json"], capture_output=True, text=True, timeout=120
+    )
     assert listed.returncode == 0 and json.loads(listed.stdout)[0]["status"] == "rejected"

@@ -63,16 +63,18 @@ def state(db: Path) -> tuple[list[tuple], int]:
 
 
 @pytest.mark.parametrize("stage", PAUSE_STAGES)
-def test_sigkill_at_any_stage_leaves_the_old_file_or_the_whole_submission(tmp_path: Path, files, contract,
-                                                                         stage: str) -> None:
+def test_sigkill_at_any_stage_leaves_the_old_file_or_the_whole_submission(
+    tmp_path: Path, files, contract, stage: str
+) -> None:
     db = tmp_path / "m.duckdb"
     first = ingest(files["drift"], db, contract)
     before_bytes = db.read_bytes()
     before = state(db)
     signal_file = tmp_path / "paused"
     env = {**os.environ, ENV_PAUSE_AT: stage, ENV_PAUSE_FILE: str(signal_file)}
-    proc = subprocess.Popen(cli(*files["act-firm"], "--db", db), env=env, stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, text=True)
+    proc = subprocess.Popen(
+        cli(*files["act-firm"], "--db", db), env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True
+    )
     wait_for(signal_file, proc)
     proc.send_signal(signal.SIGKILL)
     proc.wait()
@@ -96,8 +98,9 @@ def test_sigkill_while_creating_a_new_database_leaves_no_database(tmp_path: Path
     db = tmp_path / "m.duckdb"
     signal_file = tmp_path / "paused"
     env = {**os.environ, ENV_PAUSE_AT: "in-transaction", ENV_PAUSE_FILE: str(signal_file)}
-    proc = subprocess.Popen(cli(*files["drift"], "--db", db), env=env, stdout=subprocess.PIPE,
-                            stderr=subprocess.PIPE, text=True)
+    proc = subprocess.Popen(
+        cli(*files["drift"], "--db", db), env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True
+    )
     wait_for(signal_file, proc)
     proc.kill()
     proc.wait()
@@ -106,8 +109,12 @@ def test_sigkill_while_creating_a_new_database_leaves_no_database(tmp_path: Path
 
 def test_two_concurrent_ingests_both_end_correctly(tmp_path: Path, files, contract) -> None:
     db = tmp_path / "m.duckdb"
-    procs = [subprocess.Popen(cli(*files[name], "--db", db, "--wait", "60"), stdout=subprocess.PIPE,
-                              stderr=subprocess.PIPE, text=True) for name in ("drift", "act-firm")]
+    procs = [
+        subprocess.Popen(
+            cli(*files[name], "--db", db, "--wait", "60"), stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True
+        )
+        for name in ("drift", "act-firm")
+    ]
     outs = [p.communicate(timeout=120) for p in procs]
     assert [p.returncode for p in procs] == [0, 0], outs
     subs, n = state(db)
@@ -124,12 +131,14 @@ def test_a_writer_that_cannot_get_the_lock_fails_cleanly(tmp_path: Path, files, 
     before = db.read_bytes()
     signal_file = tmp_path / "paused"
     env = {**os.environ, ENV_PAUSE_AT: "in-transaction", ENV_PAUSE_FILE: str(signal_file)}
-    holder = subprocess.Popen(cli(*files["act-firm"], "--db", db), env=env, stdout=subprocess.PIPE,
-                              stderr=subprocess.PIPE, text=True)
+    holder = subprocess.Popen(
+        cli(*files["act-firm"], "--db", db), env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True
+    )
     try:
         wait_for(signal_file, holder)
-        second = subprocess.run(cli(*files["act-bold"], "--db", db, "--wait", "0.5"), capture_output=True,
-                                text=True, timeout=120)
+        second = subprocess.run(
+            cli(*files["act-bold"], "--db", db, "--wait", "0.5"), capture_output=True, text=True, timeout=120
+        )
     finally:
         holder.kill()
         holder.wait()
@@ -137,7 +146,8 @@ def test_a_writer_that_cannot_get_the_lock_fails_cleanly(tmp_path: Path, files, 
     assert second.stderr.splitlines()[0].startswith("Waiting up to 0.5 s for another milepost process")
     assert second.stderr.splitlines()[-1] == (
         f"Error: another milepost process (pid {holder.pid}) is writing {db}; gave up after 0.5 s "
-        "(wait longer with --wait or MILEPOST_LOCK_TIMEOUT)")
+        "(wait longer with --wait or MILEPOST_LOCK_TIMEOUT)"
+    )
     assert "Traceback" not in second.stderr and second.stdout == ""
     assert db.read_bytes() == before
 
@@ -163,8 +173,7 @@ READER = textwrap.dedent("""
 """)
 
 
-def test_a_reader_held_open_neither_blocks_the_ingest_nor_sees_a_half_state(tmp_path: Path, files,
-                                                                           contract) -> None:
+def test_a_reader_held_open_neither_blocks_the_ingest_nor_sees_a_half_state(tmp_path: Path, files, contract) -> None:
     db = tmp_path / "m.duckdb"
     first = ingest(files["drift"], db, contract)
     reader = subprocess.Popen([sys.executable, "-c", READER, str(db), "2"], stdout=subprocess.PIPE, text=True)

@@ -40,9 +40,16 @@ def test_energy_units(units):
     assert units.factor("PJ/yr", "EJ/yr") == pytest.approx(1e-3)
 
 
-@pytest.mark.parametrize(("a", "b"), [("Mt CH4/yr", "Mt CO2/yr"), ("Mt CO2/yr", "Mt CO2e/yr"),
-                                      ("kt N2O/yr", "Mt CH4/yr"), ("EJ/yr", "Mt CO2/yr"),
-                                      ("billion USD_2010/yr", "billion USD_2015/yr")])
+@pytest.mark.parametrize(
+    ("a", "b"),
+    [
+        ("Mt CH4/yr", "Mt CO2/yr"),
+        ("Mt CO2/yr", "Mt CO2e/yr"),
+        ("kt N2O/yr", "Mt CH4/yr"),
+        ("EJ/yr", "Mt CO2/yr"),
+        ("billion USD_2010/yr", "billion USD_2015/yr"),
+    ],
+)
 def test_dimensions_that_never_convert(units, a, b):
     assert not units.compatible(a, b)
 
@@ -54,9 +61,17 @@ def test_deflator_makes_currency_years_convert():
     assert u.factor("billion USD_2010/yr", "billion USD_2015/yr") == pytest.approx(1.08)
 
 
-@pytest.mark.parametrize(("raw", "norm"), [("MtCO2/yr", "Mt CO2/yr"), ("Mt CO2 / yr", "Mt CO2/yr"),
-                                           ("GtCO2e/yr", "Gt CO2e/yr"), ("Mt CO2-equiv/yr", "Mt CO2e/yr"),
-                                           ("US$2015/t CO2", "USD_2015/t CO2"), ("kt N2O/year", "kt N2O/yr")])
+@pytest.mark.parametrize(
+    ("raw", "norm"),
+    [
+        ("MtCO2/yr", "Mt CO2/yr"),
+        ("Mt CO2 / yr", "Mt CO2/yr"),
+        ("GtCO2e/yr", "Gt CO2e/yr"),
+        ("Mt CO2-equiv/yr", "Mt CO2e/yr"),
+        ("US$2015/t CO2", "USD_2015/t CO2"),
+        ("kt N2O/year", "kt N2O/yr"),
+    ],
+)
 def test_common_spellings_normalise(units, raw, norm):
     assert normalise(raw) == norm
     assert units.factor(raw, norm) == pytest.approx(1.0)

@@ -11,8 +11,14 @@ from milepost.validate.findings import RULES, SEVERITIES, Finding
 
 
 def _f(rule: str, message: str, hint: str | None = None, **where: object) -> Finding:
-    return Finding(rule, "error", path=where.pop("path", None), message=message, hint=hint,
-                   **{k: v for k, v in where.items() if v is not None})  # type: ignore[arg-type]
+    return Finding(
+        rule,
+        "error",
+        path=where.pop("path", None),
+        message=message,
+        hint=hint,
+        **{k: v for k, v in where.items() if v is not None},
+    )  # type: ignore[arg-type]
 
 
 def _cycles(graph: dict[str, tuple[str, ...]]) -> list[list[str]]:
@@ -26,7 +32,7 @@ def _cycles(graph: dict[str, tuple[str, ...]]) -> list[list[str]]:
         stack.append(node)
         for nxt in graph.get(node, ()):
             if state.get(nxt) == 1:
-                cyc = stack[stack.index(nxt):]
+                cyc = stack[stack.index(nxt) :]
                 k = cyc.index(min(cyc))
                 norm = cyc[k:] + cyc[:k]
                 found[tuple(norm)] = [*norm, norm[0]]
@@ -50,14 +56,33 @@ def lint(contract: Contract) -> list[Finding]:
         out.append(_f("contract-unit", problem, path=src))
     for v in contract.variables.values():
         if not NAME_PATTERN.match(v.name):
-            out.append(_f("contract-name", f"variable name {v.name!r} is not lower-case segments joined by dots",
-                          "Use names like emissions.co2.fossil.", path=src, variable=v.name))
+            out.append(
+                _f(
+                    "contract-name",
+                    f"variable name {v.name!r} is not lower-case segments joined by dots",
+                    "Use names like emissions.co2.fossil.",
+                    path=src,
+                    variable=v.name,
+                )
+            )
         if v.sign not in SIGNS:
-            out.append(_f("contract-name", f"{v.name}: sign {v.sign!r} is not one of {', '.join(SIGNS)}",
-                          path=src, variable=v.name))
+            out.append(
+                _f(
+                    "contract-name",
+                    f"{v.name}: sign {v.sign!r} is not one of {', '.join(SIGNS)}",
+                    path=src,
+                    variable=v.name,
+                )
+            )
         if v.regions not in AGGREGATIONS:
-            out.append(_f("contract-name", f"{v.name}: regions {v.regions!r} is not one of {', '.join(AGGREGATIONS)}",
-                          path=src, variable=v.name))
+            out.append(
+                _f(
+                    "contract-name",
+                    f"{v.name}: regions {v.regions!r} is not one of {', '.join(AGGREGATIONS)}",
+                    path=src,
+                    variable=v.name,
+                )
+            )
         try:
             units.parse(v.unit)
         except UnitError as e:
@@ -66,21 +91,41 @@ def lint(contract: Contract) -> list[Finding]:
         for p in v.parts:
             part = contract.variables.get(p.variable)
             if part is None:
-                out.append(_f("contract-part", f"{v.name}: part {p.variable!r} is not a variable of the contract",
-                              path=src, variable=v.name))
+                out.append(
+                    _f(
+                        "contract-part",
+                        f"{v.name}: part {p.variable!r} is not a variable of the contract",
+                        path=src,
+                        variable=v.name,
+                    )
+                )
                 continue
             if p.gwp is not None:
                 continue  # the gas-to-CO2e factor was derived at load; its problems are in contract.problems
             try:
                 factor = units.factor(part.unit, v.unit)
             except UnitError:
-                out.append(_f("contract-unit", f"{v.name} ({v.unit}): part {p.variable} is in {part.unit}, which "
-                              "does not convert into the total's unit", "Give the part a unit of the same "
-                              "dimension, or name its gas with gwp = \"...\".", path=src, variable=v.name))
+                out.append(
+                    _f(
+                        "contract-unit",
+                        f"{v.name} ({v.unit}): part {p.variable} is in {part.unit}, which "
+                        "does not convert into the total's unit",
+                        'Give the part a unit of the same dimension, or name its gas with gwp = "...".',
+                        path=src,
+                        variable=v.name,
+                    )
+                )
                 continue
             if abs(p.factor - factor) > 1e-9 * max(abs(factor), 1.0):
-                out.append(_f("contract-unit", f"{v.name}: part {p.variable} has factor {p.factor:g}, but "
-                              f"{part.unit} converts to {v.unit} by {factor:g}", path=src, variable=v.name))
+                out.append(
+                    _f(
+                        "contract-unit",
+                        f"{v.name}: part {p.variable} has factor {p.factor:g}, but "
+                        f"{part.unit} converts to {v.unit} by {factor:g}",
+                        path=src,
+                        variable=v.name,
+                    )
+                )
     for cyc in _cycles({v.name: tuple(p.variable for p in v.parts) for v in contract.variables.values()}):
         out.append(_f("contract-cycle", "variables are parts of themselves: " + " -> ".join(cyc), path=src))
     for cyc in _cycles({r.name: r.parts for r in contract.regions.values()}):
@@ -90,16 +135,28 @@ def lint(contract: Contract) -> list[Finding]:
     for r in contract.regions.values():
         for p in r.parts:
             if p not in contract.regions and p not in isos:
-                out.append(_f("contract-part", f"region {r.name}: part {p!r} is neither a region of the contract "
-                              "nor an ISO 3166-1 alpha-3 code", path=src, region=r.name))
+                out.append(
+                    _f(
+                        "contract-part",
+                        f"region {r.name}: part {p!r} is neither a region of the contract "
+                        "nor an ISO 3166-1 alpha-3 code",
+                        path=src,
+                        region=r.name,
+                    )
+                )
     for ref in contract.reference:
         where = {"path": src, "region": ref.region, "variable": ref.variable, "year": ref.year}
         v = contract.variables.get(ref.variable)
         if v is None:
             out.append(_f("contract-reference", f"reference value for unknown variable {ref.variable!r}", **where))
         elif not units.compatible(ref.unit, v.unit):
-            out.append(_f("contract-reference", f"reference {ref.variable} is in {ref.unit}, which does not convert "
-                          f"to {v.unit}", **where))
+            out.append(
+                _f(
+                    "contract-reference",
+                    f"reference {ref.variable} is in {ref.unit}, which does not convert to {v.unit}",
+                    **where,
+                )
+            )
         if not contract.is_region(ref.region):
             out.append(_f("contract-reference", f"reference value for unknown region {ref.region!r}", **where))
     for b in contract.bounds:
@@ -111,8 +168,9 @@ def lint(contract: Contract) -> list[Finding]:
             out.append(_f("contract-reference", f"bound for {b.variable}: low {b.low:g} > high {b.high:g}", path=src))
     c = contract
     if not c.first_year <= c.base_year <= c.last_year:
-        out.append(_f("contract-reference", f"base year {c.base_year} is outside {c.first_year}–{c.last_year}",
-                      path=src))
+        out.append(
+            _f("contract-reference", f"base year {c.base_year} is outside {c.first_year}–{c.last_year}", path=src)
+        )
     for m in c.milestones:
         if not c.first_year <= m <= c.last_year:
             out.append(_f("contract-reference", f"milestone {m} is outside {c.first_year}–{c.last_year}", path=src))
@@ -121,8 +179,14 @@ def lint(contract: Contract) -> list[Finding]:
             out.append(_f("contract-reference", f"required region {r!r} is not a region of the contract", path=src))
     for rule, sev in c.severity.items():
         if rule not in RULES or sev not in SEVERITIES:
-            out.append(_f("contract-severity", f"[severity] {rule} = {sev!r}: rule ids are those of `milepost "
-                          f"rules`, severities {', '.join(SEVERITIES)}", path=src))
+            out.append(
+                _f(
+                    "contract-severity",
+                    f"[severity] {rule} = {sev!r}: rule ids are those of `milepost "
+                    f"rules`, severities {', '.join(SEVERITIES)}",
+                    path=src,
+                )
+            )
     return out
 
 

@@ -86,8 +86,10 @@ def _typed_select(cols: dict[str, str], src: str, line: str, decimal_comma: bool
     value = f"CAST({_quote(cols['value'])} AS VARCHAR)"
     if decimal_comma:
         value = f"replace({value}, ',', '.')"
-    inner = (f"SELECT {line} AS line, {key}, {year} AS y_text, {value} AS v_text, "
-             f"TRY_CAST(trim({year}) AS DOUBLE) AS y_num, TRY_CAST(trim({value}) AS DOUBLE) AS v_num FROM {src}")
+    inner = (
+        f"SELECT {line} AS line, {key}, {year} AS y_text, {value} AS v_text, "
+        f"TRY_CAST(trim({year}) AS DOUBLE) AS y_num, TRY_CAST(trim({value}) AS DOUBLE) AS v_num FROM {src}"
+    )
     whole = "y_num = floor(y_num) AND abs(y_num) < 1e6"
     return (
         f"SELECT line, {', '.join(KEY_TEXT)}, "
@@ -100,6 +102,7 @@ def _typed_select(cols: dict[str, str], src: str, line: str, decimal_comma: bool
 
 
 # --- CSV ----------------------------------------------------------------------------------------------------------
+
 
 @dataclass(frozen=True)
 class CsvDialect:
@@ -115,10 +118,11 @@ def sniff_csv(path: Path) -> CsvDialect:
     if not raw.strip():
         raise ReadError("the file is empty")
     if b"\x00" in raw[:4096]:
-        raise ReadError("the file holds binary data (NUL bytes), not text; is it an Excel or Parquet file "
-                        "with the wrong extension?")
+        raise ReadError(
+            "the file holds binary data (NUL bytes), not text; is it an Excel or Parquet file with the wrong extension?"
+        )
     if raw.startswith(codecs.BOM_UTF8):
-        raw, encoding = raw[len(codecs.BOM_UTF8):], "utf-8"
+        raw, encoding = raw[len(codecs.BOM_UTF8) :], "utf-8"
     else:
         encoding = "utf-8"
     try:
@@ -184,17 +188,21 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
         f"rejects_scan = {_sql_str(rejects + '_scan')}, "
         f"names = [{', '.join(_sql_str(p) for p in positional)}])"
     )
-    con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS "
-                f"{_typed_select(by_position, src, 'NULL::BIGINT', d.decimal_comma)}")
-    bad = con.execute(f"SELECT line, string_agg(DISTINCT error_message, '; ') FROM {rejects} GROUP BY line "
-                      "ORDER BY line").fetchall()
+    con.execute(
+        f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(by_position, src, 'NULL::BIGINT', d.decimal_comma)}"
+    )
+    bad = con.execute(
+        f"SELECT line, string_agg(DISTINCT error_message, '; ') FROM {rejects} GROUP BY line ORDER BY line"
+    ).fetchall()
     inp.rejects = [(int(line), str(msg)) for line, msg in bad]
     # Rows are stored in file order, so the row id gives the line (the runner's view adds 2 where `line` is
     # empty); only rejected lines, which shift the rows after them, need the lines written out.
     if inp.rejects:
         con.execute(f"UPDATE {table} SET line = rowid + 2")
-        con.execute(f"CREATE TEMP TABLE {table}_shift AS SELECT line - (row_number() OVER (ORDER BY line) - 1) AS at "
-                    f"FROM (SELECT DISTINCT line FROM {rejects})")
+        con.execute(
+            f"CREATE TEMP TABLE {table}_shift AS SELECT line - (row_number() OVER (ORDER BY line) - 1) AS at "
+            f"FROM (SELECT DISTINCT line FROM {rejects})"
+        )
         con.execute(f"UPDATE {table} SET line = line + (SELECT count(*) FROM {table}_shift s WHERE s.at <= line)")
     inp.rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]
 
@@ -216,6 +224,7 @@ def _set_columns(inp: InputFile, found: dict[str, str], extra: list[str]) -> Non
 
 
 # --- XLSX ---------------------------------------------------------------------------------------------------------
+
 
 def _cell_text(v: Any) -> str | None:
     if v is None:
@@ -288,6 +297,7 @@ def _read_xlsx(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table
 
 # --- Parquet ------------------------------------------------------------------------------------------------------
 
+
 def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table: str) -> None:
     try:
         header = [r[0] for r in con.execute("DESCRIBE SELECT * FROM read_parquet(?)", [str(path)]).fetchall()]
@@ -311,6 +321,7 @@ def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, ta
 
 # --- scenarios tables ---------------------------------------------------------------------------------------------
 
+
 def _scenario_frame(frame: Any) -> Any:
     """Normalise a scenarios table: lower-case trimmed column names, text cells, empty -> missing."""
     frame = frame.copy()
@@ -323,6 +334,7 @@ def _scenario_frame(frame: Any) -> Any:
 
 
 # --- entry point --------------------------------------------------------------------------------------------------
+
 
 def read_file(con: duckdb.DuckDBPyConnection, path: Path, table: str, sha256: str | None = None) -> list[InputFile]:
     """Read one file into `table` (data) or a scenarios frame; unreadable files come back with kind='unreadable'.

@@ -14,9 +14,19 @@ TEXT_LIMIT = 200
 XLSX_COPY_ROWS = 100_000
 # Which cell of a submission row a rule points at, for highlighting the copy in the XLSX report.
 RULE_COLUMN = {
-    "unknown-region": "region", "unknown-variable": "variable", "wrong-unit": "unit", "converted-unit": "unit",
-    "bad-year": "year", "bad-value": "value", "sign": "value", "out-of-bounds": "value", "sum-of-parts": "value",
-    "sum-of-regions": "value", "base-year-deviation": "value", "duplicate-row": "value", "conflicting-row": "value",
+    "unknown-region": "region",
+    "unknown-variable": "variable",
+    "wrong-unit": "unit",
+    "converted-unit": "unit",
+    "bad-year": "year",
+    "bad-value": "value",
+    "sign": "value",
+    "out-of-bounds": "value",
+    "sum-of-parts": "value",
+    "sum-of-regions": "value",
+    "base-year-deviation": "value",
+    "duplicate-row": "value",
+    "conflicting-row": "value",
 }
 FILL = {"error": "FFF4B6B6", "warning": "FFFFE699", "note": "FFDDEBF7"}
 
@@ -41,8 +51,10 @@ def to_dict(result: CheckResult, fail_on: str = "error") -> dict[str, Any]:
     return {
         "milepost": result.version,
         "contract": {"name": result.contract.name, "hash": result.contract.hash},
-        "inputs": [{"path": i.path, "sha256": i.sha256, "rows": i.rows, "kind": i.kind, "sheet": i.sheet}
-                   for i in result.inputs],
+        "inputs": [
+            {"path": i.path, "sha256": i.sha256, "rows": i.rows, "kind": i.kind, "sheet": i.sheet}
+            for i in result.inputs
+        ],
         "summary": summary(result, fail_on),
         "findings": [f.to_dict() for f in result.findings],
     }
@@ -118,8 +130,10 @@ def to_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT
     if total > len(shown):
         yield f"… {total - len(shown)} more findings (see --format json or xlsx)"
     verdict = "PASSED" if result.passed(fail_on) else "FAILED"
-    yield (f"{verdict}: {result.counts.get('error', 0)} errors, {result.counts.get('warning', 0)} warnings, "
-           f"{result.counts.get('note', 0)} notes in {result.rows} rows (fail on {fail_on})")
+    yield (
+        f"{verdict}: {result.counts.get('error', 0)} errors, {result.counts.get('warning', 0)} warnings, "
+        f"{result.counts.get('note', 0)} notes in {result.rows} rows (fail on {fail_on})"
+    )
 
 
 def print_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT, file: Any = None) -> None:
@@ -138,8 +152,9 @@ def print_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LI
         console.print(marked)
 
 
-def _raw_rows(result: CheckResult, path: str, sheet: str | None,
-             limit: int) -> tuple[list[str], list[tuple[int, list]]]:
+def _raw_rows(
+    result: CheckResult, path: str, sheet: str | None, limit: int
+) -> tuple[list[str], list[tuple[int, list]]]:
     """Header and (line, cells) of a submission file as it stands, for the highlighted copy."""
     p = Path(path)
     if p.suffix.lower() in (".xlsx", ".xlsm"):
@@ -188,10 +203,18 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
     ws = wb.active
     ws.title = "summary"
     s = summary(result, fail_on)
-    for row in (["milepost", result.version], ["contract", result.contract.name],
-                ["contract hash", result.contract.hash],
-                ["verdict", "PASSED" if s["passed"] else "FAILED"], ["rows", s["rows"]], ["errors", s["errors"]],
-                ["warnings", s["warnings"]], ["notes", s["notes"]], [], ["input", "kind", "rows", "sha256"]):
+    for row in (
+        ["milepost", result.version],
+        ["contract", result.contract.name],
+        ["contract hash", result.contract.hash],
+        ["verdict", "PASSED" if s["passed"] else "FAILED"],
+        ["rows", s["rows"]],
+        ["errors", s["errors"]],
+        ["warnings", s["warnings"]],
+        ["notes", s["notes"]],
+        [],
+        ["input", "kind", "rows", "sha256"],
+    ):
         ws.append(row)
     for i in result.inputs:
         ws.append([i.path, i.kind, i.rows, i.sha256])
@@ -220,8 +243,12 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
         title = f"copy {n + 1}"
         sheet = wb.create_sheet(title)
         if inp.rows > XLSX_COPY_ROWS:
-            sheet.append([f"{inp.path} has {inp.rows} rows; copies are made up to {XLSX_COPY_ROWS} rows. "
-                          "Use the findings sheet (file and line) instead."])
+            sheet.append(
+                [
+                    f"{inp.path} has {inp.rows} rows; copies are made up to {XLSX_COPY_ROWS} rows. "
+                    "Use the findings sheet (file and line) instead."
+                ]
+            )
             continue
         header, rows = _raw_rows(result, inp.path, inp.sheet, XLSX_COPY_ROWS)
         sheet.append(header)

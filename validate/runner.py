@@ -47,8 +47,10 @@ class CheckResult:
     def scenarios(self) -> Any:
         """One row per (model, scenario) of the usable data, with `reference` and any other attributes given.
         Built on first use: a plain check never needs pandas."""
-        pairs = self.con.execute("SELECT DISTINCT CAST(model AS VARCHAR) AS model, CAST(scenario AS VARCHAR) "
-                                 "AS scenario FROM checked ORDER BY 1, 2").df()
+        pairs = self.con.execute(
+            "SELECT DISTINCT CAST(model AS VARCHAR) AS model, CAST(scenario AS VARCHAR) "
+            "AS scenario FROM checked ORDER BY 1, 2"
+        ).df()
         if self.scenario_attributes is None:
             import pandas as pd
 
@@ -64,10 +66,14 @@ class CheckResult:
 
 def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
     units = contract.units
-    con.execute("CREATE OR REPLACE TEMP TABLE c_variables (variable VARCHAR, unit VARCHAR, sign VARCHAR, "
-                "regions VARCHAR, required BOOLEAN)")
-    con.executemany("INSERT INTO c_variables VALUES (?, ?, ?, ?, ?)",
-                    [(v.name, v.unit, v.sign, v.regions, v.required) for v in contract.variables.values()])
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE c_variables (variable VARCHAR, unit VARCHAR, sign VARCHAR, "
+        "regions VARCHAR, required BOOLEAN)"
+    )
+    con.executemany(
+        "INSERT INTO c_variables VALUES (?, ?, ?, ?, ?)",
+        [(v.name, v.unit, v.sign, v.regions, v.required) for v in contract.variables.values()],
+    )
     con.execute("CREATE OR REPLACE TEMP TABLE c_parts (total VARCHAR, part VARCHAR, factor DOUBLE)")
     parts = [(v.name, p.variable, p.factor) for v in contract.variables.values() for p in v.parts]
     if parts:
@@ -84,10 +90,12 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
     rparts = [(r.name, p) for r in contract.regions.values() for p in r.parts]
     if rparts:
         con.executemany("INSERT INTO c_region_parts VALUES (?, ?)", rparts)
-    con.execute("CREATE OR REPLACE TEMP TABLE c_region_counts AS "
-                "SELECT parent, count(*) AS n FROM c_region_parts GROUP BY 1")
-    con.execute("CREATE OR REPLACE TEMP TABLE c_reference (region VARCHAR, variable VARCHAR, year INTEGER, "
-                "value DOUBLE)")
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE c_region_counts AS SELECT parent, count(*) AS n FROM c_region_parts GROUP BY 1"
+    )
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE c_reference (region VARCHAR, variable VARCHAR, year INTEGER, value DOUBLE)"
+    )
     ref = []
     for r in contract.reference:
         v = contract.variables.get(r.variable)
@@ -100,11 +108,15 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
             continue  # contract lint reports it
     if ref:
         con.executemany("INSERT INTO c_reference VALUES (?, ?, ?, ?)", ref)
-    con.execute("CREATE OR REPLACE TEMP TABLE c_bounds (variable VARCHAR, region VARCHAR, year_from INTEGER, "
-                "year_to INTEGER, low DOUBLE, high DOUBLE)")
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE c_bounds (variable VARCHAR, region VARCHAR, year_from INTEGER, "
+        "year_to INTEGER, low DOUBLE, high DOUBLE)"
+    )
     if contract.bounds:
-        con.executemany("INSERT INTO c_bounds VALUES (?, ?, ?, ?, ?, ?)",
-                        [(b.variable, b.region, b.year_from, b.year_to, b.low, b.high) for b in contract.bounds])
+        con.executemany(
+            "INSERT INTO c_bounds VALUES (?, ?, ?, ?, ?, ?)",
+            [(b.variable, b.region, b.year_from, b.year_to, b.low, b.high) for b in contract.bounds],
+        )
 
 
 def _obs_view(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> None:
@@ -116,13 +128,17 @@ def _obs_view(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> None:
             path = inp.path.replace("'", "''")
             sheet = f"'{inp.sheet}'" if inp.sheet else "NULL::VARCHAR"
             # CSV tables leave `line` empty: rows are stored in file order, so the row id gives it for free.
-            parts.append(f"SELECT {i} AS src, '{path}' AS path, {sheet} AS sheet, coalesce(line, rowid + 2) AS line, "
-                         f"* EXCLUDE (line) FROM {inp.table}")
+            parts.append(
+                f"SELECT {i} AS src, '{path}' AS path, {sheet} AS sheet, coalesce(line, rowid + 2) AS line, "
+                f"* EXCLUDE (line) FROM {inp.table}"
+            )
     if not parts:
-        parts = ["SELECT NULL::INTEGER AS src, NULL::VARCHAR AS path, NULL::VARCHAR AS sheet, NULL::BIGINT AS line, "
-                 + ", ".join(f"NULL::VARCHAR AS {c}" for c in ("model", "scenario", "region", "variable", "unit"))
-                 + ", NULL::INTEGER AS year, NULL::VARCHAR AS year_raw, NULL::DOUBLE AS value, "
-                 "NULL::VARCHAR AS value_raw WHERE false"]
+        parts = [
+            "SELECT NULL::INTEGER AS src, NULL::VARCHAR AS path, NULL::VARCHAR AS sheet, NULL::BIGINT AS line, "
+            + ", ".join(f"NULL::VARCHAR AS {c}" for c in ("model", "scenario", "region", "variable", "unit"))
+            + ", NULL::INTEGER AS year, NULL::VARCHAR AS year_raw, NULL::DOUBLE AS value, "
+            "NULL::VARCHAR AS value_raw WHERE false"
+        ]
     con.execute("CREATE OR REPLACE TEMP VIEW obs AS " + " UNION ALL ".join(parts))
 
 
@@ -140,35 +156,48 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
     """`checked`: the usable rows in contract units, one per key (the first occurrence wins); `dups`: repeated keys."""
     # Key columns become ENUMs of the values seen: the same text to every reader, but grouping and joining on
     # them (duplicates, sums) runs on small integers, several times faster than on strings.
-    enum = {c: _enum_type(con, f"SELECT DISTINCT {c} FROM combos WHERE {c} IS NOT NULL")
-            for c in ("model", "scenario", "region", "variable")}
+    enum = {
+        c: _enum_type(con, f"SELECT DISTINCT {c} FROM combos WHERE {c} IS NOT NULL")
+        for c in ("model", "scenario", "region", "variable")
+    }
     enum["unit"] = _enum_type(con, "SELECT DISTINCT target FROM unit_map WHERE target IS NOT NULL")
-    keys = (f"SELECT o.src, o.line, o.model::{enum['model']} AS model, o.scenario::{enum['scenario']} AS scenario, "
-            f"o.region::{enum['region']} AS region, o.variable::{enum['variable']} AS variable, ")
+    keys = (
+        f"SELECT o.src, o.line, o.model::{enum['model']} AS model, o.scenario::{enum['scenario']} AS scenario, "
+        f"o.region::{enum['region']} AS region, o.variable::{enum['variable']} AS variable, "
+    )
     rows = f"o.value IS NOT NULL AND o.year BETWEEN {contract.first_year} AND {contract.last_year}"
     # Usually every key combination is known and in contract units: then no row needs the lookups (a fifth of
     # this step's time), which the key combinations tell at a glance.
     odd = con.execute(
         "SELECT count(*) FROM combos c LEFT JOIN unit_map m USING (variable, unit) LEFT JOIN c_regions r "
         "USING (region) WHERE m.status IS DISTINCT FROM 'same' OR r.region IS NULL OR c.model IS NULL "
-        "OR c.scenario IS NULL OR trim(c.model) = '' OR trim(c.scenario) = ''").fetchall()[0][0]
+        "OR c.scenario IS NULL OR trim(c.model) = '' OR trim(c.scenario) = ''"
+    ).fetchall()[0][0]
     if odd == 0:
         sql = f"{keys}o.unit::{enum['unit']} AS unit, o.year, o.value FROM obs o WHERE {rows}"
     else:
-        sql = (f"{keys}m.target::{enum['unit']} AS unit, o.year, o.value * m.factor AS value "
-               "FROM obs o JOIN unit_map m ON o.variable = m.variable AND o.unit = m.unit AND m.status <> 'wrong' "
-               f"JOIN c_regions r ON o.region = r.region WHERE {rows} "
-               "AND trim(o.model) <> '' AND trim(o.scenario) <> ''")
+        sql = (
+            f"{keys}m.target::{enum['unit']} AS unit, o.year, o.value * m.factor AS value "
+            "FROM obs o JOIN unit_map m ON o.variable = m.variable AND o.unit = m.unit AND m.status <> 'wrong' "
+            f"JOIN c_regions r ON o.region = r.region WHERE {rows} "
+            "AND trim(o.model) <> '' AND trim(o.scenario) <> ''"
+        )
     con.execute(f"CREATE OR REPLACE TEMP TABLE checked AS {sql}")
     # The contract's part lists in the same ENUM types, so sum joins never cast.
-    con.execute(f"CREATE OR REPLACE TEMP TABLE e_parts AS SELECT * FROM (SELECT TRY_CAST(total AS "
-                f"{enum['variable']}) AS total, TRY_CAST(part AS {enum['variable']}) AS part, factor FROM c_parts) "
-                "WHERE total IS NOT NULL AND part IS NOT NULL")
-    con.execute(f"CREATE OR REPLACE TEMP TABLE e_region_parts AS SELECT * FROM (SELECT TRY_CAST(parent AS "
-                f"{enum['region']}) AS parent, TRY_CAST(part AS {enum['region']}) AS part FROM c_region_parts) "
-                "WHERE parent IS NOT NULL AND part IS NOT NULL")
-    con.execute(f"CREATE OR REPLACE TEMP TABLE e_variables AS SELECT * FROM (SELECT TRY_CAST(variable AS "
-                f"{enum['variable']}) AS variable, regions, unit FROM c_variables) WHERE variable IS NOT NULL")
+    con.execute(
+        f"CREATE OR REPLACE TEMP TABLE e_parts AS SELECT * FROM (SELECT TRY_CAST(total AS "
+        f"{enum['variable']}) AS total, TRY_CAST(part AS {enum['variable']}) AS part, factor FROM c_parts) "
+        "WHERE total IS NOT NULL AND part IS NOT NULL"
+    )
+    con.execute(
+        f"CREATE OR REPLACE TEMP TABLE e_region_parts AS SELECT * FROM (SELECT TRY_CAST(parent AS "
+        f"{enum['region']}) AS parent, TRY_CAST(part AS {enum['region']}) AS part FROM c_region_parts) "
+        "WHERE parent IS NOT NULL AND part IS NOT NULL"
+    )
+    con.execute(
+        f"CREATE OR REPLACE TEMP TABLE e_variables AS SELECT * FROM (SELECT TRY_CAST(variable AS "
+        f"{enum['variable']}) AS variable, regions, unit FROM c_variables) WHERE variable IS NOT NULL"
+    )
     # Repeats are rare: find the keys with a narrow aggregate, then look only at their rows.
     con.execute(f"CREATE OR REPLACE TEMP TABLE dup_keys AS SELECT {KEY} FROM checked GROUP BY ALL HAVING count(*) > 1")
     con.execute(
@@ -179,9 +208,11 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
         f"FROM checked c SEMI JOIN dup_keys k USING ({KEY}) GROUP BY c.model, c.scenario, c.region, c.variable, c.year"
     )
     if con.execute("SELECT count(*) FROM dups").fetchall()[0][0]:
-        con.execute("DELETE FROM checked c USING dups d WHERE c.model = d.model AND c.scenario = d.scenario "
-                    "AND c.region = d.region AND c.variable = d.variable AND c.year = d.year "
-                    "AND (c.src, c.line) <> (d.src, d.line)")
+        con.execute(
+            "DELETE FROM checked c USING dups d WHERE c.model = d.model AND c.scenario = d.scenario "
+            "AND c.region = d.region AND c.variable = d.variable AND c.year = d.year "
+            "AND (c.src, c.line) <> (d.src, d.line)"
+        )
 
 
 def _insert(con: duckdb.DuckDBPyConnection, sql: str, severity: str) -> None:
@@ -220,8 +251,9 @@ def _steps(show: bool) -> Iterator[Any]:
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
     total = 4
-    with Progress(TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(),
-                  console=Console(stderr=True), transient=True) as bar:
+    with Progress(
+        TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(), console=Console(stderr=True), transient=True
+    ) as bar:
         task = bar.add_task("reading", total=total)
 
         def step(name: str) -> None:
@@ -230,16 +262,27 @@ def _steps(show: bool) -> Iterator[Any]:
         yield step
 
 
-def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.DuckDBPyConnection | None = None,
-              progress: bool = False, findings_per_rule: int = FINDINGS_PER_RULE,
-              digests: Sequence[str] | None = None) -> CheckResult:
+def run_check(
+    paths: Sequence[str | Path],
+    contract: Contract,
+    *,
+    con: duckdb.DuckDBPyConnection | None = None,
+    progress: bool = False,
+    findings_per_rule: int = FINDINGS_PER_RULE,
+    digests: Sequence[str] | None = None,
+) -> CheckResult:
     """Check submission files against a contract. Bad data becomes findings; this raises only for broken programs.
     `digests`: the files' sha256, in the order of `paths`, when the caller has computed them already."""
     con = con if con is not None else duckdb.connect(config={"autoinstall_known_extensions": False})
     paths = [Path(p) for p in paths]
     big = progress and sum(p.stat().st_size for p in paths if p.is_file()) > PROGRESS_BYTES
-    con.execute("CREATE OR REPLACE TEMP TABLE findings (" + ", ".join(
-        f"{c} {'BIGINT' if c == 'line' else 'INTEGER' if c == 'year' else 'VARCHAR'}" for c in FINDING_COLUMNS) + ")")
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE findings ("
+        + ", ".join(
+            f"{c} {'BIGINT' if c == 'line' else 'INTEGER' if c == 'year' else 'VARCHAR'}" for c in FINDING_COLUMNS
+        )
+        + ")"
+    )
     timings: dict[str, float] = {}
     clock = [time.perf_counter()]
 
@@ -259,8 +302,10 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
         _obs_view(con, inputs)
         # One pass for every distinct key combination: name, unit and empty-cell checks look here first and
         # touch the rows only when something is wrong.
-        con.execute("CREATE OR REPLACE TEMP TABLE combos AS SELECT src, model, scenario, region, variable, unit, "
-                    "count(*) AS n FROM obs GROUP BY ALL")
+        con.execute(
+            "CREATE OR REPLACE TEMP TABLE combos AS SELECT src, model, scenario, region, variable, unit, "
+            "count(*) AS n FROM obs GROUP BY ALL"
+        )
         lap("combos")
         ctx = Context(con, contract, inputs)
         pre = file_findings(ctx)
@@ -281,18 +326,27 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
         extra = pre + scen_findings
         if extra:
             eff = effective_severity(contract)
-            con.executemany(f"INSERT INTO findings VALUES ({', '.join('?' * len(FINDING_COLUMNS))})",
-                            [tuple(f.to_dict()[c] if c != "severity" else eff.get(f.rule, f.severity)
-                                   for c in FINDING_COLUMNS) for f in extra])
-    rule_counts = [(r, s, int(n)) for r, s, n in con.execute(
-        "SELECT rule, severity, count(*) FROM findings GROUP BY 1, 2 ORDER BY 1, 2").fetchall()]
+            con.executemany(
+                f"INSERT INTO findings VALUES ({', '.join('?' * len(FINDING_COLUMNS))})",
+                [
+                    tuple(f.to_dict()[c] if c != "severity" else eff.get(f.rule, f.severity) for c in FINDING_COLUMNS)
+                    for f in extra
+                ],
+            )
+    rule_counts = [
+        (r, s, int(n))
+        for r, s, n in con.execute(
+            "SELECT rule, severity, count(*) FROM findings GROUP BY 1, 2 ORDER BY 1, 2"
+        ).fetchall()
+    ]
     counts = {s: 0 for s in SEVERITIES}
     for _, s, n in rule_counts:
         counts[s] = counts.get(s, 0) + n
     rows = con.execute(
         f"SELECT * EXCLUDE (rn) FROM (SELECT *, row_number() OVER (PARTITION BY rule ORDER BY path, line, year) AS rn "
         f"FROM findings) WHERE rn <= {int(findings_per_rule)} "
-        "ORDER BY path NULLS FIRST, line NULLS LAST, rule, model, scenario, region, variable, year").fetchall()
+        "ORDER BY path NULLS FIRST, line NULLS LAST, rule, model, scenario, region, variable, year"
+    ).fetchall()
     findings = [Finding.from_row(r) for r in rows]
     usable = con.execute("SELECT count(*) FROM checked").fetchall()[0][0]
     lap("collect")
@@ -313,8 +367,10 @@ def run_check(paths: Sequence[str | Path], contract: Contract, *, con: duckdb.Du
 
 def effective_severity(contract: Contract) -> dict[str, str]:
     """Each rule's severity under this contract: the default from RULES unless the contract overrides it."""
-    return {r.id: (contract.severity[r.id] if contract.severity.get(r.id) in SEVERITIES else r.severity)
-            for r in RULES.values()}
+    return {
+        r.id: (contract.severity[r.id] if contract.severity.get(r.id) in SEVERITIES else r.severity)
+        for r in RULES.values()
+    }
 
 
 def _severity_case(contract: Contract) -> str:

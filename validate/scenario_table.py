@@ -30,11 +30,19 @@ def validate_scenarios(frame: Any, path: str, sheet: str | None) -> tuple[Any, l
         same = frame[(frame["model"] == row["model"]) & (frame["scenario"] == row["scenario"])]
         first = int(same.index[0])
         identical = same.drop(columns=[]).iloc[0].equals(row)
-        findings.append(Finding(
-            "duplicate-row" if identical else "conflicting-row", "warning" if identical else "error",
-            path=path, line=idx + 2, sheet=sheet, model=row["model"], scenario=row["scenario"],
-            expected="one row per model and scenario",
-            message=f"scenario {row['model']} / {row['scenario']} is listed again (first on line {first + 2})"
-                    + ("" if identical else " with other attributes"),
-            hint="Keep one row per scenario in the scenarios table."))
+        findings.append(
+            Finding(
+                "duplicate-row" if identical else "conflicting-row",
+                "warning" if identical else "error",
+                path=path,
+                line=idx + 2,
+                sheet=sheet,
+                model=row["model"],
+                scenario=row["scenario"],
+                expected="one row per model and scenario",
+                message=f"scenario {row['model']} / {row['scenario']} is listed again (first on line {first + 2})"
+                + ("" if identical else " with other attributes"),
+                hint="Keep one row per scenario in the scenarios table.",
+            )
+        )
     return frame.drop(index=list(dup_rows)), findings

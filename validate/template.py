@@ -38,24 +38,43 @@ def write_template(contract: Contract, path: Path) -> Path:
             lists.cell(row=i, column=j, value=v)
         letter = lists.cell(row=1, column=j).column_letter
         target = data.cell(row=1, column=LONG_COLUMNS.index(name) + 1).column_letter
-        dv = DataValidation(type="list", formula1=f"=lists!${letter}$2:${letter}${len(values) + 1}",
-                            allow_blank=True, showErrorMessage=True,
-                            error=f"Not a {name} of contract {contract.name}", errorTitle=f"unknown {name}")
+        dv = DataValidation(
+            type="list",
+            formula1=f"=lists!${letter}$2:${letter}${len(values) + 1}",
+            allow_blank=True,
+            showErrorMessage=True,
+            error=f"Not a {name} of contract {contract.name}",
+            errorTitle=f"unknown {name}",
+        )
         if name == "region" and contract.countries:
             dv.showErrorMessage = False  # ISO 3166 codes are allowed too, so the list is a suggestion only
         data.add_data_validation(dv)
         dv.add(f"{target}2:{target}{TEMPLATE_ROWS + 1}")
     year_col = data.cell(row=1, column=LONG_COLUMNS.index("year") + 1).column_letter
-    yv = DataValidation(type="whole", operator="between", formula1=str(contract.first_year),
-                        formula2=str(contract.last_year), showErrorMessage=True,
-                        error=f"A whole year in {contract.first_year}–{contract.last_year}")
+    yv = DataValidation(
+        type="whole",
+        operator="between",
+        formula1=str(contract.first_year),
+        formula2=str(contract.last_year),
+        showErrorMessage=True,
+        error=f"A whole year in {contract.first_year}–{contract.last_year}",
+    )
     data.add_data_validation(yv)
     yv.add(f"{year_col}2:{year_col}{TEMPLATE_ROWS + 1}")
     info = wb.create_sheet("variables")
     info.append(["variable", "unit", "required", "sign", "regions", "parts", "description"])
     for v in contract.variables.values():
-        info.append([v.name, v.unit, v.required, v.sign, v.regions,
-                     ", ".join(f"{p.variable} × {p.factor:g}" for p in v.parts), v.description])
+        info.append(
+            [
+                v.name,
+                v.unit,
+                v.required,
+                v.sign,
+                v.regions,
+                ", ".join(f"{p.variable} × {p.factor:g}" for p in v.parts),
+                v.description,
+            ]
+        )
     sc = wb.create_sheet("scenarios")
     sc.append(["model", "scenario", "reference"])
     info["A1"].font = sc["A1"].font = Font(bold=True)

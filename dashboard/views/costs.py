@@ -21,8 +21,10 @@ ratios = queries.band_ratio(summary, by, top=top, bottom=bottom)
 
 st.info(headlines.costs(ratios, labels, top, bottom, sel.year), icon=":material/payments:")
 ui.caution()
-st.caption(ui.bands_note(sel.variable, sel.year, sel.region, labels, edges)
-           + ". Losses are against each scenario's own reference scenario (same model); NPV at the base year.")
+st.caption(
+    ui.bands_note(sel.variable, sel.year, sel.region, labels, edges)
+    + ". Losses are against each scenario's own reference scenario (same model); NPV at the base year."
+)
 
 if df.empty:
     st.warning("No cost indicators for the selected scenarios.")
@@ -30,8 +32,10 @@ if df.empty:
 
 thin = int((summary["n"] < 5).sum())
 if thin:
-    st.warning(f"Thin evidence: {thin} of {len(summary)} band medians rest on fewer than 5 scenarios (see n below).",
-               icon=":material/warning:")
+    st.warning(
+        f"Thin evidence: {thin} of {len(summary)} band medians rest on fewer than 5 scenarios (see n below).",
+        icon=":material/warning:",
+    )
 
 order = list(queries.COST_METRICS.values())
 summary = ui.label_bands(summary, labels)
@@ -44,11 +48,22 @@ st.caption("Point: median; bar: 25–75 % range of the scenarios in the band.")
 if top != bottom:
     st.subheader(f"What delay costs: {labels[top]} band over {labels[bottom]} band")
     ratios["order"] = ratios["metric"].map({m: i for i, m in enumerate(order)})
-    shown = ratios.sort_values(["order", "year"]).rename(columns={
-        "median_top": f"median {labels[top]}", "n_top": f"n {labels[top]}",
-        "median_bottom": f"median {labels[bottom]}", "n_bottom": f"n {labels[bottom]}", "ratio": "ratio of medians"})
+    shown = ratios.sort_values(["order", "year"]).rename(
+        columns={
+            "median_top": f"median {labels[top]}",
+            "n_top": f"n {labels[top]}",
+            "median_bottom": f"median {labels[bottom]}",
+            "n_bottom": f"n {labels[bottom]}",
+            "ratio": "ratio of medians",
+        }
+    )
     ui.table(shown.drop(columns=["kind", "variable", "order"]), f"costs_ratio_{sel.year}", "costs_ratio")
 
 with st.expander("Per band: n, median and interquartile range"):
-    ui.table(summary[["metric", "unit", "year", "band_label", "n", "n_missing", "median", "q25", "q75"]]
-             .rename(columns={"band_label": "band"}), f"costs_bands_{sel.year}", "costs_bands")
+    ui.table(
+        summary[["metric", "unit", "year", "band_label", "n", "n_missing", "median", "q25", "q75"]].rename(
+            columns={"band_label": "band"}
+        ),
+        f"costs_bands_{sel.year}",
+        "costs_bands",
+    )

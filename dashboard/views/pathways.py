@@ -12,8 +12,9 @@ ui.caution()
 
 c1, c2 = st.columns(2)
 with c1:
-    variable = ui.url_selectbox("Variable shown", ch.data_variables, key="path_variable", param="show",
-                                default=sel.variable)
+    variable = ui.url_selectbox(
+        "Variable shown", ch.data_variables, key="path_variable", param="show", default=sel.variable
+    )
 with c2:
     regions = ui.query(queries.data_regions, variable)
     region = ui.url_selectbox("Region shown", regions, key="path_region", param="show_region", default=sel.region)
@@ -28,8 +29,14 @@ unit = str(bands["unit"].iloc[0])
 
 chosen = ui.query(queries.selected, sel)
 options = (chosen["model"] + " | " + chosen["scenario"]).tolist()
-picked = ui.url_multiselect("Single scenarios", options, key="path_scenarios", param="scenario",
-                            placeholder="none", help="Draw these scenarios as dashed lines.")
+picked = ui.url_multiselect(
+    "Single scenarios",
+    options,
+    key="path_scenarios",
+    param="scenario",
+    placeholder="none",
+    help="Draw these scenarios as dashed lines.",
+)
 series = None
 if picked:
     keys = [tuple(p.split(" | ", 1)) for p in picked]
@@ -40,11 +47,9 @@ found = contracts.find(ui.query(queries.contract_name))
 ref = contracts.reference_value(found.contract, region, variable, ch.base_year)
 reference = None
 if ref is not None:
-    reference = pd.DataFrame({"year": [ch.base_year], "value": [ref[0]],
-                              "label": [f"reference {ch.base_year}"]})
+    reference = pd.DataFrame({"year": [ch.base_year], "value": [ref[0]], "label": [f"reference {ch.base_year}"]})
 
-ui.chart(charts.pathway(bands, labels, variable, unit, series, reference), f"pathway_{variable}_{region}",
-         "path_chart")
+ui.chart(charts.pathway(bands, labels, variable, unit, series, reference), f"pathway_{variable}_{region}", "path_chart")
 notes = [ui.bands_note(sel.variable, sel.year, sel.region, labels, edges) + "."]
 if ref is not None:
     notes.append(f"◆ reference value {ui.fmt(ref[0], 0)} {ref[1]} in {ch.base_year} ({found.source}).")
@@ -52,5 +57,10 @@ else:
     notes.append(f"No reference value for {variable} in {region} in {ch.base_year} ({found.source}).")
 st.caption(" ".join(notes))
 
-ui.table(bands[["band_label", "year", "n", "median", "q25", "q75", "q05", "q95", "unit"]]
-         .rename(columns={"band_label": "band"}), f"pathway_{variable}_{region}", "path_table")
+ui.table(
+    bands[["band_label", "year", "n", "median", "q25", "q75", "q05", "q95", "unit"]].rename(
+        columns={"band_label": "band"}
+    ),
+    f"pathway_{variable}_{region}",
+    "path_table",
+)

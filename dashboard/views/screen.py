@@ -12,8 +12,9 @@ ui.caution()
 edges = ui.query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)
 later = [y for y in ch.milestones if y > sel.year]
-df = ui.label_bands(ui.query(queries.screen_table, sel, ch.base_year, later[0] if later else None, ch.attributes),
-                    labels)
+df = ui.label_bands(
+    ui.query(queries.screen_table, sel, ch.base_year, later[0] if later else None, ch.attributes), labels
+)
 unit = ui.query(queries.variable_unit, sel.variable)
 
 if df.empty:
@@ -30,8 +31,13 @@ c3.caption(unit)
 st.subheader(f"{sel.variable} in {sel.year}, {sel.region}")
 ui.chart(charts.histogram(df, edges, labels, sel.variable, unit), f"screen_{sel.variable}_{sel.year}", "screen_hist")
 ranges = ui.band_ranges(edges)
-st.caption("Band edges: " + ("terciles of the selected scenarios" if not sel.edges else "as set") + " — "
-           + "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, ranges, strict=True)) + f" {unit}.")
+st.caption(
+    "Band edges: "
+    + ("terciles of the selected scenarios" if not sel.edges else "as set")
+    + " — "
+    + "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, ranges, strict=True))
+    + f" {unit}."
+)
 
 summary = queries.summarise(df, ["band"])
 summary.insert(1, "range", [ranges[b] for b in summary["band"]])
@@ -41,16 +47,18 @@ ui.table(summary, "screen_bands", "screen_bands")
 st.subheader("Selected scenarios")
 base = ch.base_year
 cum_unit = df["cumulative_unit"].dropna()
-shown = df.drop(columns=["band", "cumulative_unit"]).rename(columns={
-    "band_label": "band",
-    "value": f"{sel.year} [{unit}]",
-    "base_value": f"{base} [{unit}]",
-    "cagr_to": f"CAGR {base}–{sel.year} [%/yr]",
-    "cagr_after": f"CAGR {sel.year}–{later[0]} [%/yr]" if later else "CAGR after [%/yr]",
-    "cumulative": f"cumulative {base}–{sel.year} [{cum_unit.iloc[0] if len(cum_unit) else ''}]",
-    "net_zero_year": "net-zero year",
-    "peak_year": "peak year",
-})
+shown = df.drop(columns=["band", "cumulative_unit"]).rename(
+    columns={
+        "band_label": "band",
+        "value": f"{sel.year} [{unit}]",
+        "base_value": f"{base} [{unit}]",
+        "cagr_to": f"CAGR {base}–{sel.year} [%/yr]",
+        "cagr_after": f"CAGR {sel.year}–{later[0]} [%/yr]" if later else "CAGR after [%/yr]",
+        "cumulative": f"cumulative {base}–{sel.year} [{cum_unit.iloc[0] if len(cum_unit) else ''}]",
+        "net_zero_year": "net-zero year",
+        "peak_year": "peak year",
+    }
+)
 front = ["model", "scenario", "band"]
 shown = shown[front + [c for c in shown.columns if c not in front]]
 ui.table(shown, f"screen_scenarios_{sel.year}", "screen_table")

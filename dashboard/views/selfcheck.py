@@ -11,8 +11,10 @@ from milepost.dashboard import connection, contracts, queries, ui
 from milepost.dashboard.checking import CheckedUpload
 
 st.title("Self-check")
-st.write("Upload a submission (CSV, TSV, XLSX or Parquet; a scenarios table may come with it) to see what the "
-         "checks find before you submit. The files are checked in memory and nothing is stored.")
+st.write(
+    "Upload a submission (CSV, TSV, XLSX or Parquet; a scenarios table may come with it) to see what the "
+    "checks find before you submit. The files are checked in memory and nothing is stored."
+)
 
 name = None
 if connection.db_path().exists():
@@ -27,8 +29,7 @@ if found.contract is None:
 contract = found.contract
 st.caption(f"Contract: {found.source}.")
 
-files = st.file_uploader("Files", type=["csv", "tsv", "xlsx", "parquet"], accept_multiple_files=True,
-                         key="check_files")
+files = st.file_uploader("Files", type=["csv", "tsv", "xlsx", "parquet"], accept_multiple_files=True, key="check_files")
 if not files:
     ui.stop()
 
@@ -50,17 +51,32 @@ c4.metric("Notes", counts.get("note", 0))
 if counts.get("error", 0):
     st.error("Errors found: this submission would be rejected. Fix the rows below and check again.")
 elif counts.get("warning", 0):
-    st.warning("No errors, but warnings: this submission would be accepted only if the reviewers accept "
-               "warnings (`milepost ingest --accept-warnings`). Check the rows below.")
+    st.warning(
+        "No errors, but warnings: this submission would be accepted only if the reviewers accept "
+        "warnings (`milepost ingest --accept-warnings`). Check the rows below."
+    )
 else:
     st.success("No errors or warnings: this submission would be accepted.")
 
 c1, c2, _ = st.columns([1, 1, 4])
-c1.download_button("JSON report", data=checked.json, file_name="milepost-check.json", mime="application/json",
-                   key="check_json", on_click="ignore", icon=":material/download:")
-c2.download_button("XLSX report", data=checked.xlsx, file_name="milepost-check.xlsx",
-                   mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet", key="check_xlsx",
-                   on_click="ignore", icon=":material/download:")
+c1.download_button(
+    "JSON report",
+    data=checked.json,
+    file_name="milepost-check.json",
+    mime="application/json",
+    key="check_json",
+    on_click="ignore",
+    icon=":material/download:",
+)
+c2.download_button(
+    "XLSX report",
+    data=checked.xlsx,
+    file_name="milepost-check.xlsx",
+    mime="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+    key="check_xlsx",
+    on_click="ignore",
+    icon=":material/download:",
+)
 if len(table):
     per_rule = table.groupby(["severity", "rule"]).size().rename("n").reset_index()
     ui.table(per_rule, "check_rules", "check_rules")

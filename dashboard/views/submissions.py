@@ -33,16 +33,29 @@ ids = subs["id"].astype(int).tolist()
 labels = {int(r.id): f"#{r.id} {r.model} v{r.version} ({r.status})" for r in subs.itertuples()}
 with_findings = subs.loc[subs["errors"].fillna(0) + subs["warnings"].fillna(0) + subs["notes"].fillna(0) > 0, "id"]
 default_id = int(with_findings.iloc[0]) if len(with_findings) else ids[0]
-sid = ui.url_selectbox("Submission", ids, key="subs_id", param="submission", default=default_id, cast=int,
-                       format_func=lambda i: labels.get(i, str(i)))
+sid = ui.url_selectbox(
+    "Submission",
+    ids,
+    key="subs_id",
+    param="submission",
+    default=default_id,
+    cast=int,
+    format_func=lambda i: labels.get(i, str(i)),
+)
 mine = counts[counts["submission_id"] == sid]
 c1, c2 = st.columns(2)
 with c1:
-    rules = ui.url_multiselect("Rules", sorted(mine["rule"].unique().tolist()), key="subs_rules", param="rule",
-                               placeholder="every rule")
+    rules = ui.url_multiselect(
+        "Rules", sorted(mine["rule"].unique().tolist()), key="subs_rules", param="rule", placeholder="every rule"
+    )
 with c2:
-    severities = ui.url_multiselect("Severities", sorted(mine["severity"].unique().tolist()), key="subs_sev",
-                                    param="severity", placeholder="every severity")
+    severities = ui.url_multiselect(
+        "Severities",
+        sorted(mine["severity"].unique().tolist()),
+        key="subs_sev",
+        param="severity",
+        placeholder="every severity",
+    )
 found = ui.query(queries.findings, sid, rules, severities)
 if found.empty:
     st.success("No findings for this selection.")

@@ -22,7 +22,7 @@ ROOT = Path(__file__).resolve().parents[2]
 DEMO_CONTRACT = ROOT / "example_db" / "contract"
 ROWS = 2_000_000
 FLOOR = (
-    "import duckdb, sys; duckdb.connect().execute(\"SELECT count(*) FROM read_csv(?, header = true, columns = "
+    'import duckdb, sys; duckdb.connect().execute("SELECT count(*) FROM read_csv(?, header = true, columns = '
     "{'model': 'VARCHAR', 'scenario': 'VARCHAR', 'region': 'VARCHAR', 'variable': 'VARCHAR', 'unit': 'VARCHAR', "
     "'year': 'INTEGER', 'value': 'DOUBLE'})\", [sys.argv[1]]).fetchall()"
 )
@@ -53,8 +53,9 @@ def clean_file(workdir: Path, rows: int = ROWS) -> Path:
     per_scenario = 6 * 32 * 17  # regions x variables x years of the demo contract
     parts = write_many_scenarios(workdir / "clean-parts", n_scenarios=max(1, rows // per_scenario), fmt="csv")
     data = [str(p) for p in parts if "scenarios" not in p.name]
-    duckdb.connect().execute(f"COPY (SELECT * FROM read_csv({data!r}, header = true, all_varchar = true)) "
-                             f"TO '{out}' (HEADER)")
+    duckdb.connect().execute(
+        f"COPY (SELECT * FROM read_csv({data!r}, header = true, all_varchar = true)) TO '{out}' (HEADER)"
+    )
     return out
 
 
@@ -73,18 +74,35 @@ def bench_check(workdir: Path, repeat: int = 3) -> list[dict[str, Any]]:
     results = []
     for kind, path in (("clean", clean_file(workdir)), ("dirty", dirty_file(workdir))):
         floor = timed([sys.executable, "-c", FLOOR, str(path)], repeat)
-        check = timed([sys.executable, "-m", "milepost.validate", "check", str(path), "--contract",
-                       str(DEMO_CONTRACT), "--format", "json", "--output", str(workdir / f"report-{kind}.json")],
-                      repeat)
+        check = timed(
+            [
+                sys.executable,
+                "-m",
+                "milepost.validate",
+                "check",
+                str(path),
+                "--contract",
+                str(DEMO_CONTRACT),
+                "--format",
+                "json",
+                "--output",
+                str(workdir / f"report-{kind}.json"),
+            ],
+            repeat,
+        )
         report = json.loads((workdir / f"report-{kind}.json").read_text())
-        results.append({
-            "step": f"milepost check, {kind} {report['summary']['rows']:,} rows "
-                    f"({report['summary']['errors']:,} errors)",
-            "seconds": check["seconds"], "floor_seconds": floor["seconds"],
-            "ratio": check["seconds"] / floor["seconds"], "peak_mb": check["peak_mb"],
-            "floor": "DuckDB read_csv count(*) of the same file, fresh process",
-            "target": 3.0 if kind == "clean" else None,
-        })
+        results.append(
+            {
+                "step": f"milepost check, {kind} {report['summary']['rows']:,} rows "
+                f"({report['summary']['errors']:,} errors)",
+                "seconds": check["seconds"],
+                "floor_seconds": floor["seconds"],
+                "ratio": check["seconds"] / floor["seconds"],
+                "peak_mb": check["peak_mb"],
+                "floor": "DuckDB read_csv count(*) of the same file, fresh process",
+                "target": 3.0 if kind == "clean" else None,
+            }
+        )
     return results
 
 

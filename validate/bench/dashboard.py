@@ -82,14 +82,24 @@ def run(workdir: Path) -> list[dict[str, Any]]:
             queries.summarise(_on_cursor(con, queries.rates, sel, *period), ["kind", "band"])
 
         rows = []
-        for name, fn in (("dashboard.screen", screen), ("dashboard.rates", rates),
-                         ("dashboard.choices", lambda: _on_cursor(con, queries.choices))):
+        for name, fn in (
+            ("dashboard.screen", screen),
+            ("dashboard.rates", rates),
+            ("dashboard.choices", lambda: _on_cursor(con, queries.choices)),
+        ):
             seconds, floor = _ratio(fn, lambda: _on_cursor(con, queries.full_scan))
-            rows.append({
-                "name": name, "seconds": round(seconds, 4), "baseline": "count(*), sum(value) over indicators",
-                "baseline_seconds": round(floor, 4), "ratio": round(seconds / floor, 2),
-                "scenarios": n_scen, "indicator_rows": n_ind, "repeats": REPEATS,
-            })
+            rows.append(
+                {
+                    "name": name,
+                    "seconds": round(seconds, 4),
+                    "baseline": "count(*), sum(value) over indicators",
+                    "baseline_seconds": round(floor, 4),
+                    "ratio": round(seconds / floor, 2),
+                    "scenarios": n_scen,
+                    "indicator_rows": n_ind,
+                    "repeats": REPEATS,
+                }
+            )
         return rows
     finally:
         con.close()

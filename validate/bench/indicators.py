@@ -68,8 +68,13 @@ def run(scenarios: int = 3000, regions: int = 6, contract: Contract | None = Non
         threads = con.execute("SELECT current_setting('threads')").fetchall()[0][0]
     finally:
         con.close()
-    return {"data_rows": rows, "indicator_rows": out, "seconds": seconds, "cpu_seconds": cpu_seconds,
-            "threads": float(threads)}
+    return {
+        "data_rows": rows,
+        "indicator_rows": out,
+        "seconds": seconds,
+        "cpu_seconds": cpu_seconds,
+        "threads": float(threads),
+    }
 
 
 def main() -> None:

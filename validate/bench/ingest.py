@@ -23,9 +23,11 @@ ROWS = 2_000_000
 LIMIT = 2.0  # the requirement: ingest at most 2x DuckDB's own load of the same CSV
 REPEATS = 3
 DOWNGRADED = ("sum-of-parts", "sum-of-regions", "base-year-deviation", "out-of-bounds")
-DUCKDB_LOAD = ("import duckdb, json, sys; con = duckdb.connect(sys.argv[2]); "
-               "con.execute('CREATE TABLE data AS SELECT * FROM read_csv(?, header = true)', "
-               "[json.loads(sys.argv[1])]); con.close()")
+DUCKDB_LOAD = (
+    "import duckdb, json, sys; con = duckdb.connect(sys.argv[2]); "
+    "con.execute('CREATE TABLE data AS SELECT * FROM read_csv(?, header = true)', "
+    "[json.loads(sys.argv[1])]); con.close()"
+)
 
 
 def bench_contract(workdir: Path) -> Path:
@@ -37,7 +39,8 @@ def bench_contract(workdir: Path) -> Path:
     severities = "\n".join(f'"{rule}" = "note"' for rule in DOWNGRADED)
     (folder / "contract.toml").write_text(
         f'name = "ingest-benchmark"\nextends = "{CONTRACT_DIR.resolve().as_posix()}"\n\n[severity]\n{severities}\n',
-        encoding="utf-8")
+        encoding="utf-8",
+    )
     return folder
 
 
@@ -54,8 +57,19 @@ def _timed(cmd: list[str]) -> tuple[float, subprocess.CompletedProcess[str]]:
 
 
 def _ingest_cmd(files: list[Path], db: Path, contract: Path) -> list[str]:
-    return [sys.executable, "-m", "milepost.validate", "ingest", *map(str, files), "--db", str(db), "-c",
-            str(contract), "--format", "json"]
+    return [
+        sys.executable,
+        "-m",
+        "milepost.validate",
+        "ingest",
+        *map(str, files),
+        "--db",
+        str(db),
+        "-c",
+        str(contract),
+        "--format",
+        "json",
+    ]
 
 
 def _ingest(files: list[Path], db: Path, contract: Path) -> tuple[float, dict[str, Any]]:
@@ -68,8 +82,7 @@ def _ingest(files: list[Path], db: Path, contract: Path) -> tuple[float, dict[st
     return seconds, payload
 
 
-def _compare(files: list[Path], contract: Path, workdir: Path, repeats: int, name: str,
-             rows: int) -> dict[str, Any]:
+def _compare(files: list[Path], contract: Path, workdir: Path, repeats: int, name: str, rows: int) -> dict[str, Any]:
     """Alternate DuckDB's own load and `milepost ingest` of the same files, each into a new database file."""
     plain_db, ingest_db = workdir / "duckdb-load.duckdb", workdir / "ingest.duckdb"
     sources = json.dumps([str(f) for f in files if not f.name.endswith("-scenarios.csv")])
@@ -117,12 +130,29 @@ def run(workdir: Path, rows: int = ROWS, repeats: int = REPEATS) -> list[dict[st
     if not csv.exists():
         gen.write_synthetic(csv, rows)
     contract = bench_contract(workdir)
-    results = [_compare([csv], contract, workdir, repeats, f"ingest the {rows:,}-row synthetic CSV vs DuckDB "
-                        "CREATE TABLE AS read_csv (benchmark contract)", rows)]
+    results = [
+        _compare(
+            [csv],
+            contract,
+            workdir,
+            repeats,
+            f"ingest the {rows:,}-row synthetic CSV vs DuckDB CREATE TABLE AS read_csv (benchmark contract)",
+            rows,
+        )
+    ]
     per_scenario = len(gen.ALL_REGIONS) * len(gen.contract().variables) * len(gen.YEARS)
     many = gen.write_many_scenarios(workdir / "ensemble", n_scenarios=max(4, rows // per_scenario), fmt="csv")
-    results.append(_compare(many, gen.CONTRACT_DIR, workdir, repeats, "ingest a consistent ensemble of about "
-                            f"{rows:,} rows (4 CSV files) vs DuckDB loading the same CSVs (demo contract)", rows))
+    results.append(
+        _compare(
+            many,
+            gen.CONTRACT_DIR,
+            workdir,
+            repeats,
+            "ingest a consistent ensemble of about "
+            f"{rows:,} rows (4 CSV files) vs DuckDB loading the same CSVs (demo contract)",
+            rows,
+        )
+    )
     # The database left by the last run above; make it the big synthetic one again.
     ingest_db = workdir / "ingest.duckdb"
     _remove_db(ingest_db)
@@ -131,13 +161,15 @@ def run(workdir: Path, rows: int = ROWS, repeats: int = REPEATS) -> list[dict[st
     small = workdir / "synthetic-small.csv"
     gen.write_synthetic(small, small_rows, seed=1)
     seconds, payload = _ingest([small], ingest_db, contract)
-    results.append({
-        "name": f"ingest a {small_rows:,}-row CSV into the existing {rows:,}-row database (copy-and-swap cost)",
-        "rows": small_rows,
-        "seconds": round(seconds, 3),
-        "stages": payload["timings"],
-        "db_bytes": ingest_db.stat().st_size,
-    })
+    results.append(
+        {
+            "name": f"ingest a {small_rows:,}-row CSV into the existing {rows:,}-row database (copy-and-swap cost)",
+            "rows": small_rows,
+            "seconds": round(seconds, 3),
+            "stages": payload["timings"],
+            "db_bytes": ingest_db.stat().st_size,
+        }
+    )
     return results
 
 

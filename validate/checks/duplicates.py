@@ -11,8 +11,10 @@ def check_duplicates(ctx: Context) -> list[str]:
     Reads `dups` (one row per repeated key, built with `checked`), so a file without repeats costs nothing here.
     """
     same = "(d.vmax - d.vmin) <= 1e-9 * greatest(abs(d.vmax), abs(d.vmin), 1e-300)"
-    where = ("CASE WHEN d.src_last = d.src THEN 'lines ' || d.line || ' and ' || d.line_last "
-             "ELSE i.path || ':' || d.line || ' and ' || j.path || ':' || d.line_last END")
+    where = (
+        "CASE WHEN d.src_last = d.src THEN 'lines ' || d.line || ' and ' || d.line_last "
+        "ELSE i.path || ':' || d.line || ' and ' || j.path || ':' || d.line_last END"
+    )
     row = "i.path, i.sheet, d.line, d.model, d.scenario, d.region, d.variable, d.unit, d.year"
     src = "FROM dups d JOIN c_inputs i ON i.src = d.src JOIN c_inputs j ON j.src = d.src_last"
     return [

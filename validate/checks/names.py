@@ -24,8 +24,12 @@ def suggest(name: str, known: list[str]) -> str | None:
 
 
 def _hints_table(ctx: Context, table: str, column: str, known: list[str], is_known: Callable[[str], bool]) -> bool:
-    names = [r[0] for r in ctx.con.execute(
-        f"SELECT DISTINCT {column} FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> ''").fetchall()]
+    names = [
+        r[0]
+        for r in ctx.con.execute(
+            f"SELECT DISTINCT {column} FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> ''"
+        ).fetchall()
+    ]
     unknown = [n for n in names if not is_known(n)]
     rows = [(n, suggest(n, known)) for n in unknown]
     ctx.con.execute(f"CREATE OR REPLACE TEMP TABLE {table} (name VARCHAR, suggestion VARCHAR)")

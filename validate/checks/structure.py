@@ -15,35 +15,76 @@ def file_findings(ctx: Context) -> list[Finding]:
     out: list[Finding] = []
     for inp in ctx.inputs:
         if inp.kind == "unreadable":
-            out.append(Finding("unreadable-file", "error", path=inp.path, line=inp.error_line,
-                               message=f"cannot read {inp.path}: {inp.error}",
-                               hint="Save the table as CSV (UTF-8), XLSX or Parquet in long format with columns "
-                                    + ", ".join(LONG_COLUMNS) + "."))
+            out.append(
+                Finding(
+                    "unreadable-file",
+                    "error",
+                    path=inp.path,
+                    line=inp.error_line,
+                    message=f"cannot read {inp.path}: {inp.error}",
+                    hint="Save the table as CSV (UTF-8), XLSX or Parquet in long format with columns "
+                    + ", ".join(LONG_COLUMNS)
+                    + ".",
+                )
+            )
             continue
         for line, why in inp.rejects:
-            out.append(Finding("unreadable-file", "error", path=inp.path, line=line,
-                               message=f"line {line} cannot be split into columns: {why}",
-                               hint="Check quoting and the number of delimiters on this line."))
+            out.append(
+                Finding(
+                    "unreadable-file",
+                    "error",
+                    path=inp.path,
+                    line=line,
+                    message=f"line {line} cannot be split into columns: {why}",
+                    hint="Check quoting and the number of delimiters on this line.",
+                )
+            )
         if inp.missing_columns:
             found = list(inp.columns.values()) + inp.extra_columns
             hint = "Name the columns " + ", ".join(LONG_COLUMNS) + " (case and spaces do not matter)."
             if len(found) == 1:
                 hint += " The header has a single column: is the delimiter a comma, semicolon or tab?"
-            out.append(Finding("missing-column", "error", path=inp.path, line=1, sheet=inp.sheet,
-                               value=shorten(found), expected=", ".join(LONG_COLUMNS),
-                               message=f"{inp.path} has no column {', '.join(inp.missing_columns)}; "
-                                       f"its header is: {shorten(found)}",
-                               hint=hint))
+            out.append(
+                Finding(
+                    "missing-column",
+                    "error",
+                    path=inp.path,
+                    line=1,
+                    sheet=inp.sheet,
+                    value=shorten(found),
+                    expected=", ".join(LONG_COLUMNS),
+                    message=f"{inp.path} has no column {', '.join(inp.missing_columns)}; "
+                    f"its header is: {shorten(found)}",
+                    hint=hint,
+                )
+            )
         if inp.kind == "data" and inp.rows == 0 and not inp.rejects:
-            out.append(Finding("empty-table", "error", path=inp.path, line=2, sheet=inp.sheet,
-                               expected="at least one data row", message=f"{inp.path} has a header but no data rows",
-                               hint="Export the data rows too, below the header."))
+            out.append(
+                Finding(
+                    "empty-table",
+                    "error",
+                    path=inp.path,
+                    line=2,
+                    sheet=inp.sheet,
+                    expected="at least one data row",
+                    message=f"{inp.path} has a header but no data rows",
+                    hint="Export the data rows too, below the header.",
+                )
+            )
         if inp.extra_columns and inp.kind == "data":
-            out.append(Finding("unexpected-column", "warning", path=inp.path, line=1, sheet=inp.sheet,
-                               value=shorten(inp.extra_columns), expected=", ".join(LONG_COLUMNS),
-                               message=f"column(s) {shorten(inp.extra_columns)} are not part of the long format "
-                                       "and were ignored",
-                               hint="Move scenario attributes into a scenarios table (model, scenario, ...)."))
+            out.append(
+                Finding(
+                    "unexpected-column",
+                    "warning",
+                    path=inp.path,
+                    line=1,
+                    sheet=inp.sheet,
+                    value=shorten(inp.extra_columns),
+                    expected=", ".join(LONG_COLUMNS),
+                    message=f"column(s) {shorten(inp.extra_columns)} are not part of the long format and were ignored",
+                    hint="Move scenario attributes into a scenarios table (model, scenario, ...).",
+                )
+            )
     return out
 
 
@@ -56,8 +97,10 @@ def check_missing_cells(ctx: Context) -> list[str]:
     gaps = ctx.con.execute(f"SELECT count(*) FROM combos WHERE {empty}").fetchall()[0][0]
     where = f"{empty} OR {no_value} OR {no_year}" if gaps else f"{no_value} OR {no_year}"
     bad = f"WITH bad AS MATERIALIZED (SELECT * FROM obs WHERE {where}) "
-    key_tests = [f"SELECT {_ROW}, {sql_str(c)} AS col, NULL AS raw FROM bad WHERE {c} IS NULL OR trim({c}) = ''"
-                 for c in KEY_TEXT]
+    key_tests = [
+        f"SELECT {_ROW}, {sql_str(c)} AS col, NULL AS raw FROM bad WHERE {c} IS NULL OR trim({c}) = ''"
+        for c in KEY_TEXT
+    ]
     year_test = f"SELECT {_ROW}, 'year' AS col, NULL AS raw FROM bad WHERE {no_year}"
     value_test = f"SELECT {_ROW}, 'value' AS col, value_raw AS raw FROM bad WHERE {no_value}"
     union = " UNION ALL ".join([*key_tests, year_test, value_test])

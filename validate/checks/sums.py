@@ -11,15 +11,19 @@ from milepost.validate.checks.context import Context, fmt
 
 
 def _diff_pct(reported: str, expected: str) -> str:
-    return (f"CASE WHEN {expected} = 0 THEN '' ELSE ' (' || printf('%+.2f', ({reported} - {expected}) "
-            f"/ abs({expected}) * 100) || ' %)' END")
+    return (
+        f"CASE WHEN {expected} = 0 THEN '' ELSE ' (' || printf('%+.2f', ({reported} - {expected}) "
+        f"/ abs({expected}) * 100) || ' %)' END"
+    )
 
 
 def check_sum_of_parts(ctx: Context) -> list[str]:
     """sum-of-parts: a total that differs from the weighted sum of its (complete) parts beyond the tolerance."""
     # One join and one group: each row meets the totals it is a part of and, as a total, its own group.
-    roles = ("SELECT total, part AS variable, factor, false AS is_total FROM e_parts UNION ALL "
-             "SELECT DISTINCT total, total AS variable, 1.0, true FROM e_parts")
+    roles = (
+        "SELECT total, part AS variable, factor, false AS is_total FROM e_parts UNION ALL "
+        "SELECT DISTINCT total, total AS variable, 1.0, true FROM e_parts"
+    )
     failing = (
         "WITH p AS (SELECT c.model, c.scenario, c.region, c.year, r.total, "
         "sum(c.value * r.factor) FILTER (WHERE NOT r.is_total) AS expected, count(*) FILTER (WHERE NOT r.is_total) "
@@ -38,16 +42,23 @@ def check_sum_of_parts(ctx: Context) -> list[str]:
     return [
         failing + "SELECT 'sum-of-parts' AS rule, i.path, i.sheet, t.line, t.model, t.scenario, t.region, "
         f"t.total AS variable, t.unit, t.year, {fmt('t.reported')} AS value, {fmt('t.expected')} AS expected, "
-        "t.total || ' is ' || " + fmt("t.reported") + " || ' but its parts sum to ' || " + fmt("t.expected")
-        + " || " + _diff_pct("t.reported", "t.expected") + " AS message, 'parts: ' || d.parts AS hint "
+        "t.total || ' is ' || "
+        + fmt("t.reported")
+        + " || ' but its parts sum to ' || "
+        + fmt("t.expected")
+        + " || "
+        + _diff_pct("t.reported", "t.expected")
+        + " AS message, 'parts: ' || d.parts AS hint "
         "FROM bad t JOIN detail d USING (model, scenario, region, year, total) JOIN c_inputs i ON i.src = t.src"
     ]
 
 
 def check_sum_of_regions(ctx: Context) -> list[str]:
     """sum-of-regions: a region unequal to the sum of its parts, or regions of a net-zero variable not netting out."""
-    roles = ("SELECT parent, part AS region, false AS is_total FROM e_region_parts UNION ALL "
-             "SELECT DISTINCT parent, parent AS region, true FROM e_region_parts")
+    roles = (
+        "SELECT parent, part AS region, false AS is_total FROM e_region_parts UNION ALL "
+        "SELECT DISTINCT parent, parent AS region, true FROM e_region_parts"
+    )
     grouped = (
         "SELECT c.model, c.scenario, r.parent, c.variable, c.year, any_value(v.regions) AS rule_kind, "
         "any_value(c.unit) AS unit, "
@@ -76,10 +87,15 @@ def check_sum_of_regions(ctx: Context) -> list[str]:
         "b.scenario, b.parent AS region, b.variable, b.unit, b.year, "
         "CASE WHEN b.rule_kind = 'sum' THEN " + fmt("b.reported") + " ELSE " + fmt("b.expected") + " END AS value, "
         "CASE WHEN b.rule_kind = 'sum' THEN " + fmt("b.expected") + " ELSE '0' END AS expected, "
-        "CASE WHEN b.rule_kind = 'sum' THEN b.parent || ' ' || b.variable || ' is ' || " + fmt("b.reported")
-        + " || ' but its regions sum to ' || " + fmt("b.expected") + " || " + _diff_pct("b.reported", "b.expected")
+        "CASE WHEN b.rule_kind = 'sum' THEN b.parent || ' ' || b.variable || ' is ' || "
+        + fmt("b.reported")
+        + " || ' but its regions sum to ' || "
+        + fmt("b.expected")
+        + " || "
+        + _diff_pct("b.reported", "b.expected")
         + " ELSE 'the regions of ' || b.parent || ' must net to zero for ' || b.variable || ', but sum to ' || "
-        + fmt("b.expected") + " END AS message, 'regions: ' || d.regions AS hint "
+        + fmt("b.expected")
+        + " END AS message, 'regions: ' || d.regions AS hint "
         "FROM bad b JOIN detail d USING (model, scenario, parent, variable, year) "
         "JOIN c_inputs i ON i.src = b.src"
     ]

@@ -17,7 +17,8 @@ def build_unit_map(ctx: Context) -> bool:
     Returns whether any unit differs from the contract's."""
     pairs = ctx.con.execute(
         "SELECT DISTINCT o.variable, o.unit FROM combos o JOIN c_variables v ON o.variable = v.variable "
-        "WHERE o.unit IS NOT NULL AND trim(o.unit) <> ''").fetchall()
+        "WHERE o.unit IS NOT NULL AND trim(o.unit) <> ''"
+    ).fetchall()
     units = ctx.contract.units
     rows = []
     for variable, unit in pairs:
@@ -30,11 +31,14 @@ def build_unit_map(ctx: Context) -> bool:
         except UnitError as e:
             rows.append((variable, unit, None, "wrong", target, str(e)))
             continue
-        spelling = normalise(unit) == normalise(target) or (abs(factor - 1.0) < 1e-12 and
-                                                            units.parse(unit) == units.parse(target))
+        spelling = normalise(unit) == normalise(target) or (
+            abs(factor - 1.0) < 1e-12 and units.parse(unit) == units.parse(target)
+        )
         rows.append((variable, unit, factor, "spelling" if spelling else "converted", target, None))
-    ctx.con.execute("CREATE OR REPLACE TEMP TABLE unit_map (variable VARCHAR, unit VARCHAR, factor DOUBLE, "
-                    "status VARCHAR, target VARCHAR, why VARCHAR)")
+    ctx.con.execute(
+        "CREATE OR REPLACE TEMP TABLE unit_map (variable VARCHAR, unit VARCHAR, factor DOUBLE, "
+        "status VARCHAR, target VARCHAR, why VARCHAR)"
+    )
     if rows:
         ctx.con.executemany("INSERT INTO unit_map VALUES (?, ?, ?, ?, ?, ?)", rows)
     return any(r[3] != "same" for r in rows)

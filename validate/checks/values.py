@@ -20,7 +20,7 @@ def check_sign(ctx: Context) -> list[str]:
 
 def check_bounds(ctx: Context) -> list[str]:
     """out-of-bounds: a value outside a plausibility bound of the contract (a warning: it may be right)."""
-    rng = ("coalesce(" + fmt("b.low") + ", '-∞') || ' … ' || coalesce(" + fmt("b.high") + ", '∞')")
+    rng = "coalesce(" + fmt("b.low") + ", '-∞') || ' … ' || coalesce(" + fmt("b.high") + ", '∞')"
     return [
         f"SELECT 'out-of-bounds' AS rule, {_ROW}, {fmt('c.value')} AS value, {rng} AS expected, "
         f"c.variable || ' = ' || {fmt('c.value')} || ' ' || c.unit || ' is outside the plausible range ' || {rng} "

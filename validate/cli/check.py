@@ -25,14 +25,27 @@ class FailOn(StrEnum):
 
 @handle_errors
 def check(
-    files: Annotated[list[Path], typer.Argument(help="Submission files: CSV/TSV, XLSX or Parquet data tables, "
-                                                     "and optionally a scenarios table.", show_default=False)],
+    files: Annotated[
+        list[Path],
+        typer.Argument(
+            help="Submission files: CSV/TSV, XLSX or Parquet data tables, and optionally a scenarios table.",
+            show_default=False,
+        ),
+    ],
     contract: ContractOption = None,
     fmt: Annotated[Format, typer.Option("--format", "-f", help="Report format.")] = Format.text,
-    output: Annotated[Path | None, typer.Option("--output", "-o", help="Write the report here (xlsx needs it; "
-                                                "text and json default to standard output).", dir_okay=False)] = None,
-    fail_on: Annotated[FailOn, typer.Option("--fail-on", help="Exit 1 when findings of this severity (or worse) "
-                                            "exist.")] = FailOn.error,
+    output: Annotated[
+        Path | None,
+        typer.Option(
+            "--output",
+            "-o",
+            help="Write the report here (xlsx needs it; text and json default to standard output).",
+            dir_okay=False,
+        ),
+    ] = None,
+    fail_on: Annotated[
+        FailOn, typer.Option("--fail-on", help="Exit 1 when findings of this severity (or worse) exist.")
+    ] = FailOn.error,
     limit: Annotated[int, typer.Option(help="Findings shown in the text report.", min=0)] = 200,
 ) -> None:
     """Check submission files against the contract. Exit 0: passed; 1: findings at the fail level; 2: usage error."""
@@ -60,8 +73,11 @@ def check(
             print_text(result, fail_on.value, limit)
     elif output is not None or fmt is Format.json:
         verdict = "passed" if result.passed(fail_on.value) else "failed"
-        typer.echo(f"{verdict}: {result.counts['error']} errors, {result.counts['warning']} warnings, "
-                   f"{result.counts['note']} notes in {result.rows} rows", err=True)
+        typer.echo(
+            f"{verdict}: {result.counts['error']} errors, {result.counts['warning']} warnings, "
+            f"{result.counts['note']} notes in {result.rows} rows",
+            err=True,
+        )
     raise typer.Exit(EXIT_OK if result.passed(fail_on.value) else EXIT_FINDINGS)
 
 

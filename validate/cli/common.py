@@ -23,10 +23,12 @@ class TextJson(StrEnum):
     text = "text"
     json = "json"
 
+
 ContractOption = Annotated[
     Path | None,
-    typer.Option("--contract", "-c", help="Contract folder (default: the core contract shipped with milepost).",
-                 file_okay=False),
+    typer.Option(
+        "--contract", "-c", help="Contract folder (default: the core contract shipped with milepost).", file_okay=False
+    ),
 ]
 
 F = TypeVar("F", bound=Callable[..., Any])

@@ -10,10 +10,13 @@ import typer
 
 from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, TextJson, fail, handle_errors, load_contract
 
-contract_app = typer.Typer(help="Inspect a contract: lint it, show it resolved, or write a submission template.",
-                           no_args_is_help=True)
-DirArg = Annotated[Path | None, typer.Argument(help="Contract folder (default: the core contract).",
-                                               file_okay=False, show_default=False)]
+contract_app = typer.Typer(
+    help="Inspect a contract: lint it, show it resolved, or write a submission template.", no_args_is_help=True
+)
+DirArg = Annotated[
+    Path | None,
+    typer.Argument(help="Contract folder (default: the core contract).", file_okay=False, show_default=False),
+]
 
 
 @contract_app.command("lint")
@@ -30,15 +33,18 @@ def lint_cmd(directory: DirArg = None) -> None:
     if problems:
         typer.echo(f"FAILED: contract {c.name} has {len(problems)} problem(s)")
         raise typer.Exit(EXIT_FINDINGS)
-    typer.echo(f"PASSED: contract {c.name} ({c.hash[:12]}): {len(c.variables)} variables, {len(c.regions)} regions, "
-               f"{len(c.reference)} reference values, {len(c.bounds)} bounds")
+    typer.echo(
+        f"PASSED: contract {c.name} ({c.hash[:12]}): {len(c.variables)} variables, {len(c.regions)} regions, "
+        f"{len(c.reference)} reference values, {len(c.bounds)} bounds"
+    )
     raise typer.Exit(EXIT_OK)
 
 
 @contract_app.command("show")
 @handle_errors
-def show_cmd(directory: DirArg = None,
-             fmt: Annotated[TextJson, typer.Option("--format", "-f")] = TextJson.text) -> None:
+def show_cmd(
+    directory: DirArg = None, fmt: Annotated[TextJson, typer.Option("--format", "-f")] = TextJson.text
+) -> None:
     """Print the resolved contract (after `extends`), with its hash."""
     c = load_contract(directory, strict=False)
     if fmt is TextJson.json:
@@ -47,11 +53,15 @@ def show_cmd(directory: DirArg = None,
     typer.echo(f"contract {c.name}  hash {c.hash}")
     typer.echo(f"  {c.description}")
     typer.echo(f"  sources: {' <- '.join(c.sources)}")
-    typer.echo(f"  years {c.first_year}–{c.last_year}, base {c.base_year}, milestones "
-               f"{', '.join(map(str, c.milestones))}; required in {', '.join(c.required_regions)}")
+    typer.echo(
+        f"  years {c.first_year}–{c.last_year}, base {c.base_year}, milestones "
+        f"{', '.join(map(str, c.milestones))}; required in {', '.join(c.required_regions)}"
+    )
     t = c.tolerance
-    typer.echo(f"  tolerance: sums ±{t.sum_relative * 100:g} % (floor {t.sum_absolute:g}), base year "
-               f"±{t.base_year_relative * 100:g} %; GWP set {c.gwp_set}; discount rate {c.discount_rate:g} %/yr")
+    typer.echo(
+        f"  tolerance: sums ±{t.sum_relative * 100:g} % (floor {t.sum_absolute:g}), base year "
+        f"±{t.base_year_relative * 100:g} %; GWP set {c.gwp_set}; discount rate {c.discount_rate:g} %/yr"
+    )
     typer.echo("")
     typer.echo(f"{'variable':<34}{'unit':<22}{'req':<5}{'sign':<14}{'regions':<8}parts")
     for v in c.variables.values():
@@ -68,8 +78,9 @@ def show_cmd(directory: DirArg = None,
 @handle_errors
 def template_cmd(
     directory: DirArg = None,
-    output: Annotated[Path, typer.Option("--output", "-o", help="FILE.xlsx (with drop-down lists) or FILE.csv.",
-                                         dir_okay=False)] = Path("submission-template.xlsx"),
+    output: Annotated[
+        Path, typer.Option("--output", "-o", help="FILE.xlsx (with drop-down lists) or FILE.csv.", dir_okay=False)
+    ] = Path("submission-template.xlsx"),
 ) -> None:
     """Write an empty long-format submission template for the contract."""
     from milepost.validate.template import write_template

@@ -21,19 +21,32 @@ def app_path() -> Path:
     return Path(milepost.dashboard.__file__).parent / "app.py"
 
 
-def streamlit_command(db: Path, port: int, address: str = "127.0.0.1",
-                      contract: Path | None = None) -> tuple[list[str], dict[str, str]]:
+def streamlit_command(
+    db: Path, port: int, address: str = "127.0.0.1", contract: Path | None = None
+) -> tuple[list[str], dict[str, str]]:
     """The `streamlit run` command line and environment that serve the dashboard headless, without telemetry."""
     argv = [
-        sys.executable, "-m", "streamlit", "run", str(app_path()),
-        "--server.headless", "true",
-        "--server.port", str(port),
-        "--server.address", address,
-        "--server.maxUploadSize", str(MAX_UPLOAD_MB),
-        "--server.fileWatcherType", "none",
-        "--server.runOnSave", "false",
-        "--browser.gatherUsageStats", "false",
-        "--client.toolbarMode", "minimal",
+        sys.executable,
+        "-m",
+        "streamlit",
+        "run",
+        str(app_path()),
+        "--server.headless",
+        "true",
+        "--server.port",
+        str(port),
+        "--server.address",
+        address,
+        "--server.maxUploadSize",
+        str(MAX_UPLOAD_MB),
+        "--server.fileWatcherType",
+        "none",
+        "--server.runOnSave",
+        "false",
+        "--browser.gatherUsageStats",
+        "false",
+        "--client.toolbarMode",
+        "minimal",
     ]
     env = {**os.environ, "MILEPOST_DB": str(db.resolve()), "STREAMLIT_BROWSER_GATHER_USAGE_STATS": "false"}
     if contract is not None:
@@ -47,15 +60,32 @@ def register(app: typer.Typer) -> None:
     @app.command("dashboard")
     @handle_errors
     def dashboard_cmd(
-        db: Annotated[Path | None, typer.Option("--db", help="Database file (default: $MILEPOST_DB, else "
-                                                "./milepost.duckdb). Opened read-only.", dir_okay=False)] = None,
+        db: Annotated[
+            Path | None,
+            typer.Option(
+                "--db",
+                help="Database file (default: $MILEPOST_DB, else ./milepost.duckdb). Opened read-only.",
+                dir_okay=False,
+            ),
+        ] = None,
         port: Annotated[int, typer.Option("--port", "-p", help="Port to serve on.", min=1, max=65535)] = 8501,
-        address: Annotated[str, typer.Option("--address", help="Interface to listen on (0.0.0.0 = every "
-                                             "interface; mind who can reach it).")] = "127.0.0.1",
-        contract: Annotated[Path | None, typer.Option("--contract", "-c", file_okay=False,
-                                                      help="Contract folder for reference values and the "
-                                                      "self-check (default: the bundled contract the database "
-                                                      "names).")] = None,
+        address: Annotated[
+            str,
+            typer.Option(
+                "--address", help="Interface to listen on (0.0.0.0 = every interface; mind who can reach it)."
+            ),
+        ] = "127.0.0.1",
+        contract: Annotated[
+            Path | None,
+            typer.Option(
+                "--contract",
+                "-c",
+                file_okay=False,
+                help="Contract folder for reference values and the "
+                "self-check (default: the bundled contract the database "
+                "names).",
+            ),
+        ] = None,
     ) -> None:
         """Serve the reviewer dashboard: screen scenarios by a milestone value, compare rates and costs per band."""
         from milepost.validate.store.database import default_db_path

@@ -14,8 +14,12 @@ from milepost.validate.cli.common import EXIT_OK, ContractOption, TextJson, fail
 
 DbOption = Annotated[
     Path | None,
-    typer.Option("--db", help="Database file (default: $MILEPOST_DB, else ./milepost.duckdb).", dir_okay=False,
-                 show_default=False),
+    typer.Option(
+        "--db",
+        help="Database file (default: $MILEPOST_DB, else ./milepost.duckdb).",
+        dir_okay=False,
+        show_default=False,
+    ),
 ]
 
 
@@ -43,17 +47,28 @@ def _scenario_list(names: list[str], limit: int = 6) -> str:
 
 @handle_errors
 def ingest_cmd(
-    files: Annotated[list[Path], typer.Argument(help="The files of one submission: data tables (CSV/TSV, XLSX, "
-                                                     "Parquet) and optionally a scenarios table.",
-                                                exists=True, dir_okay=False, show_default=False)],
+    files: Annotated[
+        list[Path],
+        typer.Argument(
+            help="The files of one submission: data tables (CSV/TSV, XLSX, Parquet) and optionally a scenarios table.",
+            exists=True,
+            dir_okay=False,
+            show_default=False,
+        ),
+    ],
     db: DbOption = None,
     contract: ContractOption = None,
     by: Annotated[str | None, typer.Option("--by", help="Who submits (default: the login name).")] = None,
     note: Annotated[str | None, typer.Option("--note", help="A note stored with the submission.")] = None,
-    accept_warnings: Annotated[bool, typer.Option(
-        "--accept-warnings", help="Accept a submission whose findings are warnings only.")] = False,
-    wait: Annotated[float | None, typer.Option("--wait", min=0, help="Seconds to wait for another ingest "
-                                               "(default: $MILEPOST_LOCK_TIMEOUT, else 120).")] = None,
+    accept_warnings: Annotated[
+        bool, typer.Option("--accept-warnings", help="Accept a submission whose findings are warnings only.")
+    ] = False,
+    wait: Annotated[
+        float | None,
+        typer.Option(
+            "--wait", min=0, help="Seconds to wait for another ingest (default: $MILEPOST_LOCK_TIMEOUT, else 120)."
+        ),
+    ] = None,
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Report format.")] = TextJson.text,
     limit: Annotated[int, typer.Option(help="Findings listed for a rejected submission.", min=0)] = 20,
 ) -> None:
@@ -63,8 +78,17 @@ def ingest_cmd(
     from milepost.validate.store.ingest import ingest
 
     c = load_contract(contract)
-    result = ingest(files, default_db_path(db), c, by=by, note=note, accept_warnings=accept_warnings, progress=True,
-                    lock_timeout=wait, on_wait=warn)
+    result = ingest(
+        files,
+        default_db_path(db),
+        c,
+        by=by,
+        note=note,
+        accept_warnings=accept_warnings,
+        progress=True,
+        lock_timeout=wait,
+        on_wait=warn,
+    )
     if fmt is TextJson.json:
         _echo_json(result.to_dict())
         raise typer.Exit(result.exit_code)
@@ -76,8 +100,10 @@ def ingest_cmd(
     counts = result.counts
     tally = f"{counts['error']} errors, {counts['warning']} warnings, {counts['note']} notes"
     if result.status == "accepted":
-        typer.echo(f"Accepted as submission {result.submission_id}: model {result.model}, {scen}, "
-                   f"{result.rows:,} rows stored in {result.db}.")
+        typer.echo(
+            f"Accepted as submission {result.submission_id}: model {result.model}, {scen}, "
+            f"{result.rows:,} rows stored in {result.db}."
+        )
         if result.replaced:
             older = ", ".join(f"{r['scenario']} (submission {r['submission_id']})" for r in result.replaced)
             typer.echo(f"New version of: {older}; the older versions are kept as history.")
@@ -88,13 +114,14 @@ def ingest_cmd(
             typer.echo(f"Indicators recomputed against the new reference for: {names}.")
         typer.echo(f"Findings: {tally} (stored with the submission).")
         raise typer.Exit(EXIT_OK)
-    typer.echo(f"Rejected as submission {result.submission_id}: model {result.model or '-'}, {scen}: "
-               f"{result.reason}.")
+    typer.echo(f"Rejected as submission {result.submission_id}: model {result.model or '-'}, {scen}: {result.reason}.")
     for f in result.findings[:limit]:
         typer.echo(finding_line(f))
     if len(result.findings) > limit or counts["error"] + counts["warning"] > limit:
-        typer.echo(f"... all findings are stored: milepost export --what findings --submission "
-                   f"{result.submission_id} --format csv -o findings.csv")
+        typer.echo(
+            f"... all findings are stored: milepost export --what findings --submission "
+            f"{result.submission_id} --format csv -o findings.csv"
+        )
     typer.echo(f"Findings: {tally}.")
     raise typer.Exit(result.exit_code)
 
@@ -115,32 +142,42 @@ def submissions_cmd(
     if not rows:
         typer.echo("No submissions yet.")
         return
-    header = f"{'id':>4}  {'status':<16}  {'model':<16}  {'ver':>3}  {'scen':>4}  {'rows':>10}  " \
-             f"{'err':>5}  {'warn':>5}  {'submitted (UTC)':<19}  {'by':<12}  files"
+    header = (
+        f"{'id':>4}  {'status':<16}  {'model':<16}  {'ver':>3}  {'scen':>4}  {'rows':>10}  "
+        f"{'err':>5}  {'warn':>5}  {'submitted (UTC)':<19}  {'by':<12}  files"
+    )
     typer.echo(header)
     for r in rows:
         status = r["status"] + (f" by {r['superseded_by']}" if r["superseded_by"] else "")
         ver = f"v{r['version']}" if r["version"] else "-"
         files = ", ".join(f["name"] for f in r["files"])
-        typer.echo(f"{r['id']:>4}  {status:<16}  {(r['model'] or '-'):<16}  {ver:>3}  {len(r['scenarios']):>4}  "
-                   f"{r['rows']:>10,}  {r['errors']:>5}  {r['warnings']:>5}  {r['submitted_at'] or '-':<19}  "
-                   f"{(r['submitted_by'] or '-'):<12}  {files}")
+        typer.echo(
+            f"{r['id']:>4}  {status:<16}  {(r['model'] or '-'):<16}  {ver:>3}  {len(r['scenarios']):>4}  "
+            f"{r['rows']:>10,}  {r['errors']:>5}  {r['warnings']:>5}  {r['submitted_at'] or '-':<19}  "
+            f"{(r['submitted_by'] or '-'):<12}  {files}"
+        )
 
 
 @handle_errors
 def export_cmd(
-    what: Annotated[What, typer.Option("--what", help="Which rows: current data, current indicators, or the "
-                                       "findings of every submission.", show_default=False)],
+    what: Annotated[
+        What,
+        typer.Option(
+            "--what",
+            help="Which rows: current data, current indicators, or the findings of every submission.",
+            show_default=False,
+        ),
+    ],
     fmt: Annotated[ExportFormat, typer.Option("--format", "-f", help="File format.", show_default=False)],
-    output: Annotated[Path, typer.Option("--output", "-o", help="File to write.", dir_okay=False,
-                                         show_default=False)],
+    output: Annotated[Path, typer.Option("--output", "-o", help="File to write.", dir_okay=False, show_default=False)],
     db: DbOption = None,
     model: Annotated[list[str] | None, typer.Option("--model", help="Only this model (repeatable).")] = None,
     scenario: Annotated[list[str] | None, typer.Option("--scenario", help="Only this scenario (repeatable).")] = None,
     region: Annotated[list[str] | None, typer.Option("--region", help="Only this region (repeatable).")] = None,
     variable: Annotated[list[str] | None, typer.Option("--variable", help="Only this variable (repeatable).")] = None,
-    submission: Annotated[list[int] | None, typer.Option("--submission", help="Rows of this submission, current or "
-                                                         "not (repeatable).")] = None,
+    submission: Annotated[
+        list[int] | None, typer.Option("--submission", help="Rows of this submission, current or not (repeatable).")
+    ] = None,
 ) -> None:
     """Export data, indicators or findings as CSV, Parquet or XLSX."""
     from milepost.validate.store.database import default_db_path
@@ -153,8 +190,9 @@ def export_cmd(
 
 @handle_errors
 def snapshot_cmd(
-    directory: Annotated[Path, typer.Argument(help="New (or empty) folder for the snapshot.", file_okay=False,
-                                              show_default=False)],
+    directory: Annotated[
+        Path, typer.Argument(help="New (or empty) folder for the snapshot.", file_okay=False, show_default=False)
+    ],
     db: DbOption = None,
 ) -> None:
     """Write the current data, indicators and scenarios as Parquet partitioned by model, with a manifest."""
@@ -163,9 +201,11 @@ def snapshot_cmd(
 
     manifest = snapshot(default_db_path(db), directory)
     t = manifest["tables"]
-    typer.echo(f"Wrote {len(manifest['files'])} files to {directory}: {t['data']['rows']:,} data rows, "
-               f"{t['indicators']['rows']:,} indicator rows, {t['scenarios']['rows']:,} scenarios; "
-               f"manifest.json lists their sha256.")
+    typer.echo(
+        f"Wrote {len(manifest['files'])} files to {directory}: {t['data']['rows']:,} data rows, "
+        f"{t['indicators']['rows']:,} indicator rows, {t['scenarios']['rows']:,} scenarios; "
+        f"manifest.json lists their sha256."
+    )
 
 
 @handle_errors
@@ -174,12 +214,16 @@ def diff_cmd(
     b: Annotated[int, typer.Argument(help="The newer submission id.", show_default=False)],
     db: DbOption = None,
     contract: ContractOption = None,
-    relative: Annotated[float | None, typer.Option(help="Relative tolerance (default: the contract's "
-                                                   "sum_relative).", min=0)] = None,
-    absolute: Annotated[float | None, typer.Option(help="Absolute tolerance (default: the contract's "
-                                                   "sum_absolute).", min=0)] = None,
-    common: Annotated[bool, typer.Option("--common", help="Compare only the scenarios both submissions have "
-                                         "(for a partial revision).")] = False,
+    relative: Annotated[
+        float | None, typer.Option(help="Relative tolerance (default: the contract's sum_relative).", min=0)
+    ] = None,
+    absolute: Annotated[
+        float | None, typer.Option(help="Absolute tolerance (default: the contract's sum_absolute).", min=0)
+    ] = None,
+    common: Annotated[
+        bool,
+        typer.Option("--common", help="Compare only the scenarios both submissions have (for a partial revision)."),
+    ] = False,
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Output format.")] = TextJson.text,
     limit: Annotated[int, typer.Option(help="Rows listed per kind of change (0 = all).", min=0)] = 20,
 ) -> None:
@@ -197,20 +241,26 @@ def diff_cmd(
         _echo_json(d.to_dict())
         return
     n = d.counts
-    typer.echo(f"Submission {a} -> {b}: {n['added']:,} added, {n['removed']:,} removed, {n['changed']:,} changed "
-               f"beyond tolerance (relative {rel:g}, absolute {ab:g}), {n['same']:,} unchanged.")
+    typer.echo(
+        f"Submission {a} -> {b}: {n['added']:,} added, {n['removed']:,} removed, {n['changed']:,} changed "
+        f"beyond tolerance (relative {rel:g}, absolute {ab:g}), {n['same']:,} unchanged."
+    )
     for side, names in ((a, d.only_a), (b, d.only_b)):
         if names:
             note = " (not compared: --common)" if common else ""
             typer.echo(f"Scenarios only in {side}{note}: {_scenario_list(names)}")
     for kind, sign in (("added", "+"), ("removed", "-")):
         for r in getattr(d, kind):
-            typer.echo(f"{sign} {r['model']} | {r['scenario']} | {r['region']} | {r['variable']} | {r['year']}: "
-                       f"{r['value']:g} {r['unit']}")
+            typer.echo(
+                f"{sign} {r['model']} | {r['scenario']} | {r['region']} | {r['variable']} | {r['year']}: "
+                f"{r['value']:g} {r['unit']}"
+            )
     for r in d.changed:
         units = r["unit_a"] if r["unit_a"] == r["unit_b"] else f"{r['unit_a']} -> {r['unit_b']}"
-        typer.echo(f"~ {r['model']} | {r['scenario']} | {r['region']} | {r['variable']} | {r['year']}: "
-                   f"{r['value_a']:g} -> {r['value_b']:g} {units}")
+        typer.echo(
+            f"~ {r['model']} | {r['scenario']} | {r['region']} | {r['variable']} | {r['year']}: "
+            f"{r['value_a']:g} -> {r['value_b']:g} {units}"
+        )
     shown = len(d.added) + len(d.removed) + len(d.changed)
     if shown < n["added"] + n["removed"] + n["changed"]:
         typer.echo(f"({shown} of {n['added'] + n['removed'] + n['changed']:,} differences listed; --limit 0 for all)")

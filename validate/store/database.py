@@ -133,8 +133,9 @@ def migrate(con: duckdb.DuckDBPyConnection, catalog: str, directory: Path = MIGR
     steps = migrations(directory)
     latest = steps[-1][0] if steps else 0
     if current > latest:
-        raise LoadError(f"the database has schema version {current}, newer than this milepost knows ({latest}); "
-                        "upgrade milepost")
+        raise LoadError(
+            f"the database has schema version {current}, newer than this milepost knows ({latest}); upgrade milepost"
+        )
     applied = []
     for number, path in steps:
         if number <= current:
@@ -192,11 +193,14 @@ def acquire_lock(db: Path, timeout: float | None = None, on_wait: Callable[[str]
         if time.monotonic() >= deadline:
             holder = _lock_holder(fd)
             os.close(fd)
-            raise LockTimeout(f"another milepost process{holder} is writing {db}; gave up after {timeout:g} s "
-                              f"(wait longer with --wait or {ENV_LOCK_TIMEOUT})")
+            raise LockTimeout(
+                f"another milepost process{holder} is writing {db}; gave up after {timeout:g} s "
+                f"(wait longer with --wait or {ENV_LOCK_TIMEOUT})"
+            )
         if not told and on_wait is not None:
-            on_wait(f"Waiting up to {timeout:g} s for another milepost process{_lock_holder(fd)} "
-                    f"to finish writing {db} ...")
+            on_wait(
+                f"Waiting up to {timeout:g} s for another milepost process{_lock_holder(fd)} to finish writing {db} ..."
+            )
             told = True
         time.sleep(0.05)
     os.ftruncate(fd, 0)
@@ -262,8 +266,15 @@ class Writer:
     by `begin()`; work that must happen outside it (TEMP tables) goes before `begin()`.
     """
 
-    def __init__(self, db: Path, con: duckdb.DuckDBPyConnection, *, timeout: float | None = None,
-                 on_wait: Callable[[str], None] | None = None, migrations_dir: Path = MIGRATIONS_DIR) -> None:
+    def __init__(
+        self,
+        db: Path,
+        con: duckdb.DuckDBPyConnection,
+        *,
+        timeout: float | None = None,
+        on_wait: Callable[[str], None] | None = None,
+        migrations_dir: Path = MIGRATIONS_DIR,
+    ) -> None:
         self.db = Path(db)
         self.con = con
         self.timeout = timeout
@@ -286,8 +297,10 @@ class Writer:
             self.created = not self.db.exists()
             if not self.created:
                 if self.db.with_name(self.db.name + ".wal").exists():
-                    raise LoadError(f"{self.db} has an unfinished write-ahead log ({self.db.name}.wal): it was "
-                                    "written in place by another program; open it once with duckdb and CHECKPOINT")
+                    raise LoadError(
+                        f"{self.db} has an unfinished write-ahead log ({self.db.name}.wal): it was "
+                        "written in place by another program; open it once with duckdb and CHECKPOINT"
+                    )
                 # copyfile uses the kernel's copy path (sendfile); measured ~0.2 s for a 35 MB file.
                 shutil.copyfile(self.db, self.tmp)
             try:
@@ -454,8 +467,9 @@ def reading(db: str | Path) -> Iterator[duckdb.DuckDBPyConnection]:
         version = schema_version(reader.con, "db")
         latest = latest_version()
         if version > latest:
-            raise LoadError(f"{db} has schema version {version}, newer than this milepost knows ({latest}); "
-                            "upgrade milepost")
+            raise LoadError(
+                f"{db} has schema version {version}, newer than this milepost knows ({latest}); upgrade milepost"
+            )
         yield reader.con
     finally:
         reader.close()

@@ -27,23 +27,53 @@ CAUTIONS = (
     "Mitigation costs exclude avoided climate damages and co-benefits.",
 )
 DATA_COLUMNS = ("submission_id", "model", "scenario", "region", "variable", "unit", "year", "value")
-INDICATOR_COLUMNS = ("submission_id", "model", "scenario", "region", "kind", "variable", "year_from", "year_to",
-                     "value", "unit")
-FINDING_COLUMNS = ("submission_id", "rule", "severity", "path", "line", "sheet", "model", "scenario", "region",
-                   "variable", "unit", "year", "value", "expected", "message", "hint")
+INDICATOR_COLUMNS = (
+    "submission_id",
+    "model",
+    "scenario",
+    "region",
+    "kind",
+    "variable",
+    "year_from",
+    "year_to",
+    "value",
+    "unit",
+)
+FINDING_COLUMNS = (
+    "submission_id",
+    "rule",
+    "severity",
+    "path",
+    "line",
+    "sheet",
+    "model",
+    "scenario",
+    "region",
+    "variable",
+    "unit",
+    "year",
+    "value",
+    "expected",
+    "message",
+    "hint",
+)
 # what -> (current view, stored table, columns, sort order)
 EXPORTS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "data": ("current_data", "data", DATA_COLUMNS, "model, scenario, region, variable, year"),
-    "indicators": ("current_indicators", "indicators", INDICATOR_COLUMNS,
-                   "model, scenario, region, kind, variable, year_from, year_to"),
+    "indicators": (
+        "current_indicators",
+        "indicators",
+        INDICATOR_COLUMNS,
+        "model, scenario, region, kind, variable, year_from, year_to",
+    ),
     "findings": ("findings", "findings", FINDING_COLUMNS, "submission_id, path NULLS FIRST, line NULLS LAST, rule"),
 }
 FORMATS = ("csv", "parquet", "xlsx")
-SNAPSHOT_TABLES = (("data", "current_data", DATA_COLUMNS, "scenario, region, variable, year"),
-                   ("indicators", "current_indicators", INDICATOR_COLUMNS,
-                    "scenario, region, kind, variable, year_from, year_to"),
-                   ("scenarios", "current_scenarios", ("submission_id", "model", "scenario", "reference",
-                                                       "attributes"), "scenario"))
+SNAPSHOT_TABLES = (
+    ("data", "current_data", DATA_COLUMNS, "scenario, region, variable, year"),
+    ("indicators", "current_indicators", INDICATOR_COLUMNS, "scenario, region, kind, variable, year_from, year_to"),
+    ("scenarios", "current_scenarios", ("submission_id", "model", "scenario", "reference", "attributes"), "scenario"),
+)
 
 
 @dataclass
@@ -59,8 +89,13 @@ class Filters:
     def where(self) -> tuple[str, list[Any]]:
         """A WHERE clause with `?` placeholders, and its parameters."""
         clauses, params = [], []
-        for column, values in (("model", self.model), ("scenario", self.scenario), ("region", self.region),
-                               ("variable", self.variable), ("submission_id", self.submission)):
+        for column, values in (
+            ("model", self.model),
+            ("scenario", self.scenario),
+            ("region", self.region),
+            ("variable", self.variable),
+            ("submission_id", self.submission),
+        ):
             values = list(values)
             if values:
                 clauses.append(f"{column} IN ({', '.join('?' * len(values))})")
@@ -99,8 +134,10 @@ def export(db: str | Path, what: str, fmt: str, output: str | Path, filters: Fil
             return int(copied[0][0])
         n = int(con.execute(f"SELECT count(*) FROM ({sql})", params).fetchall()[0][0])
         if n > XLSX_MAX_ROWS:
-            raise UsageError(f"{n:,} rows do not fit in an Excel sheet (at most {XLSX_MAX_ROWS:,}); "
-                             "use --format csv or parquet, or filter with --model/--scenario/--region/--variable")
+            raise UsageError(
+                f"{n:,} rows do not fit in an Excel sheet (at most {XLSX_MAX_ROWS:,}); "
+                "use --format csv or parquet, or filter with --model/--scenario/--region/--variable"
+            )
         _write_xlsx(con, sql, params, output, what, filters, db)
     return n
 
@@ -109,8 +146,15 @@ def _sql_path(path: Path) -> str:
     return str(path).replace("'", "''")
 
 
-def _write_xlsx(con: duckdb.DuckDBPyConnection, sql: str, params: list[Any], output: Path, what: str,
-                filters: Filters, db: str | Path) -> None:
+def _write_xlsx(
+    con: duckdb.DuckDBPyConnection,
+    sql: str,
+    params: list[Any],
+    output: Path,
+    what: str,
+    filters: Filters,
+    db: str | Path,
+) -> None:
     from openpyxl import Workbook
 
     # write_only streams rows to the file instead of building every cell object in memory.
@@ -164,17 +208,23 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
             tables: dict[str, Any] = {}
             for name, view, columns, order in SNAPSHOT_TABLES:
                 rows = int(con.execute(f"SELECT count(*) FROM {view}").fetchall()[0][0])
-                tables[name] = {"rows": rows, "source": view, "partition_by": ["model"],
-                                "columns": list(columns)}
+                tables[name] = {"rows": rows, "source": view, "partition_by": ["model"], "columns": list(columns)}
                 if rows:
                     target = str(work / name).replace("'", "''")
-                    con.execute(f"COPY (SELECT {', '.join(columns)} FROM {view} ORDER BY model, {order}) "
-                                f"TO '{target}' (FORMAT parquet, COMPRESSION zstd, PARTITION_BY (model))")
-            contracts = [{"name": n, "hash": h} for n, h in con.execute(
-                "SELECT DISTINCT b.contract_name, b.contract_hash FROM submissions AS b "
-                "WHERE b.id IN (SELECT submission_id FROM current_versions) ORDER BY 1, 2").fetchall()]
-            submissions = [r[0] for r in con.execute(
-                "SELECT DISTINCT submission_id FROM current_versions ORDER BY 1").fetchall()]
+                    con.execute(
+                        f"COPY (SELECT {', '.join(columns)} FROM {view} ORDER BY model, {order}) "
+                        f"TO '{target}' (FORMAT parquet, COMPRESSION zstd, PARTITION_BY (model))"
+                    )
+            contracts = [
+                {"name": n, "hash": h}
+                for n, h in con.execute(
+                    "SELECT DISTINCT b.contract_name, b.contract_hash FROM submissions AS b "
+                    "WHERE b.id IN (SELECT submission_id FROM current_versions) ORDER BY 1, 2"
+                ).fetchall()
+            ]
+            submissions = [
+                r[0] for r in con.execute("SELECT DISTINCT submission_id FROM current_versions ORDER BY 1").fetchall()
+            ]
             version = schema_version(con)
             files = []
             for path in sorted(p for p in work.rglob("*.parquet")):
@@ -228,18 +278,28 @@ class Diff:
     common_only: bool = False
 
     def to_dict(self) -> dict[str, Any]:
-        return {"a": self.a, "b": self.b, "tolerance": {"relative": self.relative, "absolute": self.absolute},
-                "common_only": self.common_only, "scenarios_only_in_a": self.only_a,
-                "scenarios_only_in_b": self.only_b, "counts": self.counts, "limit": self.limit,
-                "added": self.added, "removed": self.removed, "changed": self.changed}
+        return {
+            "a": self.a,
+            "b": self.b,
+            "tolerance": {"relative": self.relative, "absolute": self.absolute},
+            "common_only": self.common_only,
+            "scenarios_only_in_a": self.only_a,
+            "scenarios_only_in_b": self.only_b,
+            "counts": self.counts,
+            "limit": self.limit,
+            "added": self.added,
+            "removed": self.removed,
+            "changed": self.changed,
+        }
 
     @property
     def identical(self) -> bool:
         return not (self.counts["added"] or self.counts["removed"] or self.counts["changed"])
 
 
-def diff(db: str | Path, a: int, b: int, relative: float, absolute: float, limit: int = 100,
-         common_only: bool = False) -> Diff:
+def diff(
+    db: str | Path, a: int, b: int, relative: float, absolute: float, limit: int = 100, common_only: bool = False
+) -> Diff:
     """Compare the stored rows of two submissions by (model, scenario, region, variable, year).
 
     A value counts as changed when |b - a| > max(relative * |a|, absolute), the same rule as the contract's sum
@@ -258,15 +318,30 @@ def diff(db: str | Path, a: int, b: int, relative: float, absolute: float, limit
                 raise UsageError(f"submission {sid} was rejected: it has no stored rows to compare")
         key = ", ".join(KEY)
         pairs = "SELECT DISTINCT model, scenario FROM scenarios WHERE submission_id = ?"
-        con.execute(f"CREATE TEMP TABLE diff_pairs AS SELECT *, 'a' AS side FROM ({pairs}) "
-                    f"UNION ALL SELECT *, 'b' FROM ({pairs})", [a, b])
-        only = {side: [f"{m} | {s}" for m, s in con.execute(
-            "SELECT model, scenario FROM diff_pairs AS p WHERE side = ? AND NOT EXISTS (SELECT 1 FROM diff_pairs "
-            "AS q WHERE q.side <> p.side AND q.model = p.model AND q.scenario = p.scenario) ORDER BY 1, 2",
-            [side]).fetchall()] for side in ("a", "b")}
-        common = ("AND (model, scenario) IN (SELECT (model, scenario) FROM diff_pairs GROUP BY ALL "
-                  "HAVING count(*) = 2)") if common_only else ""
-        con.execute(f"""
+        con.execute(
+            f"CREATE TEMP TABLE diff_pairs AS SELECT *, 'a' AS side FROM ({pairs}) "
+            f"UNION ALL SELECT *, 'b' FROM ({pairs})",
+            [a, b],
+        )
+        only = {
+            side: [
+                f"{m} | {s}"
+                for m, s in con.execute(
+                    "SELECT model, scenario FROM diff_pairs AS p WHERE side = ? AND NOT EXISTS "
+                    "(SELECT 1 FROM diff_pairs AS q WHERE q.side <> p.side AND q.model = p.model "
+                    "AND q.scenario = p.scenario) ORDER BY 1, 2",
+                    [side],
+                ).fetchall()
+            ]
+            for side in ("a", "b")
+        }
+        common = (
+            ("AND (model, scenario) IN (SELECT (model, scenario) FROM diff_pairs GROUP BY ALL HAVING count(*) = 2)")
+            if common_only
+            else ""
+        )
+        con.execute(
+            f"""
             CREATE TEMP TABLE diff_rows AS
             SELECT coalesce(x.model, y.model) AS model, coalesce(x.scenario, y.scenario) AS scenario,
                    coalesce(x.region, y.region) AS region, coalesce(x.variable, y.variable) AS variable,
@@ -279,18 +354,23 @@ def diff(db: str | Path, a: int, b: int, relative: float, absolute: float, limit
                         ELSE 'same' END AS change
             FROM (SELECT {key}, unit, value FROM data WHERE submission_id = ? {common}) AS x
             FULL OUTER JOIN (SELECT {key}, unit, value FROM data WHERE submission_id = ? {common}) AS y
-              USING ({key})""", [relative, absolute, a, b])
+              USING ({key})""",
+            [relative, absolute, a, b],
+        )
         counts = {k: 0 for k in ("added", "removed", "changed", "same")}
-        counts.update({c: int(n) for c, n in con.execute(
-            "SELECT change, count(*) FROM diff_rows GROUP BY 1").fetchall()})
-        out = Diff(a, b, relative, absolute, counts, limit=limit, only_a=only["a"], only_b=only["b"],
-                   common_only=common_only)
+        counts.update(
+            {c: int(n) for c, n in con.execute("SELECT change, count(*) FROM diff_rows GROUP BY 1").fetchall()}
+        )
+        out = Diff(
+            a, b, relative, absolute, counts, limit=limit, only_a=only["a"], only_b=only["b"], common_only=common_only
+        )
         cap = f" LIMIT {int(limit)}" if limit else ""
-        for change, columns in (("added", "unit_b AS unit, value_b AS value"),
-                                ("removed", "unit_a AS unit, value_a AS value"),
-                                ("changed", "unit_a, unit_b, value_a, value_b, value_b - value_a AS delta")):
-            cur = con.execute(f"SELECT {key}, {columns} FROM diff_rows WHERE change = ? ORDER BY {key}{cap}",
-                              [change])
+        for change, columns in (
+            ("added", "unit_b AS unit, value_b AS value"),
+            ("removed", "unit_a AS unit, value_a AS value"),
+            ("changed", "unit_a, unit_b, value_a, value_b, value_b - value_a AS delta"),
+        ):
+            cur = con.execute(f"SELECT {key}, {columns} FROM diff_rows WHERE change = ? ORDER BY {key}{cap}", [change])
             names = [d[0] for d in cur.description]
             setattr(out, change, [dict(zip(names, r, strict=True)) for r in cur.fetchall()])
     return out
@@ -317,8 +397,8 @@ def submissions(db: str | Path) -> list[dict[str, Any]]:
             rec["files"] = json.loads(rec["files"]) if rec["files"] else []
             rec["scenarios"] = rec["scenarios"] or []
             rec["current_scenarios"] = rec["current_scenarios"] or []
-            rec["submitted_at"] = rec["submitted_at"].isoformat(sep=" ", timespec="seconds") \
-                if rec["submitted_at"] else None
+            rec["submitted_at"] = (
+                rec["submitted_at"].isoformat(sep=" ", timespec="seconds") if rec["submitted_at"] else None
+            )
             out.append(rec)
     return out
-

@@ -72,8 +72,13 @@ def prepare(
     con.execute(
         f"CREATE TEMP TABLE {n['periods']} AS SELECT unnest(?::VARCHAR[]) AS kind, unnest(?::INTEGER[]) AS year_from,"
         " unnest(?::INTEGER[]) AS year_to, unnest(?::INTEGER[]) AS i_from, unnest(?::INTEGER[]) AS i_to",
-        [[r[0] for r in per], [r[1] for r in per], [r[2] for r in per],
-         [index[r[1]] for r in per], [index[r[2]] for r in per]],
+        [
+            [r[0] for r in per],
+            [r[1] for r in per],
+            [r[2] for r in per],
+            [index[r[1]] for r in per],
+            [index[r[2]] for r in per],
+        ],
     )
     # One grouped pass over `data` gives series ids and each series' points sorted by year; shifting the sorted
     # list by one pairs every point with the next. This is cheaper than a join plus a window over the rows.
@@ -111,9 +116,7 @@ def prepare(
     )
     con.execute(f"DROP TABLE {n['grouped']}")
     con.execute(f"DROP TABLE {n['endpoints']}")
-    ambiguous = con.execute(
-        f"SELECT count(*) - count(DISTINCT sid) FROM {n['series']}"
-    ).fetchall()[0][0]
+    ambiguous = con.execute(f"SELECT count(*) - count(DISTINCT sid) FROM {n['series']}").fetchall()[0][0]
     if ambiguous:
         raise IndicatorDataError(f"{scenarios}: some scenarios name more than one reference scenario")
     con.execute(
