@@ -78,17 +78,19 @@ PROCESS0 = np.array([350.0, 1400.0, 200.0, 200.0, 250.0])  # Mt CO2/yr, industri
 LAND0 = np.array([-300.0, 600.0, 800.0, 1600.0, 800.0])  # Mt CO2/yr
 CH40 = np.array([60.0, 110.0, 70.0, 70.0, 40.0])  # Mt CH4/yr
 N2O0 = np.array([1800.0, 3500.0, 1500.0, 2200.0, 1000.0])  # kt N2O/yr
+FGAS0 = np.array([420.0, 520.0, 160.0, 170.0, 130.0])  # Mt CO2e/yr of F-gases (GWP100-weighted)
 FE_RATIO = np.array([0.68, 0.66, 0.70, 0.85, 0.70])  # final / primary energy
+FE_SECTORS = ("industry", "transport", "buildings", "other")
 FE_SHARE = np.array(
-    [  # regions x (industry, transport, buildings)
-        [0.30, 0.35, 0.35],
-        [0.50, 0.20, 0.30],
-        [0.38, 0.32, 0.30],
-        [0.20, 0.20, 0.60],
-        [0.32, 0.36, 0.32],
+    [  # regions x FE_SECTORS, rows sum to 1
+        [0.28, 0.33, 0.32, 0.07],
+        [0.46, 0.18, 0.28, 0.08],
+        [0.35, 0.30, 0.28, 0.07],
+        [0.18, 0.18, 0.55, 0.09],
+        [0.30, 0.33, 0.30, 0.07],
     ]
 )
-FE_CUT_WEIGHT = np.array([1.0, 1.1, 0.9])  # transport demand responds a little more than buildings
+FE_CUT_WEIGHT = np.array([1.0, 1.1, 0.9, 0.8])  # transport demand responds a little more than buildings
 # Population and per-capita GDP growth (fraction/yr) in 2020 and 2100, interpolated linearly in between.
 POP_GROWTH = np.array([[0.003, -0.003], [0.007, -0.006], [0.010, 0.000], [0.020, -0.004], [0.008, -0.002]])
 GDPPC_GROWTH = np.array([[0.014, 0.010], [0.040, 0.015], [0.025, 0.015], [0.035, 0.025], [0.022, 0.013]])
@@ -98,10 +100,10 @@ BECCS_MT_PER_EJ = 85.0
 
 # Abatement groups: cost scale c (USD_2015/t CO2e at which 63 % of the potential is used), potential, and the
 # share of the group's capital (plants, vehicles, buildings, practices) replaced anyway in a five-year step.
-GROUPS = ("coal", "oil", "gas", "ccs", "process", "land", "sink", "beccs", "ch4", "n2o")
-GROUP_COST = np.array([60.0, 250.0, 150.0, 300.0, 120.0, 40.0, 150.0, 300.0, 60.0, 100.0])
-GROUP_POTENTIAL = np.array([0.97, 0.85, 0.85, 0.60, 0.80, 1.0, 1.0, 1.0, 0.60, 0.40])
-GROUP_TURNOVER = np.array([0.2, 0.4, 0.3, 0.2, 0.2, 0.7, 0.4, 0.2, 0.55, 0.4])
+GROUPS = ("coal", "oil", "gas", "ccs", "process", "land", "sink", "beccs", "ch4", "n2o", "fgas")
+GROUP_COST = np.array([60.0, 250.0, 150.0, 300.0, 120.0, 40.0, 150.0, 300.0, 60.0, 100.0, 50.0])
+GROUP_POTENTIAL = np.array([0.97, 0.85, 0.85, 0.60, 0.80, 1.0, 1.0, 1.0, 0.60, 0.40, 0.85])
+GROUP_TURNOVER = np.array([0.2, 0.4, 0.3, 0.2, 0.2, 0.7, 0.4, 0.2, 0.55, 0.4, 0.35])
 # Retiring capital before its time costs SCRAP_COST * c * s^2 per t CO2e of base for a share s scrapped in a step.
 SCRAP_COST = 20.0
 # Learning by doing: a group's cost scale falls as (1 + E / EXPERIENCE0)^-LEARNING with its experience E (abated
@@ -133,6 +135,8 @@ PRICE_GROWTH = (0.05, 0.02)
 PRICE_CAP = 4000.0
 # Reference-component indices for the per-model calibration noise.
 NOISE = ("pop", "gdp", "ppp", "cons", "pe", *FUELS, "fe_ind", "fe_trans", "fe_bldg", "process", "land", "ch4", "n2o")
+# Components added later draw their noise after all of NOISE, so the earlier components keep their numbers.
+LATER_NOISE = ("fgas", "fe_other")
 
 
 @dataclass(frozen=True)
@@ -215,6 +219,10 @@ def _models(names: tuple[str, ...], rng: np.random.Generator) -> Models:
     steps = rng.normal(0.0, 0.006, (len(NOISE), m, len(REGIONS), len(YEARS) - 1))
     walk = np.concatenate([np.zeros((len(NOISE), m, len(REGIONS), 1)), np.cumsum(steps, axis=-1)], axis=-1)
     noise = dict(zip(NOISE, calib * (1.0 + walk), strict=True))
+    later = 1.0 + rng.uniform(-0.04, 0.04, (len(LATER_NOISE), m, len(REGIONS), 1))
+    later_steps = rng.normal(0.0, 0.006, (len(LATER_NOISE), m, len(REGIONS), len(YEARS) - 1))
+    later_walk = np.concatenate([np.zeros((len(LATER_NOISE), m, len(REGIONS), 1)), np.cumsum(later_steps, axis=-1)], -1)
+    noise.update(zip(LATER_NOISE, later * (1.0 + later_walk), strict=True))
 
     tau = (YEARS - BASE_YEAR).astype(float)[None, None, :]
     pop_rel = np.exp(_ramp(POP_GROWTH, pop_scale))
@@ -233,11 +241,12 @@ def _models(names: tuple[str, ...], rng: np.random.Generator) -> Models:
         "land": LAND0[None, :, None] * np.exp(-tau / 50.0) * noise["land"],
         "ch4": CH40[None, :, None] * pop_rel**0.5 * ppp_rel**0.15 * noise["ch4"],
         "n2o": N2O0[None, :, None] * pop_rel**0.4 * ppp_rel**0.2 * noise["n2o"],
+        "fgas": FGAS0[None, :, None] * ppp_rel**0.6 * noise["fgas"],
     }
     for i, fuel in enumerate(FUELS):
         share = FUEL_SHARE0[None, :, i, None] + FUEL_SHIFT[i] * ramp
         ref[f"fuel.{fuel}"] = pe * share * noise[fuel]
-    for i, sector in enumerate(("ind", "trans", "bldg")):
+    for i, sector in enumerate(("ind", "trans", "bldg", "other")):
         ref[f"fe.{sector}"] = pe * FE_RATIO[None, :, None] * FE_SHARE[None, :, i, None] * noise[f"fe_{sector}"]
     return Models(names=names, ref=ref, **params)
 
@@ -293,6 +302,7 @@ def _regional_ghg(leaves: dict[str, np.ndarray], ghg_factor: dict[str, float]) -
         + leaves["emissions.co2.land"]
         + leaves["emissions.ch4"] * ghg_factor["emissions.ch4"]
         + leaves["emissions.n2o"] * ghg_factor["emissions.n2o"]
+        + leaves["emissions.fgases"] * ghg_factor["emissions.fgases"]
     )
 
 
@@ -404,9 +414,7 @@ def _simulate(
     out["energy.primary.biomass"] = out["energy.primary.biomass"] + beccs / BECCS_MT_PER_EJ
     pe_ref = sum(ref[f"fuel.{f}"] for f in FUELS)
     cut = 0.9 * demand * lost / pe_ref
-    for i, (sector, name) in enumerate(
-        zip(("ind", "trans", "bldg"), ("industry", "transport", "buildings"), strict=True)
-    ):
+    for i, (sector, name) in enumerate(zip(("ind", "trans", "bldg", "other"), FE_SECTORS, strict=True)):
         out[f"energy.final.{name}"] = ref[f"fe.{sector}"] * (1.0 - cut * FE_CUT_WEIGHT[i])
 
     fuel_co2 = [q * ef for q, ef in zip(fossil, EMISSION_FACTOR, strict=True)]
@@ -422,6 +430,7 @@ def _simulate(
     out["emissions.co2.land"] = ref["land"] - land_base * a["land"] - sink * a["sink"]
     out["emissions.ch4"] = ref["ch4"] * (1.0 - a["ch4"])
     out["emissions.n2o"] = ref["n2o"] * (1.0 - a["n2o"])
+    out["emissions.fgases"] = ref["fgas"] * (1.0 - a["fgas"])
 
     # Costs: what the capital in place costs over the reference (see _vintage_step), billion USD/yr.
     bases = {
@@ -435,6 +444,7 @@ def _simulate(
         "beccs": BECCS_MAX[None, :, None] * models.beccs_scale[mi][:, None, None],
         "ch4": ref["ch4"] * ghg_factor["emissions.ch4"],
         "n2o": ref["n2o"] * ghg_factor["emissions.n2o"],
+        "fgas": ref["fgas"] * ghg_factor["emissions.fgases"],
     }
     cost = sum(bases[k] * unit_cost[i] for i, k in enumerate(GROUPS)) / 1000.0  # Mt x USD/t -> billion USD
     out["cost.abatement"] = cost
@@ -654,6 +664,7 @@ REFERENCE_VARIABLES = (
     "emissions.co2",
     "emissions.ch4",
     "emissions.n2o",
+    "emissions.fgases",
     "emissions.ghg",
     "energy.primary",
     "population",
@@ -673,7 +684,8 @@ def reference_frame() -> pd.DataFrame:
         "emissions.co2": co2,
         "emissions.ch4": CH40,
         "emissions.n2o": N2O0,
-        "emissions.ghg": co2 + ch4_f * CH40 + n2o_f * N2O0,
+        "emissions.fgases": FGAS0,
+        "emissions.ghg": co2 + ch4_f * CH40 + n2o_f * N2O0 + factor["emissions.fgases"] * FGAS0,
         "energy.primary": PE0,
         "population": POP0,
         "gdp.mer": GDP0,
@@ -694,6 +706,7 @@ BOUNDS = (  # variable, region, year_from, year_to, low, high  (None = any)
     ("emissions.co2", WORLD, 2020, 2030, 10000.0, 60000.0),
     ("emissions.ch4", WORLD, None, None, 0.0, 1500.0),
     ("emissions.n2o", WORLD, None, None, 0.0, 40000.0),
+    ("emissions.fgases", WORLD, None, None, 0.0, 5000.0),
     ("emissions.co2.land", None, None, None, -10000.0, 10000.0),
     ("gdp.mer", WORLD, None, None, 0.0, 2000000.0),
 )

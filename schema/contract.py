@@ -98,6 +98,7 @@ class Contract:
     gwp: dict[str, float]
     discount_rate: float
     carbon_to_co2: bool
+    nitrogen_to_n2o: bool
     deflators: tuple[tuple[str, str, float], ...]
     severity: dict[str, str]
     reference: tuple[Reference, ...]
@@ -134,11 +135,35 @@ class Contract:
             "tolerance": asdict(self.tolerance),
             "gwp": {"set": self.gwp_set, "values": self.gwp},
             "discount_rate": self.discount_rate,
-            "units": {"carbon_to_co2": self.carbon_to_co2, "deflators": [list(d) for d in self.deflators]},
+            "units": {
+                "carbon_to_co2": self.carbon_to_co2,
+                "nitrogen_to_n2o": self.nitrogen_to_n2o,
+                "deflators": [list(d) for d in self.deflators],
+            },
             "severity": self.severity,
             "reference": [asdict(r) for r in self.reference],
             "bounds": [asdict(b) for b in self.bounds],
         }
+
+    def references_in_contract_units(self) -> tuple[Reference, ...]:
+        """The reference values converted into their variable's contract unit (the unit the checked data and the
+        database use), in file order. References of unknown variables or in units that do not convert are left out:
+        `milepost contract lint` reports them."""
+        from milepost.schema.units import UnitError, scale_factor
+
+        out = []
+        for r in self.reference:
+            v = self.variables.get(r.variable)
+            if v is None:
+                continue
+            try:
+                factor = scale_factor(r.unit, v.unit)
+                if factor is None:
+                    factor = self.units.factor(r.unit, v.unit)
+            except UnitError:
+                continue
+            out.append(Reference(r.region, r.variable, v.unit, r.year, r.value * factor))
+        return tuple(out)
 
     def is_region(self, name: str) -> bool:
         """True if `name` is a region of the contract, a part of one (e.g. an ISO code in a country group), or,
@@ -309,15 +334,28 @@ def _resolve(
     if unknown_tol:
         raise ContractError(f"{where}: [tolerance] has unknown keys {', '.join(unknown_tol)}")
     units_cfg = head.get("units", {})
+    unknown_units = sorted(set(units_cfg) - {"carbon_to_co2", "nitrogen_to_n2o", "deflators"})
+    if unknown_units:
+        raise ContractError(
+            f"{where}: [units] has unknown keys {', '.join(unknown_units)} (known: carbon_to_co2, nitrogen_to_n2o, "
+            "deflators)"
+        )
     deflators = tuple(
         (str(d["from"]), str(d["to"]), _number(d["factor"], f"{where} [[units.deflators]]"))
         for d in units_cfg.get("deflators", ())
     )
     carbon = bool(units_cfg.get("carbon_to_co2", False))
+    nitrogen = bool(units_cfg.get("nitrogen_to_n2o", False))
     gwp_set = str(head.get("gwp", "AR6GWP100"))
     gwp = _gwp_values(gwp_set)
-    shapes = tuple(sorted({str(spec.get("unit", "")) for spec in variables.values() if "CO2" in str(spec.get("unit"))}))
-    units = LazyUnits(deflators=tuple(Deflator(*d) for d in deflators), carbon_to_co2=carbon, shapes=shapes)
+    shapes = tuple(
+        sorted(
+            {str(spec.get("unit", "")) for spec in variables.values() if re.search(r"CO2|N2O", str(spec.get("unit")))}
+        )
+    )
+    units = LazyUnits(
+        deflators=tuple(Deflator(*d) for d in deflators), carbon_to_co2=carbon, nitrogen_to_n2o=nitrogen, shapes=shapes
+    )
 
     problems: list[str] = []
     resolved: dict[str, Variable] = {}
@@ -378,6 +416,7 @@ def _resolve(
         gwp=gwp,
         discount_rate=_number(head.get("discount_rate", 5.0), f"{where} discount_rate"),
         carbon_to_co2=carbon,
+        nitrogen_to_n2o=nitrogen,
         deflators=deflators,
         severity=severity,
         reference=tuple(reference.values()),

@@ -1,5 +1,5 @@
 -- Milepost scenario database: the complete current schema (tables and views).
--- schema_version: 1
+-- schema_version: 2
 -- A new database is built from this file; an older one is brought here by the numbered files in migrations/.
 -- Every change here needs a new migrations/NNNN_*.sql that makes the same change (tests compare the two).
 
@@ -66,6 +66,8 @@ CREATE TABLE scenarios (
     attributes VARCHAR          -- JSON object of every scenario attribute
 );
 
+-- Kinds, periods and notes: schema/indicators.toml. `note` says why a value is what it is (the reference
+-- scenario a loss is measured against, a net-zero year not reached by the last reported year), or is NULL.
 CREATE TABLE indicators (
     submission_id INTEGER,
     model VARCHAR,
@@ -76,7 +78,8 @@ CREATE TABLE indicators (
     year_from INTEGER,
     year_to INTEGER,
     value DOUBLE,
-    unit VARCHAR
+    unit VARCHAR,
+    note VARCHAR
 );
 
 -- The newest accepted submission of each (model, scenario).
@@ -98,6 +101,7 @@ FROM scenarios AS s
 JOIN current_versions AS c ON c.submission_id = s.submission_id AND c.model = s.model AND c.scenario = s.scenario;
 
 CREATE VIEW current_indicators AS
-SELECT i.submission_id, i.model, i.scenario, i.region, i.kind, i.variable, i.year_from, i.year_to, i.value, i.unit
+SELECT i.submission_id, i.model, i.scenario, i.region, i.kind, i.variable, i.year_from, i.year_to, i.value, i.unit,
+       i.note
 FROM indicators AS i
 JOIN current_versions AS c ON c.submission_id = i.submission_id AND c.model = i.model AND c.scenario = i.scenario;

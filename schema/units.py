@@ -1,8 +1,9 @@
 """Units of the contract: a pint registry where gas species and currency years are dimensions of their own.
 
 Mt CO2 and Mt CH4 never convert into each other, CO2e is its own dimension (gases become CO2e only through
-GWP factors in a variable's parts), carbon converts to CO2 only in the `carbon_to_co2` context, and currencies
-convert across price years only through deflators the contract gives.
+GWP factors in a variable's parts), carbon converts to CO2 only in the `carbon_to_co2` context, the nitrogen of
+nitrous oxide (`kt N2O-N`) to N2O only in the `nitrogen_to_n2o` context, and currencies convert across price
+years only through deflators the contract gives.
 """
 
 from __future__ import annotations
@@ -12,23 +13,31 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
-# IUPAC/CIAAW 2021 abridged standard atomic weights: C 12.011, O 15.999 -> M(CO2) = 44.009.
+# IUPAC/CIAAW 2021 abridged standard atomic weights: C 12.011, N 14.007, O 15.999 -> M(CO2) = 44.009,
+# M(N2O) = 44.013, M(N2) = 28.014.
 ATOMIC_WEIGHT_C = 12.011
+ATOMIC_WEIGHT_N = 14.007
+ATOMIC_WEIGHT_O = 15.999
 MOLAR_MASS_CO2 = 44.009
 CO2_PER_C = MOLAR_MASS_CO2 / ATOMIC_WEIGHT_C
+MOLAR_MASS_N2O = 2 * ATOMIC_WEIGHT_N + ATOMIC_WEIGHT_O
+N2O_PER_N = MOLAR_MASS_N2O / (2 * ATOMIC_WEIGHT_N)  # 44.013 / 28.014: the mass of N2O per mass of its nitrogen
 
 SPECIES = {
     "CO2e": "carbon_dioxide_equivalent",
     "CO2": "carbon_dioxide",
     "CH4": "methane",
     "N2O": "nitrous_oxide",
+    "N2O_N": "nitrous_oxide_nitrogen",
     "C": "carbon",
 }
 CARBON_CONTEXT = "carbon_to_co2"
+NITROGEN_CONTEXT = "nitrogen_to_n2o"
 
 _CURRENCY = re.compile(r"(?:US\$|USD)[ _]?((?:19|20)\d\d)")
 _CO2E = re.compile(r"CO2[-_ ]?(?:equiv(?:alent)?|eq|e)\b", re.IGNORECASE)
-_MASS_SPECIES = re.compile(r"\b([kMGT]?t)(CO2e|CO2|CH4|N2O|C)\b")
+_N2O_N = re.compile(r"\bN2O[-_]N\b")
+_MASS_SPECIES = re.compile(r"\b([kMGT]?t)(CO2e|CO2|CH4|N2O_N|N2O|C)\b")
 _PER_YEAR = re.compile(r"/\s*(?:year|a)\b")
 
 
@@ -37,11 +46,13 @@ class UnitError(ValueError):
 
 
 def normalise(unit: str) -> str:
-    """Rewrite common spellings into the contract's own: `MtCO2/yr` -> `Mt CO2/yr`, `US$2015` -> `USD_2015`."""
+    """Rewrite common spellings into the contract's own: `MtCO2/yr` -> `Mt CO2/yr`, `US$2015` -> `USD_2015`,
+    `kt N2O-N/yr` -> `kt N2O_N/yr`."""
     s = " ".join(str(unit).split())
     s = _CURRENCY.sub(lambda m: f"USD_{m.group(1)}", s)
     s = _CO2E.sub("CO2e", s)
     s = _MASS_SPECIES.sub(r"\1 \2", s)
+    s = _N2O_N.sub("N2O_N", s)  # "N2O-N" would read as N2O minus N
     s = _PER_YEAR.sub("/yr", s)
     s = re.sub(r"\s*/\s*", "/", s)
     return s
@@ -75,13 +86,16 @@ class Units:
         self,
         deflators: tuple[Deflator, ...] = (),
         carbon_to_co2: bool = False,
-        shapes: tuple[str, ...] = ("Mt CO2/yr", "t CO2", "USD_2015/t CO2"),
+        shapes: tuple[str, ...] = ("Mt CO2/yr", "t CO2", "USD_2015/t CO2", "kt N2O/yr"),
+        nitrogen_to_n2o: bool = False,
     ) -> None:
-        """`shapes`: units (usually the contract's) whose carbon counterparts may convert when carbon_to_co2 is on."""
+        """`shapes`: units (usually the contract's) whose carbon (or N2O-N) counterparts may convert when
+        carbon_to_co2 (or nitrogen_to_n2o) is on."""
         import pint
 
         self.pint = pint
         self.carbon_to_co2 = carbon_to_co2
+        self.nitrogen_to_n2o = nitrogen_to_n2o
         reg = pint.UnitRegistry(on_redefinition="ignore", preprocessors=[_group_denominators], cache_folder=None)
         for symbol, name in SPECIES.items():
             reg.define(f"{name} = [{name}] = {symbol}")
@@ -93,24 +107,36 @@ class Units:
             reg.define(f"{d.source} = {d.factor!r} * {d.target}")
             self._currencies.add(d.source)
         self.reg = reg
-        self._context: tuple[str, ...] = ()
-        if carbon_to_co2:
-            # pint fixes a context's graph when it is added, so every unit shape is given its pair up front.
-            ctx = pint.Context(CARBON_CONTEXT)
-            seen = set()
-            for u in shapes:
-                self._prepare(u)
-                dim = reg.parse_units(normalise(u)).dimensionality
-                # The factor carries units (C per CO2) so the transformed quantity lands in the target dimension.
-                for a, b, f in (("[carbon_dioxide]", "[carbon]", reg.Quantity(1 / CO2_PER_C, "C/CO2")),):
-                    k = dim.get(a, 0)
-                    if k and dim not in seen:
-                        seen.add(dim)
-                        src, dst = dim, dim.remove([a]).add(b, k)
-                        ctx.add_transformation(src, dst, lambda reg, q, f=f, k=k: q * f**k)
-                        ctx.add_transformation(dst, src, lambda reg, q, f=f, k=k: q / f**k)
-            reg.add_context(ctx)
-            self._context = (CARBON_CONTEXT,)
+        # (context, species of the contract unit, species reported instead, mass of the second per mass of the first)
+        options = (
+            (carbon_to_co2, CARBON_CONTEXT, "carbon_dioxide", "carbon", 1 / CO2_PER_C, "C/CO2"),
+            (nitrogen_to_n2o, NITROGEN_CONTEXT, "nitrous_oxide", "nitrous_oxide_nitrogen", 1 / N2O_PER_N, "N2O_N/N2O"),
+        )
+        contexts = []
+        for enabled, name, target, other, ratio, ratio_unit in options:
+            if enabled:
+                reg.add_context(self._species_context(name, shapes, target, other, reg.Quantity(ratio, ratio_unit)))
+                contexts.append(name)
+        self._context: tuple[str, ...] = tuple(contexts)
+
+    def _species_context(self, name: str, shapes: tuple[str, ...], target: str, other: str, ratio: Any) -> Any:
+        """A pint context converting every unit shape in `shapes` that holds species `target` into the same shape
+        with species `other`, and back. pint fixes a context's graph when it is added, so every unit shape is given
+        its pair up front. `ratio` carries units (e.g. C per CO2) so that the transformed quantity lands in the
+        target dimension."""
+        ctx = self.pint.Context(name)
+        a, b = f"[{target}]", f"[{other}]"
+        seen = set()
+        for u in shapes:
+            self._prepare(u)
+            dim = self.reg.parse_units(normalise(u)).dimensionality
+            k = dim.get(a, 0)
+            if k and dim not in seen:
+                seen.add(dim)
+                src, dst = dim, dim.remove([a]).add(b, k)
+                ctx.add_transformation(src, dst, lambda reg, q, f=ratio, k=k: q * f**k)
+                ctx.add_transformation(dst, src, lambda reg, q, f=ratio, k=k: q / f**k)
+        return ctx
 
     def _ensure_currency(self, reg: Any, code: str) -> None:
         if code not in self._currencies:

@@ -58,3 +58,32 @@ def test_currency_year_does_not_convert_without_deflator(tmp_path, basic, check)
     rows[i]["unit"] = "billion USD_2010/yr"
     (f,) = rules_at(check(write_csv(tmp_path / "d.csv", rows), basic), "wrong-unit")
     assert f.expected == "billion USD_2015/yr"
+
+
+def test_n2o_nitrogen_converts_where_the_contract_allows_it(tmp_path, basic, check):
+    from milepost.schema.contract import load
+    from milepost.schema.units import N2O_PER_N
+
+    from conftest import BASIC_CONTRACT
+
+    rows = consistent_rows(basic)
+    idx = [i for i, r in enumerate(rows) if r["variable"] == "emissions.n2o"]
+    for i in idx:
+        rows[i]["unit"], rows[i]["value"] = "kt N2O-N/yr", rows[i]["value"] / N2O_PER_N
+    path = write_csv(tmp_path / "n.csv", rows)
+    # without the option the nitrogen mass is a different quantity: wrong-unit on every such row
+    refused = check(path, basic)
+    assert len(rules_at(refused, "wrong-unit")) == len(idx)
+    folder = tmp_path / "contract"
+    folder.mkdir()
+    (folder / "contract.toml").write_text(
+        f'name = "with-n2o-n"\nextends = "{BASIC_CONTRACT}"\n\n[units]\nnitrogen_to_n2o = true\n', encoding="utf-8"
+    )
+    allowed = load(folder)
+    assert allowed.nitrogen_to_n2o and allowed.to_dict()["units"]["nitrogen_to_n2o"] is True
+    result = check(path, allowed)
+    (f,) = rules_at(result, "converted-unit")
+    assert (f.severity, f.value, f.expected) == ("warning", "kt N2O-N/yr", "kt N2O/yr")
+    assert "factor 1.57111" in f.message  # 44.013/28.014, IUPAC standard atomic weights (see test_units)
+    # converted back into kt N2O, the values add up into emissions.ghg again
+    assert result.counts["error"] == 0

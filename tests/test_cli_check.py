@@ -34,8 +34,8 @@ def test_clean_file_exits_0_with_passed_line(tmp_path, basic):
     assert res.exit_code == 0
     lines = res.stdout.splitlines()
     assert lines[0].startswith("milepost 0.1.0 · contract test-basic (")
-    assert lines[1] == f"  {path}: data, 768 rows"
-    assert lines[-1] == "PASSED: 0 errors, 0 warnings, 0 notes in 768 rows (fail on error)"
+    assert lines[1] == f"  {path}: data, 816 rows"
+    assert lines[-1] == "PASSED: 0 errors, 0 warnings, 0 notes in 816 rows (fail on error)"
 
 
 def test_findings_exit_1_with_compiler_style_lines(broken):

@@ -32,6 +32,8 @@ def test_core_has_the_agreed_variables(core):
         "price.carbon": "USD_2015/t CO2",
         "cost.abatement": "billion USD_2015/yr",
         "trade.permits": "Mt CO2e/yr",
+        "emissions.fgases": "Mt CO2e/yr",
+        "energy.final.other": "EJ/yr",
     }
     assert {k: core.variables[k].unit for k in expected} == expected
     assert core.variables["price.carbon"].regions == "none"
@@ -40,7 +42,12 @@ def test_core_has_the_agreed_variables(core):
         "energy.final.industry",
         "energy.final.transport",
         "energy.final.buildings",
+        "energy.final.other",
     ]
+    ghg = {p.variable: p for p in core.variables["emissions.ghg"].parts}
+    assert ghg["emissions.fgases"].factor == 1.0 and ghg["emissions.fgases"].gwp is None
+    assert core.variables["emissions.fgases"].sign == "non-negative"
+    assert "F-gases" in core.variables["emissions.ghg"].description
 
 
 @pytest.mark.parametrize("metric", ["AR6GWP100", "AR5GWP100", "AR4GWP100", "SARGWP100"])

@@ -68,6 +68,7 @@ SPEC_COLUMNS = {
         "year_to",
         "value",
         "unit",
+        "note",
     ],
 }
 

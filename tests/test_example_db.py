@@ -156,8 +156,13 @@ def test_ghg_is_ar6_gwp100_weighting(frame: pd.DataFrame) -> None:
     # IPCC AR6 WGI Ch. 7 Table 7.SM.7 GWP100, as shipped by the globalwarmingpotentials package (27.9 and 273).
     ch4, n2o = gwp.data["AR6GWP100"]["CH4"], gwp.data["AR6GWP100"]["N2O"]
     wide = frame.pivot_table(index=KEYS, columns="variable", values="value")
-    # N2O is reported in kt, the total in Mt CO2e: divide by 1000.
-    expected = wide["emissions.co2"] + ch4 * wide["emissions.ch4"] + n2o / 1000.0 * wide["emissions.n2o"]
+    # N2O is reported in kt, the total in Mt CO2e: divide by 1000. F-gases are reported in Mt CO2e already.
+    expected = (
+        wide["emissions.co2"]
+        + ch4 * wide["emissions.ch4"]
+        + n2o / 1000.0 * wide["emissions.n2o"]
+        + wide["emissions.fgases"]
+    )
     assert (wide["emissions.ghg"] - expected).abs().max() <= 1e-3
 
 
@@ -215,10 +220,12 @@ def test_base_year_within_reference(frame: pd.DataFrame, con: Contract) -> None:
 def test_base_year_is_of_realistic_magnitude(frame: pd.DataFrame, con: Contract) -> None:
     base = frame[(frame["region"] == gen.WORLD) & (frame["year"] == 2020)]
     v = base.groupby("variable")["value"].agg(["min", "max"])
-    ch4, n2o = (p.factor for p in con.variables["emissions.ghg"].parts[1:])
+    factor = gen.ghg_factors(con)
+    ch4, n2o = factor["emissions.ch4"], factor["emissions.n2o"]
 
     # 2019 emissions by gas, AR6 WGIII Ch. 2 Sect. 2.2.2.1 Table 2.1 (Gt CO2e, AR6 GWP100): CO2-FFI 38 +- 3,
-    # CO2-LULUCF 6.6 +- 4.6, CH4 11 +- 3.2, N2O 2.7 +- 1.6. A 2019 range is a magnitude check for 2020 values.
+    # CO2-LULUCF 6.6 +- 4.6, CH4 11 +- 3.2, N2O 2.7 +- 1.6, F-gases 1.4 +- 0.41. A 2019 range is a magnitude check
+    # for 2020 values.
     def within(var: str, low: float, high: float, factor: float = 1.0) -> bool:
         return low <= factor * v.loc[var, "min"] and factor * v.loc[var, "max"] <= high
 
@@ -226,6 +233,7 @@ def test_base_year_is_of_realistic_magnitude(frame: pd.DataFrame, con: Contract)
     assert within("emissions.co2.land", 2_000, 11_200)
     assert within("emissions.ch4", 7_800, 14_200, ch4)
     assert within("emissions.n2o", 1_100, 4_300, n2o)
+    assert within("emissions.fgases", 990, 1_810)
     # World population 2020 about 7.8 billion (UN World Population Prospects; from memory), +-5 %.
     assert within("population", 7_400, 8_200)
 

@@ -115,6 +115,7 @@ def test_parquet_export_equals_csv_export(tmp_path: Path, db) -> None:
         "year_to",
         "value",
         "unit",
+        "note",
     ]
     np.testing.assert_allclose(a["value"].to_numpy(float), b["value"].to_numpy(float), equal_nan=True)
 

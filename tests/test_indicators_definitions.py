@@ -35,7 +35,9 @@ def test_core_plan(core):
     assert by_kind["cumulative"]["emissions.n2o"] == ("Gt N2O", pytest.approx(1e-6))
     assert by_kind["npv"] == {"cost.abatement": ("billion USD_2015", 1.0)}
     assert set(by_kind["loss_pct"]) == {"gdp.ppp", "gdp.mer", "consumption"}
-    assert set(by_kind["growth_reduction_pp"]) == {"consumption"}
+    assert set(by_kind["growth_reduction_pp"]) == {"gdp.ppp", "gdp.mer", "consumption"}
+    assert by_kind["rate_absolute"]["emissions.co2"] == ("Mt CO2/yr per year", 1.0)
+    assert set(by_kind["rate_linear_base"]) == set(by_kind["rate_linear"]) == set(by_kind["rate_cagr"])
     assert {u for u, _ in by_kind["rate_cagr"].values()} == {"%/yr"}
     assert "cost.abatement" not in by_kind["rate_cagr"] and "trade.permits" not in by_kind["rate_cagr"]
     assert "emissions.ch4" not in by_kind["net_zero_year"] and "emissions.co2" in by_kind["net_zero_year"]
@@ -180,9 +182,9 @@ def test_demo_contract_indicators(demo_contract):
     assert units[("loss_pct", "gdp.mer")] == "%"
     assert units[("growth_reduction_pp", "consumption")] == "pp/yr"
     by_key = {(r[1], r[2], r[3], r[4], r[5], r[6]): r[7] for r in rows}
-    # brisk CO2 crosses zero where 1 - (y - 2010)/70 = 0: 2080; reported range 2010..2100
-    assert by_key[("brisk", "World", "net_zero_year", "emissions.co2", 2010, 2100)] == pytest.approx(2080.0)
-    assert by_key[("steady", "World", "net_zero_year", "emissions.co2", 2010, 2100)] is None
+    # brisk CO2 crosses zero where 1 - (y - 2010)/70 = 0: 2080; searched from the base year 2020 to 2100
+    assert by_key[("brisk", "World", "net_zero_year", "emissions.co2", 2020, 2100)] == 2080
+    assert by_key[("steady", "World", "net_zero_year", "emissions.co2", 2020, 2100)] is None
     # the reference has no loss against itself; brisk in 2050: steady 1 + 40/90, brisk 1 - 40/70
     assert by_key[("steady", "Ardena", "loss_pct", "gdp.mer", 2050, 2050)] is None
     want = ((1 + 40 / 90) - (1 - 40 / 70)) / (1 + 40 / 90) * 100

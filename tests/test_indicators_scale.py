@@ -7,7 +7,6 @@ import time
 import duckdb
 import numpy as np
 import pytest
-from scipy.integrate import trapezoid
 
 from milepost.validate.bench.indicators import make_data
 from milepost.validate.store.indicators import compute_indicators, plan
@@ -45,8 +44,8 @@ def test_full_scale_is_set_based_and_correct(core):
             )
             xp, fp = [y for y, _ in pts], [v for _, v in pts]
             years = np.arange(2020, 2101)
-            # references: numpy.interp and scipy.integrate.trapezoid on the annual series (Mt -> Gt: / 1000)
+            # reference: numpy.interp at every whole year, summed with both ends included (Mt -> Gt: / 1000)
             assert got[("value", 2050, 2050)] == pytest.approx(np.interp(2050, xp, fp))
-            assert got[("cumulative", 2020, 2100)] == pytest.approx(trapezoid(np.interp(years, xp, fp), years) / 1e3)
+            assert got[("cumulative", 2020, 2100)] == pytest.approx(np.interp(years, xp, fp).sum() / 1e3)
     finally:
         con.close()

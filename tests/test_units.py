@@ -5,7 +5,7 @@ from __future__ import annotations
 import periodictable
 import pytest
 
-from milepost.schema.units import CO2_PER_C, UnitError, Units, normalise
+from milepost.schema.units import CO2_PER_C, N2O_PER_N, UnitError, Units, normalise
 
 
 @pytest.fixture(scope="module")
@@ -31,6 +31,33 @@ def test_co2_per_carbon_is_the_iupac_molar_mass_ratio(carbon_units):
 def test_carbon_converts_only_where_the_contract_allows(units):
     with pytest.raises(UnitError):
         units.factor("Mt C/yr", "Mt CO2/yr")
+
+
+@pytest.fixture(scope="module")
+def nitrogen_units():
+    return Units(nitrogen_to_n2o=True, shapes=("kt N2O/yr", "Mt CO2/yr"))
+
+
+def test_n2o_per_nitrogen_is_the_iupac_molar_mass_ratio(nitrogen_units):
+    # IUPAC/CIAAW 2021 standard atomic weights via periodictable: N 14.007, O 15.999 -> M(N2O) 44.013, M(N2) 28.014;
+    # a mass of N2O-N (the nitrogen in N2O) is a mass of N2O times 28.014/44.013, so kt N2O-N x 1.57111 = kt N2O.
+    ratio = periodictable.formula("N2O").mass / periodictable.formula("N2").mass
+    assert periodictable.N.mass == pytest.approx(14.007) and periodictable.O.mass == pytest.approx(15.999)
+    assert pytest.approx(ratio, rel=1e-9) == N2O_PER_N
+    assert pytest.approx(44.013 / 28.014, rel=1e-12) == N2O_PER_N
+    assert nitrogen_units.factor("kt N2O-N/yr", "kt N2O/yr") == pytest.approx(ratio, rel=1e-9)
+    assert nitrogen_units.factor("Mt N2O-N/yr", "kt N2O/yr") == pytest.approx(1000 * ratio, rel=1e-9)
+    assert nitrogen_units.factor("kt N2O/yr", "kt N2O-N/yr") == pytest.approx(1 / ratio, rel=1e-9)
+    # the nitrogen option converts nitrogen only: carbon and the other gases stay apart
+    assert not nitrogen_units.compatible("Mt C/yr", "Mt CO2/yr")
+    assert not nitrogen_units.compatible("kt N2O-N/yr", "Mt CO2/yr")
+
+
+def test_n2o_nitrogen_converts_only_where_the_contract_allows(units):
+    assert not units.compatible("kt N2O-N/yr", "kt N2O/yr")
+    both = Units(carbon_to_co2=True, nitrogen_to_n2o=True, shapes=("kt N2O/yr", "Mt CO2/yr"))
+    assert both.factor("kt N2O-N/yr", "kt N2O/yr") == pytest.approx(N2O_PER_N)
+    assert both.factor("Mt C/yr", "Mt CO2/yr") == pytest.approx(CO2_PER_C)
 
 
 def test_energy_units(units):
@@ -70,6 +97,8 @@ def test_deflator_makes_currency_years_convert():
         ("Mt CO2-equiv/yr", "Mt CO2e/yr"),
         ("US$2015/t CO2", "USD_2015/t CO2"),
         ("kt N2O/year", "kt N2O/yr"),
+        ("kt N2O-N/yr", "kt N2O_N/yr"),
+        ("ktN2O-N/yr", "kt N2O_N/yr"),
     ],
 )
 def test_common_spellings_normalise(units, raw, norm):

@@ -14,7 +14,6 @@ from typing import Any
 import duckdb
 
 from milepost.schema.contract import Contract
-from milepost.schema.units import UnitError, scale_factor
 from milepost.validate import __version__
 from milepost.validate.checks import ROW_CHECKS, TABLE_CHECKS, Context
 from milepost.validate.checks.structure import file_findings
@@ -65,7 +64,6 @@ class CheckResult:
 
 
 def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
-    units = contract.units
     con.execute(
         "CREATE OR REPLACE TEMP TABLE c_variables (variable VARCHAR, unit VARCHAR, sign VARCHAR, "
         "regions VARCHAR, required BOOLEAN)"
@@ -96,16 +94,8 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
     con.execute(
         "CREATE OR REPLACE TEMP TABLE c_reference (region VARCHAR, variable VARCHAR, year INTEGER, value DOUBLE)"
     )
-    ref = []
-    for r in contract.reference:
-        v = contract.variables.get(r.variable)
-        if v is None:
-            continue  # contract lint reports it
-        try:
-            factor = scale_factor(r.unit, v.unit)
-            ref.append((r.region, r.variable, r.year, r.value * (factor or units.factor(r.unit, v.unit))))
-        except UnitError:
-            continue  # contract lint reports it
+    # unknown variables and units that do not convert are left out here; contract lint reports them
+    ref = [(r.region, r.variable, r.year, r.value) for r in contract.references_in_contract_units()]
     if ref:
         con.executemany("INSERT INTO c_reference VALUES (?, ?, ?, ?)", ref)
     con.execute(

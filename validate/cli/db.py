@@ -92,9 +92,19 @@ def ingest_cmd(
     if fmt is TextJson.json:
         _echo_json(result.to_dict())
         raise typer.Exit(result.exit_code)
+    recomputed = (
+        f"Recomputed {result.recomputed:,} stored indicator rows under the current conventions "
+        "(the database was migrated; see schema/indicators.toml)."
+    )
     if result.status == "unchanged":
-        typer.echo(f"Unchanged: {result.reason}; nothing was written to {result.db}.")
+        if result.recomputed:
+            typer.echo(f"Unchanged: {result.reason}; no submission was written to {result.db}.")
+            typer.echo(recomputed)
+        else:
+            typer.echo(f"Unchanged: {result.reason}; nothing was written to {result.db}.")
         raise typer.Exit(result.exit_code)
+    if result.recomputed:
+        typer.echo(recomputed)
     n = len(result.scenarios)
     scen = f"{n} scenario{'s' if n != 1 else ''}" + (f" ({_scenario_list(result.scenarios)})" if n else "")
     counts = result.counts
@@ -180,11 +190,11 @@ def export_cmd(
     ] = None,
 ) -> None:
     """Export data, indicators or findings as CSV, Parquet or XLSX."""
-    from milepost.validate.store.database import default_db_path
+    from milepost.validate.store.database import default_db_path, warn
     from milepost.validate.store.exports import Filters, export
 
     filters = Filters(model or (), scenario or (), region or (), variable or (), submission or ())
-    n = export(default_db_path(db), what.value, fmt.value, output, filters)
+    n = export(default_db_path(db), what.value, fmt.value, output, filters, on_warning=warn)
     typer.echo(f"Wrote {n:,} rows to {output}.", err=True)
 
 

@@ -10,7 +10,7 @@ import json
 import os
 import shutil
 import time
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -20,11 +20,24 @@ import duckdb
 from milepost.validate.errors import UsageError
 from milepost.validate.readers import sha256_of
 from milepost.validate.store.database import reading, schema_version
+from milepost.validate.store.recompute import outdated_reason
 
 XLSX_MAX_ROWS = 1_048_575  # an Excel sheet has 1,048,576 rows; one is the header
 CAUTIONS = (
     "Scenario results are model projections under stated assumptions, not forecasts.",
     "Mitigation costs exclude avoided climate damages and co-benefits.",
+)
+# How the indicators are defined, for the "about" sheet of an indicators export (schema/indicators.toml has all).
+INDICATOR_BASIS = (
+    "Values are read from the piecewise-linear interpolation of the reported years at whole years.",
+    "cumulative: the sum of the annual values of every year from year_from to year_to, both included "
+    "(carbon budgets, as in IPCC AR6 WG1, count from 1 January of the first year).",
+    "net_zero_year, peak_year, peak_value: from the base year on only; an empty net-zero year was not reached by "
+    "year_to (see note).",
+    "rate_linear: % of the value at year_from per year; rate_linear_base: % of the base-year value per year; "
+    "rate_absolute: the variable's unit per year; rate_cagr: compound %/yr. Negative = falling.",
+    "loss_pct, growth_reduction_pp: against each model's own reference scenario named in the scenarios table "
+    "(see note), which may differ from a current-policies pathway.",
 )
 DATA_COLUMNS = ("submission_id", "model", "scenario", "region", "variable", "unit", "year", "value")
 INDICATOR_COLUMNS = (
@@ -38,6 +51,7 @@ INDICATOR_COLUMNS = (
     "year_to",
     "value",
     "unit",
+    "note",
 )
 FINDING_COLUMNS = (
     "submission_id",
@@ -106,27 +120,57 @@ class Filters:
         return {k: list(v) for k, v in self.__dict__.items() if v}
 
 
-def export_query(what: str, filters: Filters) -> tuple[str, list[Any]]:
-    """The SELECT of an export: current rows (or, with a submission filter, that submission's stored rows)."""
+def export_query(what: str, filters: Filters, old_indicators: bool = False) -> tuple[str, list[Any]]:
+    """The SELECT of an export: current rows (or, with a submission filter, that submission's stored rows).
+
+    `old_indicators`: the database predates the indicators' `note` column (not migrated yet); it is exported empty.
+    """
     if what not in EXPORTS:
         raise UsageError(f"--what must be one of {', '.join(EXPORTS)}, not {what!r}")
     view, table, columns, order = EXPORTS[what]
     # A submission filter asks for history: read the table, not the current view.
     source = table if filters.submission else view
     where, params = filters.where()
-    return f"SELECT {', '.join(columns)} FROM {source}{where} ORDER BY {order}", params
+    return f"SELECT {_select_list(columns, old_indicators)} FROM {source}{where} ORDER BY {order}", params
 
 
-def export(db: str | Path, what: str, fmt: str, output: str | Path, filters: Filters | None = None) -> int:
-    """Write the rows of `what` (data | indicators | findings) matching `filters` to `output`; returns the count."""
+def _select_list(columns: Sequence[str], old_indicators: bool) -> str:
+    return ", ".join("NULL::VARCHAR AS note" if old_indicators and c == "note" else c for c in columns)
+
+
+def _lacks_notes(con: duckdb.DuckDBPyConnection) -> bool:
+    """True for a database written before indicator rows had a `note` (schema version 1, not migrated yet)."""
+    rows = con.execute(
+        "SELECT count(*) FROM duckdb_columns() WHERE database_name = current_database() AND table_name = 'indicators'"
+        " AND column_name = 'note'"
+    ).fetchall()
+    return not rows[0][0]
+
+
+def export(
+    db: str | Path,
+    what: str,
+    fmt: str,
+    output: str | Path,
+    filters: Filters | None = None,
+    on_warning: Callable[[str], None] | None = None,
+) -> int:
+    """Write the rows of `what` (data | indicators | findings) matching `filters` to `output`; returns the count.
+
+    `on_warning` hears (once) when the stored indicators follow older conventions (see `recompute`).
+    """
     filters = filters or Filters()
     if fmt not in FORMATS:
         raise UsageError(f"--format must be one of {', '.join(FORMATS)}, not {fmt!r}")
     output = Path(output)
     if not output.parent.is_dir():
         raise UsageError(f"the folder of {output} does not exist")
-    sql, params = export_query(what, filters)
     with reading(db) as con:
+        sql, params = export_query(what, filters, old_indicators=what == "indicators" and _lacks_notes(con))
+        if what == "indicators":
+            reason = outdated_reason(con)
+            if reason is not None and on_warning is not None:
+                on_warning(f"Warning: {reason}.")
         if fmt != "xlsx":
             # COPY reports the rows it wrote, so the query runs once.
             options = "FORMAT csv, HEADER" if fmt == "csv" else "FORMAT parquet, COMPRESSION zstd"
@@ -175,6 +219,9 @@ def _write_xlsx(
     about.append(["exported at (UTC)", time.strftime("%Y-%m-%d %H:%M:%S", time.gmtime())])
     for line in CAUTIONS:
         about.append(["caution", line])
+    if what == "indicators":
+        for line in INDICATOR_BASIS:
+            about.append(["basis", line])
     tmp = output.with_name(output.name + f".tmp-{os.getpid()}")
     wb.save(tmp)
     os.replace(tmp, output)
@@ -206,13 +253,14 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
             if total == 0:
                 raise UsageError(f"{db} has no accepted data to snapshot")
             tables: dict[str, Any] = {}
+            old = _lacks_notes(con)
             for name, view, columns, order in SNAPSHOT_TABLES:
                 rows = int(con.execute(f"SELECT count(*) FROM {view}").fetchall()[0][0])
                 tables[name] = {"rows": rows, "source": view, "partition_by": ["model"], "columns": list(columns)}
                 if rows:
                     target = str(work / name).replace("'", "''")
                     con.execute(
-                        f"COPY (SELECT {', '.join(columns)} FROM {view} ORDER BY model, {order}) "
+                        f"COPY (SELECT {_select_list(columns, old)} FROM {view} ORDER BY model, {order}) "
                         f"TO '{target}' (FORMAT parquet, COMPRESSION zstd, PARTITION_BY (model))"
                     )
             contracts = [
@@ -226,6 +274,7 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
                 r[0] for r in con.execute("SELECT DISTINCT submission_id FROM current_versions ORDER BY 1").fetchall()
             ]
             version = schema_version(con)
+            outdated = outdated_reason(con)
             files = []
             for path in sorted(p for p in work.rglob("*.parquet")):
                 rel = path.relative_to(work).as_posix()
@@ -244,6 +293,7 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
             "tables": tables,
             "files": files,
             "cautions": list(CAUTIONS),
+            "indicators_outdated": outdated,
         }
         (work / "manifest.json").write_text(json.dumps(manifest, indent=2) + "\n", encoding="utf-8")
         if out_dir.exists():

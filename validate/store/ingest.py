@@ -20,6 +20,7 @@ from typing import Any
 import duckdb
 
 from milepost.validate.errors import LoadError, UsageError
+from milepost.validate.store import recompute
 from milepost.validate.store.database import NEW, Writer, connect_memory, default_db_path, open_reader, quote
 
 FINDING_COLUMNS = (
@@ -40,7 +41,7 @@ FINDING_COLUMNS = (
     "hint",
 )
 DATA_COLUMNS = ("model", "scenario", "region", "variable", "unit", "year", "value")
-INDICATOR_COLUMNS = ("model", "scenario", "region", "kind", "variable", "year_from", "year_to", "value", "unit")
+INDICATOR_COLUMNS = ("model", "scenario", "region", "kind", "variable", "year_from", "year_to", "value", "unit", "note")
 PROGRESS_ROWS = 1_000_000  # show a progress bar for the load stage above this many rows
 
 
@@ -61,6 +62,8 @@ class IngestResult:
     superseded: list[int] = field(default_factory=list)  # submissions now wholly superseded by this one
     replaced: list[dict[str, Any]] = field(default_factory=list)  # [{model, scenario, submission_id}] older versions
     refreshed: list[dict[str, Any]] = field(default_factory=list)  # older scenarios whose indicators were recomputed
+    # indicator rows recomputed because a migration changed the indicator conventions (0 = none were due)
+    recomputed: int = 0
     files: list[dict[str, Any]] = field(default_factory=list)
     findings: list[Any] = field(default_factory=list)  # milepost.validate.findings.Finding (capped per rule)
     reason: str = ""
@@ -176,7 +179,10 @@ def ingest(
     ]
     repeat = _check_repeat_before_lock(db_path, sha, contract.hash, accept_warnings)
     if repeat is not None:
-        return _unchanged(db_path, sha, repeat, plain_files)
+        out = _unchanged(db_path, sha, repeat, plain_files)
+        # the same files again still bring the contract, so stored indicators that wait for it are recomputed
+        out.recomputed = recompute.recompute_stored(db_path, contract, timeout=lock_timeout, on_wait=on_wait)
+        return out
 
     from milepost.validate.runner import run_check
 
@@ -320,6 +326,18 @@ def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any) -> None:
         raise LoadError(f"the indicators could not be computed, nothing was stored: {e}") from None
 
 
+def _prepare_recompute(con: duckdb.DuckDBPyConnection, contract: Any) -> int | None:
+    """Recomputed rows of every stored indicator when a migration left them outdated (see `recompute`), else None."""
+    from milepost.validate.store.indicators import IndicatorDataError, IndicatorSpecError
+
+    if not recompute.is_outdated(con, NEW):
+        return None
+    try:
+        return recompute.prepare(con, contract, NEW)
+    except (IndicatorDataError, IndicatorSpecError) as e:
+        raise LoadError(f"the stored indicators could not be recomputed, nothing was stored: {e}") from None
+
+
 def _store(
     w: Writer,
     con: duckdb.DuckDBPyConnection,
@@ -381,6 +399,7 @@ def _store_ordered_freely(
     submitter = by if by is not None else _user()
     t = time.perf_counter()
     rows = 0
+    recomputed = _prepare_recompute(con, contract)
     if accepted:
         bar.step("computing indicators")
         _prepare_indicators(con, contract)
@@ -388,6 +407,9 @@ def _store_ordered_freely(
         rows = int(con.execute("SELECT count(*) FROM temp.main.checked").fetchall()[0][0])
     t = time.perf_counter()
     w.begin()
+    if recomputed is not None:
+        # first, so that the new submission's own rows (and the dependents it refreshes) land on top
+        recompute.apply(con, NEW)
     con.execute(
         f"INSERT INTO {NEW}.submissions VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, NULL, ?, ?, ?, ?)",
         [
@@ -419,6 +441,7 @@ def _store_ordered_freely(
         rows=rows,
         counts=counts,
         files=files,
+        recomputed=recomputed or 0,
     )
     out.scenarios = [
         r[0]

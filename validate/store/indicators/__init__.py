@@ -2,9 +2,11 @@
 
 `compute_indicators` reads long rows (model, scenario, region, variable, unit, year, value; contract units) and
 the scenarios table (model, scenario, reference), and writes one row per (model, scenario, region, kind,
-variable, year_from, year_to). Which variables get which kinds, over which periods and in which unit comes from
-schema/indicators.toml. All kinds read one shared piecewise-linear interpolation (see `interpolation`), and
-everything is set-based SQL: the cost does not grow with Python loops over scenarios.
+variable, year_from, year_to) with its value, unit and an optional note (why a value is what it is: the reference
+a loss was measured against, a net-zero year that was not reached). Which variables get which kinds, over which
+periods and in which unit comes from schema/indicators.toml. All kinds read one shared piecewise-linear
+interpolation (see `interpolation`), and everything is set-based SQL: the cost does not grow with Python loops
+over scenarios.
 
 Indicators are computed for every series in `data`, reference scenarios included; a reference read from
 another submission (e.g. a view that unions new rows with stored ones) works the same. Undefined values are
@@ -51,6 +53,7 @@ COLUMNS = (
     ("year_to", "INTEGER"),
     ("value", "DOUBLE"),
     ("unit", "VARCHAR"),
+    ("note", "VARCHAR"),
 )
 
 
@@ -82,7 +85,9 @@ def compute_indicators(
         )
         parts = [KINDS[kind].sql(tables) for kind in resolved.kinds()]
         if parts:
-            union = " UNION ALL ".join(f"({sql})" for sql in parts)
+            # BY NAME: a kind without notes leaves out the `note` column and gets nulls there
+            notes = "SELECT NULL::VARCHAR AS note WHERE false"  # so that the column exists when no kind has notes
+            union = " UNION ALL BY NAME ".join(f"({sql})" for sql in [*parts, notes])
             casts = ", ".join(f"{name}::{sql_type} AS {name}" for name, sql_type in COLUMNS)
             con.execute(f"CREATE OR REPLACE TEMP TABLE {out} AS SELECT {casts} FROM ({union})")
         else:

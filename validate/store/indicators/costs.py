@@ -1,13 +1,15 @@
 """Cost indicators: losses against the reference scenario and the net present value of abatement costs.
 
 The reference is the scenario named in the scenario's `reference` attribute (the `scenarios` table), same model,
-same region, same variable; its rows may come from another submission. Without one the value is null.
+same region, same variable; its rows may come from another submission. Without one the value is null. Each model
+names its own reference, which may be a no-policy run rather than a current-policies pathway: the `note` of every
+loss_pct and growth_reduction_pp row names the reference scenario it was measured against (or why there is none).
 
 loss_pct             (reference - scenario) / reference * 100 at each milestone, in %; null when the reference
                      value is 0 or either value is missing. Positive = the scenario is below its reference.
 growth_reduction_pp  CAGR(reference, y0 -> y1) - CAGR(scenario, y0 -> y1) in percentage points per year: the
-                     annualised reduction of consumption growth. Null when either CAGR is undefined (a value
-                     <= 0) or a value is missing.
+                     annualised reduction of GDP or consumption growth (as AR6 WGIII SPM C.12.2 states it for GDP
+                     over 2020-2050). Null when either CAGR is undefined (a value <= 0) or a value is missing.
 npv                  sum over every year t = y0..y1 inclusive of C_t / (1 + r)**(t - base), C_t the annual
                      interpolation and r = contract.discount_rate / 100. The base year itself is not discounted
                      (as numpy_financial.npv, which does not discount its first value); with y0 later than base the
@@ -20,12 +22,23 @@ from __future__ import annotations
 
 from milepost.validate.store.indicators.base import Kind, Tables, cagr, frame, head
 
+# Which reference a loss was measured against, in words, for the `note` column (aliases as in `frame`).
+REFERENCE_NOTE = (
+    "CASE WHEN s.reference IS NULL THEN 'no reference scenario is named in the scenarios table'"
+    " WHEN s.ref_sid IS NULL THEN 'the reference scenario ' || s.reference || ' does not report this series'"
+    " ELSE 'against ' || s.reference || ', the model''s own reference scenario named in the scenarios table"
+    " (it may differ from a current-policies pathway)' END"
+)
+
 
 def loss_sql(t: Tables) -> str:
     """SQL for `loss_pct` rows."""
     scen, ref = "s.ends[p.i_to]", "s.ref_ends[p.i_to]"
     value = f"(CASE WHEN {ref} <> 0 THEN ({ref} - {scen}) / {ref} * 100 END)"
-    return f"SELECT {head('loss_pct')}, p.year_from, p.year_to, {value} AS value, x.unit {frame(t, 'loss_pct')}"
+    return (
+        f"SELECT {head('loss_pct')}, p.year_from, p.year_to, {value} AS value, x.unit, {REFERENCE_NOTE} AS note"
+        f" {frame(t, 'loss_pct')}"
+    )
 
 
 def growth_reduction_sql(t: Tables) -> str:
@@ -33,8 +46,8 @@ def growth_reduction_sql(t: Tables) -> str:
     scen = cagr("s.ends[p.i_from]", "s.ends[p.i_to]", "p.year_from", "p.year_to")
     ref = cagr("s.ref_ends[p.i_from]", "s.ref_ends[p.i_to]", "p.year_from", "p.year_to")
     return (
-        f"SELECT {head('growth_reduction_pp')}, p.year_from, p.year_to, {ref} - {scen} AS value, x.unit"
-        f" {frame(t, 'growth_reduction_pp')}"
+        f"SELECT {head('growth_reduction_pp')}, p.year_from, p.year_to, {ref} - {scen} AS value, x.unit,"
+        f" {REFERENCE_NOTE} AS note {frame(t, 'growth_reduction_pp')}"
     )
 
 

@@ -1,38 +1,34 @@
-"""Cumulative indicators: `cumulative`, the integral of the interpolated series from year_from to year_to.
+"""Cumulative indicators: `cumulative`, the sum of the annual values of a series from year_from to year_to.
 
-cumulative  exact integral of the piecewise-linear series over [y0, y1], computed per segment (each segment
-            clipped to the period contributes length * mean of its clipped end values). Because reported years
-            are integers this equals the trapezoid rule over the annual interpolated values and, when y0 and y1
-            are reported years, over the reported points. Null unless the reported range covers all of [y0, y1].
-            Emissions are given per year, so the unit is that of the gas without "/yr", scaled as configured:
-            'Mt CO2/yr' -> 'Gt CO2' (/1000), 'kt N2O/yr' -> 'Gt N2O' (/1e6). year_from = base, year_to = milestone.
+cumulative  the sum of the annual values (the piecewise-linear interpolation at every whole year) for every year
+            from year_from to year_to, both included: 2020-2100 sums 81 annual values. This is how carbon budgets
+            are counted (IPCC AR6 WG1 gives remaining budgets from 1 January 2020, i.e. emissions of 2020 onwards)
+            and how annual inventories are added up (common practice). It is not the trapezoid over the reported
+            points, which counts one year fewer (half of each end year). Sums over consecutive periods overlap in
+            their shared year: 2020-2030 plus 2030-2050 counts 2030 twice. Null unless the series reports every
+            year of the period (never extrapolated). Emissions are given per year, so the unit is that of the
+            gas without "/yr", scaled as configured: 'Mt CO2/yr' -> 'Gt CO2' (/1000), 'kt N2O/yr' -> 'Gt N2O'
+            (/1e6). Default periods: base year -> each milestone.
 """
 
 from __future__ import annotations
 
-from milepost.validate.store.indicators.base import Kind, Tables, frame, head, lerp
+from milepost.validate.store.indicators.base import Kind, Tables, annual_sum, frame, head
 
 
 def cumulative_sql(t: Tables) -> str:
     """SQL for `cumulative` rows."""
-    selected = (
-        f"SELECT s.sid FROM {t.series} s JOIN {t.selection} x ON x.kind = 'cumulative' AND x.variable = s.variable"
+    spans = (
+        f"(SELECT s.sid, p.year_from, p.year_to FROM {t.series} s"
+        f" JOIN {t.selection} x ON x.kind = 'cumulative' AND x.variable = s.variable"
+        f" JOIN {t.periods} p ON p.kind = 'cumulative')"
     )
-    segments = (
-        "SELECT q.sid, q.year, q.value, q.year1, q.value1, p.year_from, p.year_to,"
-        " greatest(q.year, p.year_from) AS lo, least(q.year1, p.year_to) AS hi"
-        f" FROM {t.points} q JOIN {t.periods} p ON p.kind = 'cumulative'"
-        f" AND q.year < p.year_to AND q.year1 > p.year_from WHERE q.sid IN ({selected})"
-    )
-    area = (
-        f"SELECT sid, year_from, year_to, sum((hi - lo) * ({lerp('lo')} + {lerp('hi')}) / 2) AS integral"
-        f" FROM ({segments}) GROUP BY sid, year_from, year_to"
-    )
-    covered = "s.first_year <= p.year_from AND s.last_year >= p.year_to"
     return (
         f"SELECT {head('cumulative')}, p.year_from, p.year_to,"
-        f" CASE WHEN {covered} THEN g.integral * x.factor END AS value, x.unit {frame(t, 'cumulative')}"
-        f" LEFT JOIN ({area}) g ON g.sid = s.sid AND g.year_from = p.year_from AND g.year_to = p.year_to"
+        " CASE WHEN g.years = p.year_to - p.year_from + 1 THEN g.total * x.factor END AS value, x.unit"
+        f" {frame(t, 'cumulative')}"
+        f" LEFT JOIN ({annual_sum(t, spans)}) g"
+        " ON g.sid = s.sid AND g.year_from = p.year_from AND g.year_to = p.year_to"
     )
 
 

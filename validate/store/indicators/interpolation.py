@@ -8,9 +8,11 @@ are left out, so the line bridges them.
 
 Helpers (names in `Tables`): `points` holds the segments (each reported point with the next one); `annual` is a
 view over it with every integer year (about 50 M rows at intercomparison scale, so it is never materialised);
-`series` carries, per series, the interpolation at every period endpoint of indicators.toml (`ends`, a list in the
-order of `Tables.years`) and the same for its reference scenario (`ref_ends`), so the kinds that need only
-endpoint values read one row per series and join nothing.
+`series` carries, per series, the interpolation at every period endpoint of indicators.toml and at the base year
+(`ends`, a list in the order of `Tables.years`), the name of its reference scenario and the same list for it
+(`ref_ends`), so the kinds that need only endpoint values read one row per series and join nothing. Kinds that
+need the annual values over a span (sums, first year at or below zero, peaks) use the closed-form span helpers
+of `base` on `points` instead of expanding `annual`.
 """
 
 from __future__ import annotations
@@ -62,7 +64,8 @@ def prepare(
     drop_helpers(con)
     sel = list(selection)
     per = list(periods)
-    years = tuple(sorted({y for _, y0, y1 in per for y in (y0, y1)}))
+    # the base year is always an endpoint: base-normalised rates read it from `ends` like any other year
+    years = tuple(sorted({int(base_year), *(y for _, y0, y1 in per for y in (y0, y1))}))
     index = {y: i + 1 for i, y in enumerate(years)}  # DuckDB lists are 1-based
     con.execute(
         f"CREATE TEMP TABLE {n['selection']} AS SELECT unnest(?::VARCHAR[]) AS kind, unnest(?::VARCHAR[]) AS variable,"
@@ -107,7 +110,7 @@ def prepare(
     )
     con.execute(
         f"CREATE TEMP TABLE {n['series']} AS SELECT g.sid, g.model, g.scenario, g.region, g.variable,"
-        " g.first_year, g.last_year, e.ends, r.sid AS ref_sid, re.ends AS ref_ends"
+        " g.first_year, g.last_year, e.ends, c.reference, r.sid AS ref_sid, re.ends AS ref_ends"
         f" FROM {n['grouped']} g LEFT JOIN {n['endpoints']} e ON e.sid = g.sid"
         f" LEFT JOIN (SELECT DISTINCT model, scenario, reference FROM {identifier(scenarios)}"
         " WHERE reference IS NOT NULL) c ON c.model = g.model AND c.scenario = g.scenario"
