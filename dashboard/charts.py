@@ -45,14 +45,13 @@ def histogram(df: pd.DataFrame, edges: list[float], labels: list[str], title: st
 
 
 def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> alt.FacetChart:
-    """Per band, box plot and jittered points of the reduction rates; one panel per rate kind."""
+    """Per band, box plot and jittered points of the rates; one panel per rate (`rate`, its label with its unit,
+    in the order the rows come), each with its own scale."""
     base = alt.Chart().encode(
         x=alt.X("band_label:N", sort=labels, title="band"),
         color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, legend=None),
     )
-    box = base.mark_boxplot(extent=1.5, opacity=0.45, size=40, outliers=False).encode(
-        y=alt.Y("value:Q", title=f"{title} [%/yr]")
-    )
+    box = base.mark_boxplot(extent=1.5, opacity=0.45, size=40, outliers=False).encode(y=alt.Y("value:Q", title=title))
     points = (
         base.mark_circle(size=28, opacity=0.75)
         .encode(
@@ -62,7 +61,8 @@ def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> alt.FacetChart
                 alt.Tooltip("model:N"),
                 alt.Tooltip("scenario:N"),
                 alt.Tooltip("band_label:N", title="band"),
-                alt.Tooltip("value:Q", format=".2f", title="%/yr"),
+                alt.Tooltip("rate:N"),
+                alt.Tooltip("value:Q", format=",.4~g", title="rate"),
                 alt.Tooltip("band_value:Q", format=",.4~g", title="milestone value"),
             ],
         )
@@ -71,7 +71,7 @@ def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> alt.FacetChart
     return (
         alt.layer(box, points, data=df)
         .properties(width=300, height=320)
-        .facet(column=alt.Column("rate:N", title=None))
+        .facet(column=alt.Column("rate:N", title=None, sort=list(dict.fromkeys(df["rate"]))))
         .resolve_scale(y="independent")
     )
 

@@ -58,11 +58,24 @@ def find(name: str | None) -> Found:
     return Found(None, f"contract {name!r} is not bundled; set {ENV_CONTRACT} to its folder")
 
 
-def reference_value(
-    contract: Contract | None, region: str, variable: str, year: int | None
-) -> tuple[float, str] | None:
-    """The contract's reference value (value, unit) for one region, variable and year, if it has one."""
+@dataclass(frozen=True)
+class ReferenceValue:
+    """A reference value in the variable's contract unit (the unit of the stored data), and how the contract gave it."""
+
+    value: float
+    unit: str
+    given_value: float
+    given_unit: str
+
+
+def reference_value(contract: Contract | None, region: str, variable: str, year: int | None) -> ReferenceValue | None:
+    """The contract's reference value for one region, variable and year, converted into the variable's contract unit
+    (as the checker compares it), if the contract has one."""
     if contract is None or year is None:
         return None
-    match = [r for r in contract.reference if (r.region, r.variable, r.year) == (region, variable, year)]
-    return (match[0].value, match[0].unit) if match else None
+    key = (region, variable, year)
+    converted = [r for r in contract.references_in_contract_units() if (r.region, r.variable, r.year) == key]
+    given = [r for r in contract.reference if (r.region, r.variable, r.year) == key]
+    if not converted or not given:
+        return None
+    return ReferenceValue(converted[0].value, converted[0].unit, given[0].value, given[0].unit)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import pandas as pd
 
+from milepost.dashboard.queries import RATE_LABELS
 from milepost.dashboard.ui import fmt
 
 
@@ -24,27 +25,38 @@ ONE_BAND = "Only one band has scenarios: set band edges inside the range of valu
 
 
 def rates(
-    summary: pd.DataFrame, labels: list[str], top: int, bottom: int, period: tuple[int, int], variable: str, region: str
+    summary: pd.DataFrame,
+    labels: list[str],
+    top: int,
+    bottom: int,
+    period: tuple[int, int],
+    variable: str,
+    region: str,
+    linear: str = "rate_linear",
+    linear_unit: str = "%/yr",
 ) -> str:
-    """'Median CAGR 2030–2050 of emissions.ghg (World): high band −6.1 %/yr vs low band −2.0 %/yr (n = 40 vs 40) ...'
+    """'Median CAGR 2030–2050 of emissions.ghg (World): high band −6.1 %/yr vs low band −2.0 %/yr (n = 40 vs 40); linear
+    rate (% of the base-year value) −2.9 vs −1.4 %/yr ...'
 
-    `top` and `bottom` are the highest and lowest bands that hold scenarios.
+    `top` and `bottom` are the highest and lowest bands that hold scenarios; `linear` is the rate kind shown beside
+    CAGR, in `linear_unit`.
     """
     if top == bottom:
         return ONE_BAND
     cagr = summary[summary["kind"] == "rate_cagr"]
-    lin = summary[summary["kind"] == "rate_linear"]
+    lin = summary[summary["kind"] == linear]
     t, b = _band(cagr, top), _band(cagr, bottom)
     lt, lb = _band(lin, top), _band(lin, bottom)
     head = f"Median CAGR {period[0]}–{period[1]} of {variable} ({region}): "
     if t is None or b is None:
-        return head + f"not available for both the {labels[top]} and the {labels[bottom]} band."
-    text = (
-        f"{head}{labels[top]} band {fmt(t['median'])} %/yr vs {labels[bottom]} band {fmt(b['median'])} %/yr "
-        f"(n = {int(t['n'])} vs {int(b['n'])})"
-    )
+        text = head + f"not available for both the {labels[top]} and the {labels[bottom]} band"
+    else:
+        text = (
+            f"{head}{labels[top]} band {fmt(t['median'])} %/yr vs {labels[bottom]} band {fmt(b['median'])} %/yr "
+            f"(n = {int(t['n'])} vs {int(b['n'])})"
+        )
     if lt is not None and lb is not None:
-        text += f"; linear rate {fmt(lt['median'])} vs {fmt(lb['median'])} %/yr"
+        text += f"; {RATE_LABELS[linear]} {sig(lt['median'])} vs {sig(lb['median'])} {linear_unit}"
     missing = int(cagr["n_missing"].sum())
     if missing:
         text += f". CAGR undefined for {missing} scenario(s) whose value is not positive at both ends"

@@ -8,14 +8,23 @@ from typing import Any
 import duckdb
 import pandas as pd
 
-RATE_KINDS = ("rate_cagr", "rate_linear")
-RATE_LABELS = {"rate_cagr": "CAGR", "rate_linear": "linear"}
+RATE_KINDS = ("rate_cagr", "rate_linear", "rate_linear_base", "rate_absolute")
+# The rates the Rates page offers beside CAGR, and how each is named there (definitions: schema/indicators.toml).
+LINEAR_RATES = ("rate_linear_base", "rate_linear", "rate_absolute")
+RATE_LABELS = {
+    "rate_cagr": "CAGR",
+    "rate_linear": "linear, % of the start value",
+    "rate_linear_base": "linear, % of the base-year value",
+    "rate_absolute": "absolute, per year",
+}
 LOSS_VARIABLES = ("gdp.mer", "gdp.ppp", "consumption")
 # (kind, variable) -> label shown on the Costs page, in display order
 COST_METRICS: dict[tuple[str, str], str] = {
     ("loss_pct", "gdp.mer"): "GDP (MER) loss",
     ("loss_pct", "gdp.ppp"): "GDP (PPP) loss",
     ("loss_pct", "consumption"): "Consumption loss",
+    ("growth_reduction_pp", "gdp.mer"): "GDP (MER) growth reduction",
+    ("growth_reduction_pp", "gdp.ppp"): "GDP (PPP) growth reduction",
     ("growth_reduction_pp", "consumption"): "Consumption growth reduction",
     ("value", "price.carbon"): "Carbon price",
     ("npv", "cost.abatement"): "NPV of abatement cost",
@@ -94,6 +103,22 @@ banded AS (
 
 def _df(con: duckdb.DuckDBPyConnection, sql: str, params: dict[str, Any] | list[Any] | None = None) -> pd.DataFrame:
     return con.execute(sql, params or {}).df()
+
+
+def _note(con: duckdb.DuckDBPyConnection) -> str:
+    """The indicators' note column, or an empty one in a database written before notes existed (schema 1)."""
+    rows = con.execute(
+        "SELECT count(*) FROM duckdb_columns() WHERE database_name = current_database()"
+        " AND table_name = 'indicators' AND column_name = 'note'"
+    ).fetchall()
+    return "i.note" if rows[0][0] else "NULL::VARCHAR"
+
+
+def indicators_outdated(con: duckdb.DuckDBPyConnection) -> str | None:
+    """Why the stored indicators follow older conventions (a migration waits for the next ingest), or None."""
+    from milepost.validate.store.recompute import outdated_reason
+
+    return outdated_reason(con)
 
 
 def band_labels(n_bands: int) -> list[str]:
@@ -176,7 +201,11 @@ def screen_table(
     next_year: int | None,
     attributes: list[str] | tuple[str, ...] = (),
 ) -> pd.DataFrame:
-    """One row per selected scenario: band, value at the milestone and key indicators of the same variable."""
+    """One row per selected scenario: band, value at the milestone and key indicators of the same variable.
+
+    `net_zero_searched_to` is the last year the net-zero year was sought in (the series' last reported year), so
+    an empty net-zero year reads "not reached by" that year; `net_zero_note` is the stored note.
+    """
     params = {**sel.params(), "base": base_year, "next": next_year}
     attr_cols = "".join(
         f', b.attributes ->> $attr_{i} AS "{a.replace(chr(34), chr(34) * 2)}"' for i, a in enumerate(attributes)
@@ -190,6 +219,8 @@ def screen_table(
       max(i.value) FILTER (WHERE i.kind = 'cumulative' AND i.year_to = $year) AS cumulative,
       max(i.unit) FILTER (WHERE i.kind = 'cumulative' AND i.year_to = $year) AS cumulative_unit,
       max(i.value) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_year,
+      max(i.year_to) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_searched_to,
+      max({_note(con)}) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_note,
       max(i.value) FILTER (WHERE i.kind = 'peak_year') AS peak_year
     FROM banded b
     LEFT JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario
@@ -203,22 +234,42 @@ def rate_periods(con: duckdb.DuckDBPyConnection, variable: str, region: str) -> 
     """The (year_from, year_to) pairs for which reduction rates exist."""
     rows = con.execute(
         """SELECT DISTINCT year_from, year_to FROM current_indicators
-           WHERE kind IN ('rate_cagr', 'rate_linear') AND variable = $v AND region = $r ORDER BY 1, 2""",
-        {"v": variable, "r": region},
+           WHERE list_contains($kinds::VARCHAR[], kind) AND variable = $v AND region = $r ORDER BY 1, 2""",
+        {"v": variable, "r": region, "kinds": list(RATE_KINDS)},
     ).fetchall()
     return [(int(a), int(b)) for a, b in rows]
 
 
 def rates(con: duckdb.DuckDBPyConnection, sel: Selection, year_from: int, year_to: int) -> pd.DataFrame:
-    """CAGR and linear rate of the band variable over one period, one row per scenario and kind (value may be null)."""
+    """Every rate kind (CAGR, the linear rates, the absolute rate) of the band variable over one period, one row per
+    scenario and kind (value may be null), with the unit of each."""
     sql = f"""WITH {_BANDED}
-    SELECT b.model, b.scenario, b.band, b.band_value, i.kind, i.value
+    SELECT b.model, b.scenario, b.band, b.band_value, i.kind, i.value, i.unit
     FROM banded b
     JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario
          AND i.region = $region AND i.variable = $variable
-         AND i.kind IN ('rate_cagr', 'rate_linear') AND i.year_from = $yf AND i.year_to = $yt
+         AND list_contains($kinds::VARCHAR[], i.kind) AND i.year_from = $yf AND i.year_to = $yt
     ORDER BY i.kind, b.band, b.model, b.scenario"""
-    return _df(con, sql, {**sel.params(), "yf": int(year_from), "yt": int(year_to)})
+    return _df(con, sql, {**sel.params(), "yf": int(year_from), "yt": int(year_to), "kinds": list(RATE_KINDS)})
+
+
+def cagr_undefined(df: pd.DataFrame) -> pd.DataFrame:
+    """Per band of a `rates` frame: scenarios whose CAGR is empty although both values exist (one is at or below
+    zero, where a compound rate has no real value); their linear and absolute rates exist."""
+    wide = df.pivot_table(index=["model", "scenario", "band"], columns="kind", values="value", dropna=False)
+    wide = wide.reset_index()
+    if "rate_cagr" not in wide or "rate_absolute" not in wide:
+        return pd.DataFrame({"band": pd.Series(dtype="int64"), "n": pd.Series(dtype="int64")})
+    undefined = wide[wide["rate_cagr"].isna() & wide["rate_absolute"].notna()]
+    return undefined.groupby("band", as_index=False).size().rename(columns={"size": "n"})
+
+
+def reference_names(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[str]:
+    """The reference scenarios (scenarios table, column `reference`) that the selected scenarios are compared with."""
+    sql = f"""WITH {_BANDED}
+    SELECT DISTINCT s.reference FROM banded b JOIN current_scenarios s ON s.model = b.model AND s.scenario = b.scenario
+    WHERE s.reference IS NOT NULL ORDER BY 1"""
+    return [r for (r,) in con.execute(sql, sel.params()).fetchall()]
 
 
 def costs(con: duckdb.DuckDBPyConnection, sel: Selection, base_year: int | None) -> pd.DataFrame:
@@ -228,7 +279,7 @@ def costs(con: duckdb.DuckDBPyConnection, sel: Selection, base_year: int | None)
     FROM banded b
     JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario AND i.region = $region
     WHERE (i.kind = 'loss_pct' AND i.variable IN ('gdp.mer', 'gdp.ppp', 'consumption'))
-       OR (i.kind = 'growth_reduction_pp' AND i.variable = 'consumption')
+       OR (i.kind = 'growth_reduction_pp' AND i.variable IN ('gdp.mer', 'gdp.ppp', 'consumption'))
        OR (i.kind = 'value' AND i.variable = 'price.carbon' AND i.year_from > coalesce($base, -1))
        OR (i.kind = 'npv' AND i.variable = 'cost.abatement')
     ORDER BY i.kind, i.variable, year, b.band, b.model, b.scenario"""

@@ -319,11 +319,32 @@ def bands_note(variable: str, year: int, region: str, labels: list[str], edges: 
     return f"Bands by {variable} in {year} ({region}): {ranges}"
 
 
+def net_zero_text(years: pd.Series, searched_to: pd.Series, notes: pd.Series) -> pd.Series:
+    """Net-zero years for a table: the year, "not reached by YEAR" where it is empty, and a short mark where the
+    series was at or below zero already in the base year (the stored note says so)."""
+    out = pd.Series("", index=years.index, dtype="str")
+    reached = years.notna()
+    out[reached] = years[reached].astype("Int64").astype("str")
+    late = ~reached & searched_to.notna()
+    out[late] = "not reached by " + searched_to[late].astype("Int64").astype("str")
+    already = reached & notes.fillna("").str.contains("already", regex=False)
+    out[already] = out[already] + " (already ≤ 0)"
+    return out
+
+
+def outdated_warning() -> None:
+    """Say so when the stored indicators were computed under older conventions (a migration waits for an ingest)."""
+    reason = query(queries.indicators_outdated)
+    if reason is not None:
+        st.warning(f"Indicators may not match the definitions shown here: {reason}.", icon=":material/history:")
+
+
 def results_page(title: str) -> tuple[queries.Choices, queries.Selection]:
     """The opening every results page shares: the database check, the title, and the band sidebar."""
     require_database()
     ch = choices()
     st.title(title)
+    outdated_warning()
     if not ch.variables:
         st.info("The database holds no accepted scenarios yet.")
         stop()

@@ -74,6 +74,13 @@ def test_unknown_gwp_set_is_a_contract_error(tmp_path):
         load(tmp_path)
 
 
+def test_unknown_unit_option_is_a_contract_error(tmp_path):
+    # a misspelt option would otherwise be ignored silently, and values in kt N2O-N refused without a reason
+    (tmp_path / "contract.toml").write_text('name = "x"\nextends = "core"\n[units]\nnitrogen_to_N2O = true\n')
+    with pytest.raises(ContractError, match=r"nitrogen_to_N2O.*known: carbon_to_co2, nitrogen_to_n2o"):
+        load(tmp_path)
+
+
 def test_iso_codes_match_pycountry():
     codes = iso3_codes()
     assert len(codes) == len(pycountry.countries) == 249  # ISO 3166-1 entries in pycountry 26.2.16

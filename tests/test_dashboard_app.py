@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import shutil
 import subprocess
 import sys
 import time
@@ -17,6 +18,7 @@ import pytest
 from dashboard_fixtures import APP, demo, demo_db, milestone_values, numpy_bands, sql  # noqa: F401
 from streamlit.testing.v1 import AppTest
 
+from milepost.dashboard import queries
 from milepost.dashboard.headlines import sig
 from milepost.dashboard.ui import fmt
 from milepost.example_db.generate import CONTRACT_DIR
@@ -146,6 +148,36 @@ def test_rates_sentence_and_table_match_sql(demo_db, sql):  # noqa: F811
         assert row["q75"] == pytest.approx(np.percentile(df.loc[df["band"] == 2, "rate"].dropna(), 75))
     spec = json.loads(at.get("vega_lite_chart")[0].proto.spec)
     assert {"model", "scenario"} <= {t.get("field") for t in _tooltips(spec)}
+
+
+def test_rates_page_picks_the_linear_rate_and_counts_undefined_cagr(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db, "views/rates.py")
+    assert at.selectbox(key="rates_kind").value == "rate_linear_base"  # the default: one denominator per period
+    at.selectbox(key="rates_period").set_value("2050-2100").run()
+    for kind, unit in (("rate_linear_base", "%/yr"), ("rate_absolute", "Mt CO2e/yr per year"), ("rate_linear", "%/yr")):
+        at.selectbox(key="rates_kind").set_value(kind).run()
+        assert not at.exception
+        label = {"rate_linear_base": "% of the base-year value", "rate_absolute": "absolute", "rate_linear": "start"}
+        assert any("Shown beside CAGR: " in c.value and label[kind] in c.value for c in at.caption)
+        _, df = band_rates(sql, 2050, 2100, kind)
+        table = frame(at, "iqr")
+        assert set(table["rate"]) == {"CAGR", queries.RATE_LABELS[kind]}
+        row = table[(table["rate"] == queries.RATE_LABELS[kind]) & (table["band"] == "high")].iloc[0]
+        assert row["unit"] == unit
+        assert row["median"] == pytest.approx(np.median(df.loc[df["band"] == 2, "rate"].dropna()))
+        assert f"{queries.RATE_LABELS[kind]} " in at.info[0].value
+        assert at.query_params["rate"] in (kind, [kind])
+    # CAGR is empty where 2050 or 2100 is at or below zero; the page counts them per band (numpy bands, SQL rates)
+    _, cagr = band_rates(sql, 2050, 2100, "rate_cagr")
+    _, absolute = band_rates(sql, 2050, 2100, "rate_absolute")
+    both = cagr.merge(absolute[["model", "scenario", "rate"]], on=["model", "scenario"], suffixes=("", "_abs"))
+    undefined = both[both["rate"].isna() & both["rate_abs"].notna()]
+    assert len(undefined) > 0, "the demo should have scenarios below zero by 2100"
+    (warning,) = [w.value for w in at.warning if "CAGR is undefined" in w.value]
+    labels = queries.band_labels(3)
+    for b, n in undefined.groupby("band").size().items():
+        assert f"{labels[b]} band {n}" in warning
+    assert "linear rates are defined" in warning
 
 
 def _tooltips(spec: dict) -> list[dict]:
@@ -318,3 +350,56 @@ def test_dashboard_reads_during_an_ingest_and_then_sees_the_new_version(demo, tm
     with duckdb.connect(str(db), read_only=True) as con:
         expect = len(milestone_values(con, "emissions.ghg", 2030))
     assert int(next(m for m in at.metric if m.label == "Scenarios").value) == expect > int(n_before)
+
+
+def test_screen_states_the_conventions_and_net_zero_not_reached(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db)
+    captions = " ".join(c.value for c in at.caption)
+    assert "both included" in captions and "IPCC AR6 WG1" in captions and "1 January 2020" in captions
+    assert "first whole year from 2020 on" in captions
+    shown = frame(at, "net-zero year").set_index(["model", "scenario"])["net-zero year"]
+    nz = (
+        sql.execute("""SELECT model, scenario, value, year_to FROM current_indicators WHERE kind = 'net_zero_year'
+                        AND variable = 'emissions.ghg' AND region = 'World'""")
+        .df()
+        .set_index(["model", "scenario"])
+    )
+    nz = nz.loc[shown.index]
+    never = nz["value"].isna()
+    assert never.any() and (~never).any()
+    assert (shown[never.to_numpy()] == "not reached by " + nz.loc[never, "year_to"].astype(int).astype(str)).all()
+    assert (shown[(~never).to_numpy()] == nz.loc[~never, "value"].astype(int).astype(str)).all()
+
+
+def test_costs_show_gdp_growth_reduction_against_the_named_reference(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db, "views/costs.py")
+    captions = " ".join(c.value for c in at.caption)
+    assert "each model's own reference scenario named in the scenarios table (here: drift)" in captions
+    assert "may differ from a current-policies pathway" in captions
+    bands = frame(at, "band")
+    assert {"GDP (MER) growth reduction", "GDP (PPP) growth reduction", "Consumption growth reduction"} <= set(
+        bands["metric"]
+    )
+    row = bands[(bands["metric"] == "GDP (MER) growth reduction") & (bands["year"] == 2050)]
+    assert set(row["unit"]) == {"pp/yr"}
+
+
+def test_an_outdated_database_is_shown_with_a_warning(demo_db, tmp_path):  # noqa: F811
+    # a copy of the demo as the previous milepost wrote it: schema 1, no note column
+    db = tmp_path / "old.duckdb"
+    shutil.copyfile(demo_db, db)
+    con = duckdb.connect(str(db))
+    con.execute("DROP VIEW current_indicators")
+    con.execute("ALTER TABLE indicators DROP COLUMN note")
+    con.execute(
+        "CREATE VIEW current_indicators AS SELECT i.submission_id, i.model, i.scenario, i.region, i.kind, i.variable,"
+        " i.year_from, i.year_to, i.value, i.unit FROM indicators AS i JOIN current_versions AS c"
+        " ON c.submission_id = i.submission_id AND c.model = i.model AND c.scenario = i.scenario"
+    )
+    con.execute("UPDATE meta SET value = '1' WHERE key = 'schema_version'")
+    con.close()
+    for page in (None, "views/rates.py"):
+        at = open_app(db, page)
+        assert any("schema version 1" in w.value and "milepost ingest" in w.value for w in at.warning)
+    at = open_app(demo_db)
+    assert not any("older conventions" in w.value for w in at.warning)

@@ -81,7 +81,20 @@ def test_rates_are_the_cagr_of_the_stored_series(con, sql):  # noqa: F811
     v0, v1 = wide[2030].to_numpy(), wide[2050].to_numpy()
     expected = np.where((v0 > 0) & (v1 > 0), ((v1 / v0) ** (1 / 20) - 1) * 100, np.nan)
     np.testing.assert_allclose(cagr.to_numpy(dtype=float), expected, rtol=1e-9, equal_nan=True)
-    assert set(df["kind"]) == {"rate_cagr", "rate_linear"}
+    assert set(df["kind"]) == set(queries.RATE_KINDS)
+    # the linear rates from the same two values and the base year (2020 is reported too): definitions in
+    # schema/indicators.toml, computed here with numpy
+    base = (
+        sql.execute("""SELECT model, scenario, value FROM current_data WHERE variable = 'emissions.ghg'
+                          AND region = 'World' AND year = 2020""")
+        .df()
+        .set_index(["model", "scenario"])["value"]
+    )
+    vb = base.loc[cagr.index].to_numpy()
+    by_kind = {k: g.set_index(["model", "scenario"])["value"].loc[cagr.index].to_numpy() for k, g in df.groupby("kind")}
+    np.testing.assert_allclose(by_kind["rate_absolute"], (v1 - v0) / 20, rtol=1e-9)
+    np.testing.assert_allclose(by_kind["rate_linear"], (v1 - v0) / (np.abs(v0) * 20) * 100, rtol=1e-9)
+    np.testing.assert_allclose(by_kind["rate_linear_base"], (v1 - v0) / (np.abs(vb) * 20) * 100, rtol=1e-9)
     assert queries.rate_periods(con, "emissions.ghg", "World") == [
         (2020, 2030),
         (2020, 2050),
@@ -201,7 +214,8 @@ def test_reference_value_comes_from_the_demo_contract():
     assert found.contract is not None and found.contract.name == "lowmoor-demo"
     ref = pd.read_csv(CONTRACT_DIR / "reference.csv")
     row = ref[(ref["region"] == "World") & (ref["variable"] == "emissions.ghg") & (ref["year"] == 2020)].iloc[0]
-    assert contracts.reference_value(found.contract, "World", "emissions.ghg", 2020) == (row["value"], row["unit"])
+    ref_value = contracts.reference_value(found.contract, "World", "emissions.ghg", 2020)
+    assert ref_value is not None and (ref_value.value, ref_value.unit) == (row["value"], row["unit"])
     assert contracts.reference_value(found.contract, "World", "price.carbon", 2020) is None
     assert contracts.find("no-such-contract").contract is None
 
@@ -219,3 +233,37 @@ def test_chart_exports_are_real_png_and_svg(con):
     assert width > 300 and height > 200
     svg = charts.to_svg(chart)
     assert svg.lstrip().startswith("<svg") and svg.rstrip().endswith("</svg>")
+
+
+def test_reference_value_is_in_the_contract_unit(tmp_path: Path):
+    # A contract that gives World CO2 in Gt CO2/yr for a variable in Mt CO2/yr: the marker must sit at the Mt value
+    # (SI: 1 Gt = 1000 Mt), the same number the checker compares the base year with.
+    from milepost.schema.contract import load
+
+    folder = tmp_path / "gt"
+    folder.mkdir()
+    (folder / "contract.toml").write_text('name = "gt-reference"\nextends = "core"\n', encoding="utf-8")
+    (folder / "reference.csv").write_text(
+        "region,variable,unit,year,value\nWorld,emissions.co2,Gt CO2/yr,2020,38.5\n", encoding="utf-8"
+    )
+    c = load(folder)
+    ref = contracts.reference_value(c, "World", "emissions.co2", 2020)
+    assert ref is not None
+    assert (ref.value, ref.unit) == (pytest.approx(38_500.0), "Mt CO2/yr")
+    assert (ref.given_value, ref.given_unit) == (38.5, "Gt CO2/yr")
+    assert [(r.unit, r.value) for r in c.references_in_contract_units()] == [("Mt CO2/yr", pytest.approx(38_500.0))]
+
+
+def test_cagr_undefined_is_counted_per_band():
+    df = pd.DataFrame(
+        {
+            "model": ["M"] * 6,
+            "scenario": ["a", "a", "b", "b", "c", "c"],
+            "band": [0, 0, 2, 2, 2, 2],
+            "kind": ["rate_cagr", "rate_absolute"] * 3,
+            # a crosses zero (CAGR empty, absolute defined); b is fine; c has no values at all (both empty)
+            "value": [np.nan, -40.0, -2.0, -30.0, np.nan, np.nan],
+        }
+    )
+    got = queries.cagr_undefined(df)
+    assert got.to_dict("records") == [{"band": 0, "n": 1}]

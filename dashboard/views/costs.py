@@ -21,9 +21,13 @@ ratios = queries.band_ratio(summary, by, top=top, bottom=bottom)
 
 st.info(headlines.costs(ratios, labels, top, bottom, sel.year), icon=":material/payments:")
 ui.caution()
+references = ui.query(queries.reference_names, sel)
+named = f" (here: {', '.join(references)})" if references else ""
 st.caption(
     ui.bands_note(sel.variable, sel.year, sel.region, labels, edges)
-    + ". Losses are against each scenario's own reference scenario (same model); NPV at the base year."
+    + ". Losses and growth reductions are measured against each model's own reference scenario named in the "
+    f"scenarios table{named}, which may differ from a current-policies pathway. Growth reduction = CAGR of the "
+    "reference − CAGR of the scenario from the base year, in percentage points per year. NPV at the base year."
 )
 
 if df.empty:

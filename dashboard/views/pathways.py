@@ -44,15 +44,19 @@ if picked:
     series["label"] = series["model"] + " | " + series["scenario"]
 
 found = contracts.find(ui.query(queries.contract_name))
+# in the contract unit, like the stored data: a reference given in Gt for an Mt variable lands where it belongs
 ref = contracts.reference_value(found.contract, region, variable, ch.base_year)
 reference = None
 if ref is not None:
-    reference = pd.DataFrame({"year": [ch.base_year], "value": [ref[0]], "label": [f"reference {ch.base_year}"]})
+    reference = pd.DataFrame({"year": [ch.base_year], "value": [ref.value], "label": [f"reference {ch.base_year}"]})
 
 ui.chart(charts.pathway(bands, labels, variable, unit, series, reference), f"pathway_{variable}_{region}", "path_chart")
 notes = [ui.bands_note(sel.variable, sel.year, sel.region, labels, edges) + "."]
 if ref is not None:
-    notes.append(f"◆ reference value {ui.fmt(ref[0], 0)} {ref[1]} in {ch.base_year} ({found.source}).")
+    given = "" if ref.given_unit == ref.unit else f", given as {ui.fmt(ref.given_value, 2)} {ref.given_unit}"
+    notes.append(f"◆ reference value {ui.fmt(ref.value, 0)} {ref.unit} in {ch.base_year} ({found.source}{given}).")
+    if ref.unit != unit:
+        notes.append(f"The stored values are in {unit}, the contract unit is {ref.unit}.")
 else:
     notes.append(f"No reference value for {variable} in {region} in {ch.base_year} ({found.source}).")
 st.caption(" ".join(notes))

@@ -47,7 +47,8 @@ ui.table(summary, "screen_bands", "screen_bands")
 st.subheader("Selected scenarios")
 base = ch.base_year
 cum_unit = df["cumulative_unit"].dropna()
-shown = df.drop(columns=["band", "cumulative_unit"]).rename(
+df["net_zero_year"] = ui.net_zero_text(df["net_zero_year"], df["net_zero_searched_to"], df["net_zero_note"])
+shown = df.drop(columns=["band", "cumulative_unit", "net_zero_searched_to", "net_zero_note"]).rename(
     columns={
         "band_label": "band",
         "value": f"{sel.year} [{unit}]",
@@ -56,9 +57,17 @@ shown = df.drop(columns=["band", "cumulative_unit"]).rename(
         "cagr_after": f"CAGR {sel.year}–{later[0]} [%/yr]" if later else "CAGR after [%/yr]",
         "cumulative": f"cumulative {base}–{sel.year} [{cum_unit.iloc[0] if len(cum_unit) else ''}]",
         "net_zero_year": "net-zero year",
-        "peak_year": "peak year",
+        "peak_year": f"peak year (from {base})",
     }
 )
 front = ["model", "scenario", "band"]
 shown = shown[front + [c for c in shown.columns if c not in front]]
 ui.table(shown, f"screen_scenarios_{sel.year}", "screen_table")
+st.caption(
+    f"Cumulative {base}–{sel.year}: the sum of the annual values of every year from {base} to {sel.year}, both "
+    "included, as carbon budgets are counted (IPCC AR6 WG1 counts remaining budgets from 1 January 2020; common "
+    "practice sums annual values). "
+    f"Net-zero year: the first whole year from {base} on whose annual value is at or below zero; peak year: the "
+    f"year of the highest annual value from {base} on. Annual values are read from the straight lines between the "
+    "reported years."
+)
