@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import functools
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
@@ -112,7 +113,7 @@ class Units:
             (carbon_to_co2, CARBON_CONTEXT, "carbon_dioxide", "carbon", 1 / CO2_PER_C, "C/CO2"),
             (nitrogen_to_n2o, NITROGEN_CONTEXT, "nitrous_oxide", "nitrous_oxide_nitrogen", 1 / N2O_PER_N, "N2O_N/N2O"),
         )
-        contexts = []
+        contexts: list[str] = []
         for enabled, name, target, other, ratio, ratio_unit in options:
             if enabled:
                 reg.add_context(self._species_context(name, shapes, target, other, reg.Quantity(ratio, ratio_unit)))
@@ -126,16 +127,16 @@ class Units:
         target dimension."""
         ctx = self.pint.Context(name)
         a, b = f"[{target}]", f"[{other}]"
-        seen = set()
+        seen: set[Any] = set()
         for u in shapes:
             self._prepare(u)
-            dim = self.reg.parse_units(normalise(u)).dimensionality
-            k = dim.get(a, 0)
+            dim: Any = self.reg.parse_units(normalise(u)).dimensionality  # pint's stubs type exponents as Number
+            k = int(dim.get(a, 0))
             if k and dim not in seen:
                 seen.add(dim)
                 src, dst = dim, dim.remove([a]).add(b, k)
-                ctx.add_transformation(src, dst, lambda reg, q, f=ratio, k=k: q * f**k)
-                ctx.add_transformation(dst, src, lambda reg, q, f=ratio, k=k: q / f**k)
+                ctx.add_transformation(src, dst, _times(ratio**k))
+                ctx.add_transformation(dst, src, _times(1 / ratio**k))
         return ctx
 
     def _ensure_currency(self, reg: Any, code: str) -> None:
@@ -180,6 +181,15 @@ class Units:
     def as_co2e(self, unit: str, gas: str) -> str:
         """The unit string with the gas symbol replaced by CO2e: `kt N2O/yr` -> `kt CO2e/yr`."""
         return as_co2e(unit, gas)
+
+
+def _times(factor: Any) -> Callable[..., Any]:
+    """A pint context transformation that multiplies by `factor` (a quantity carrying the units between species)."""
+
+    def transform(ureg: Any, value: Any, **kwargs: Any) -> Any:
+        return value * factor
+
+    return transform
 
 
 def as_co2e(unit: str, gas: str) -> str:

@@ -159,3 +159,22 @@ def test_an_aged_database_exports_with_a_warning(tmp_path: Path, aged: Path) -> 
     export(aged, "indicators", "csv", tmp_path / "j.csv", on_warning=heard.append)
     (message,) = heard
     assert "recomputes them" in message
+
+
+def test_the_commands_say_what_happened(tmp_path: Path, aged: Path, submissions) -> None:
+    from typer.testing import CliRunner
+
+    from milepost.validate.cli import app
+
+    runner = CliRunner()
+    out = tmp_path / "i.csv"
+    res = runner.invoke(app, ["export", "--db", str(aged), "--what", "indicators", "--format", "csv", "-o", str(out)])
+    assert res.exit_code == 0 and "Warning: the database has schema version 1" in res.stderr
+    args = ["ingest", *map(str, submissions[2]), "--db", str(aged), "--contract", str(demo.CONTRACT_DIR)]
+    res = runner.invoke(app, args)
+    assert res.exit_code == 0, res.output
+    lines = res.stdout.splitlines()
+    assert lines[0].startswith("Recomputed ") and "stored indicator rows under the current conventions" in lines[0]
+    assert lines[1].startswith("Accepted as submission 3")
+    res = runner.invoke(app, ["export", "--db", str(aged), "--what", "indicators", "--format", "csv", "-o", str(out)])
+    assert res.exit_code == 0 and "Warning" not in res.stderr

@@ -12,5 +12,5 @@ FROM indicators AS i
 JOIN current_versions AS c ON c.submission_id = i.submission_id AND c.model = i.model AND c.scenario = i.scenario;
 
 INSERT INTO meta
-SELECT 'indicators_outdated', 'computed before the conventions of schema version 2'
+SELECT 'indicators_outdated', 'computed under the conventions of an older milepost'
 WHERE EXISTS (SELECT 1 FROM indicators);

@@ -121,8 +121,9 @@ def first_at_or_below_zero(t: Tables, spans: str) -> str:
     On a segment falling from above zero the line crosses zero at x; the first whole year at or below zero is
     found among ceil(x) - 1 .. ceil(x) + 1 by evaluating the line itself, so rounding in x cannot move it.
     """
+    # only on a segment falling from above zero to at or below it: there v_lo - v_hi > 0 and x is finite
     x = "lo + v_lo / (v_lo - v_hi) * (hi - lo)"
-    c = f"greatest(lo + 1, least(ceil({x})::INTEGER, hi))"
+    c = f"CASE WHEN v_lo > 0 AND v_hi <= 0 THEN greatest(lo + 1, least(ceil({x})::INTEGER, hi)) END"
     first = (
         "CASE WHEN v_lo <= 0 THEN lo WHEN v_hi > 0 THEN NULL"
         f" WHEN c - 1 > lo AND {lerp('c - 1')} <= 0 THEN c - 1"
