@@ -148,6 +148,19 @@ def test_xlsx_export_has_the_rows_and_the_cautions(tmp_path: Path, db) -> None:
     assert len(rows) - 1 == n > 0
     about = [r for r in wb["about"].iter_rows(values_only=True)]
     assert [r[1] for r in about if r[0] == "caution"] == list(CAUTIONS)
+    assert not [r for r in about if r[0] == "basis"]  # the indicator conventions go with indicator exports only
+
+
+def test_xlsx_indicator_export_states_the_conventions(tmp_path: Path, db) -> None:
+    out = tmp_path / "i.xlsx"
+    export(db, "indicators", "xlsx", out, Filters(model=["Ferrow"], region=["World"], variable=["gdp.mer"]))
+    wb = openpyxl.load_workbook(out, read_only=True)
+    rows = list(wb["indicators"].iter_rows(values_only=True))
+    assert rows[0][-1] == "note"
+    notes = {r[rows[0].index("note")] for r in rows[1:] if r[rows[0].index("kind")] == "growth_reduction_pp"}
+    assert any(n and n.startswith("against drift, the model's own reference scenario") for n in notes)
+    basis = " ".join(r[1] for r in wb["about"].iter_rows(values_only=True) if r[0] == "basis")
+    assert "both included" in basis and "current-policies pathway" in basis and "rate_linear_base" in basis
 
 
 def test_xlsx_refuses_more_rows_than_a_sheet_holds(tmp_path: Path) -> None:

@@ -566,6 +566,12 @@ def test_loss_pct_against_reference_from_another_table(con, core):
         assert got[("M2", "other", "World", "loss_pct", "gdp.mer", m, m)] == pytest.approx((1.0 - s) / 1.0 * 100)
     assert units_of(con)[("loss_pct", "gdp.mer")] == {"%"}
     assert got[("M", "strict", "World", "loss_pct", "gdp.mer", 2030, 2030)] == pytest.approx(3 / 130 * 100)
+    # each row says which reference it was measured against, or why there is none
+    rows = con.execute("SELECT model, scenario, region, note FROM computed_indicators").fetchall()
+    why = {tuple(r[:3]): r[3] for r in rows}
+    assert why[("M", "strict", "World")].startswith("against base, the model's own reference scenario")
+    assert why[("M", "strict", "R2")] == "the reference scenario base does not report this series"
+    assert why[("M", "loose", "World")] == "no reference scenario is named in the scenarios table"
 
 
 def test_growth_reduction_pp(con, core):
