@@ -13,6 +13,10 @@ alt.data_transformers.disable_max_rows()
 PALETTE = ["#2b83ba", "#7fbf7b", "#fdae61", "#d7191c", "#984ea3", "#636363", "#a6761d"]
 
 
+# What the chart builders return and st.altair_chart accepts (Altair's `properties` may turn a layer into a facet).
+Chart = alt.Chart | alt.LayerChart | alt.FacetChart
+
+
 def band_scale(labels: list[str]) -> alt.Scale:
     """One colour per band, the same on every page (low = blue ... high = red for three bands)."""
     if len(labels) == 3:
@@ -24,7 +28,7 @@ def band_scale(labels: list[str]) -> alt.Scale:
     return alt.Scale(domain=labels, range=colours)
 
 
-def histogram(df: pd.DataFrame, edges: list[float], labels: list[str], title: str, unit: str) -> alt.LayerChart:
+def histogram(df: pd.DataFrame, edges: list[float], labels: list[str], title: str, unit: str) -> Chart:
     """Counts of the ensemble at the milestone, coloured by band, with the band edges as rules."""
     bars = (
         alt.Chart(df)
@@ -44,7 +48,7 @@ def histogram(df: pd.DataFrame, edges: list[float], labels: list[str], title: st
     return alt.layer(bars, rules).properties(height=280)
 
 
-def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> alt.FacetChart:
+def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> Chart:
     """Per band, box plot and jittered points of the rates; one panel per rate (`rate`, its label with its unit,
     in the order the rows come), each with its own scale."""
     base = alt.Chart().encode(
@@ -76,7 +80,7 @@ def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> alt.FacetChart
     )
 
 
-def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> alt.FacetChart:
+def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> Chart:
     """Per cost metric and year: the band medians (points) and interquartile ranges (bars), side by side.
 
     Panels keep the order of `summary["panel"]`."""
@@ -121,7 +125,7 @@ def pathway(
     unit: str,
     scenarios: pd.DataFrame | None = None,
     reference: pd.DataFrame | None = None,
-) -> alt.LayerChart:
+) -> Chart:
     """Median line and 25-75 % / 5-95 % ranges per band over time, optional single scenarios and the reference."""
     colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band")
     x = alt.X("year:Q", axis=alt.Axis(format="d"), title=None)

@@ -1,8 +1,12 @@
-"""Read-only DuckDB access for the dashboard, reopened when ingest os.replace-s a new database file in."""
+"""Read-only database access for the dashboard: the store's `Reader`, one per file version, cached by Streamlit.
+
+Ingest `os.replace`s a new file in; the cache key holds the file's inode and mtime, so the next rerun opens the new
+version while queries in flight finish on the old one. `Reader` checks the schema version on opening (a file that
+is not a Milepost database, or of another schema version, raises LoadError).
+"""
 
 from __future__ import annotations
 
-import contextlib
 import os
 import sys
 from pathlib import Path
@@ -10,11 +14,7 @@ from pathlib import Path
 import duckdb
 import streamlit as st
 
-from milepost.validate.store.database import connect_memory
-
-DEFAULT_DB = "milepost.duckdb"
-ENV_DB = "MILEPOST_DB"
-CATALOG = "live"
+from milepost.validate.store.database import DEFAULT_DB, ENV_DB, Reader
 
 
 def db_path() -> Path:
@@ -34,39 +34,30 @@ def file_key(path: Path) -> tuple[str, int, int]:
     return (str(path.resolve()), s.st_ino, s.st_mtime_ns)
 
 
-def open_read_only(path: str | Path) -> duckdb.DuckDBPyConnection:
-    """An in-memory DuckDB with the file ATTACHed read-only as catalog `live`.
-
-    A plain `duckdb.connect(path, read_only=True)` is cached per path inside the process, so after a replace it
-    would keep serving the old snapshot until every session let go of it. A private in-memory instance per file
-    version lets old and new versions live side by side: queries in flight finish on the old one.
-    """
-    con = connect_memory()
-    con.execute(f"ATTACH ? AS {CATALOG} (READ_ONLY)", [str(path)])
-    return con
-
-
-def _release(con: duckdb.DuckDBPyConnection) -> None:
-    with contextlib.suppress(duckdb.Error):
-        con.close()
+def _release(reader: Reader) -> None:
+    reader.close()
 
 
 @st.cache_resource(max_entries=3, show_spinner=False, on_release=_release)
-def _open(path: str, inode: int, mtime_ns: int) -> duckdb.DuckDBPyConnection:
-    """One connection per file version: inode and mtime are part of the cache key, so a replaced file is reopened."""
-    return open_read_only(path)
+def _open(path: str, inode: int, mtime_ns: int) -> Reader:
+    """One reader per file version: inode and mtime are part of the cache key, so a replaced file is reopened."""
+    return Reader(path)
 
 
 def connection(path: Path | None = None) -> duckdb.DuckDBPyConnection:
-    """The cached read-only connection to the current version of the database (FileNotFoundError if absent)."""
+    """The cached read-only connection to the current version of the database.
+
+    FileNotFoundError if the file is absent; LoadError if it cannot be opened or has another schema version.
+    """
     p = path or db_path()
     if not p.exists():
         raise FileNotFoundError(p)
-    return _open(*file_key(p))
+    return _open(*file_key(p)).con
 
 
 def cursor(path: Path | None = None) -> duckdb.DuckDBPyConnection:
     """A fresh cursor on the cached connection, pointed at the database: use one per query."""
-    cur = connection(path).cursor()
-    cur.execute(f"USE {CATALOG}")
-    return cur
+    p = path or db_path()
+    if not p.exists():
+        raise FileNotFoundError(p)
+    return _open(*file_key(p)).cursor()

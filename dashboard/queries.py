@@ -8,6 +8,10 @@ from typing import Any
 import duckdb
 import pandas as pd
 
+from milepost.validate.findings import FINDING_COLUMNS
+from milepost.validate.sql import identifier
+from milepost.validate.store.database import select_columns, stored_columns, view_or_definition
+
 RATE_KINDS = ("rate_cagr", "rate_linear", "rate_linear_base", "rate_absolute")
 # The rates the Rates page offers beside CAGR, and how each is named there (definitions: schema/indicators.toml).
 LINEAR_RATES = ("rate_linear_base", "rate_linear", "rate_absolute")
@@ -107,11 +111,7 @@ def _df(con: duckdb.DuckDBPyConnection, sql: str, params: dict[str, Any] | list[
 
 def _note(con: duckdb.DuckDBPyConnection) -> str:
     """The indicators' note column, or an empty one in a database written before notes existed (schema 1)."""
-    rows = con.execute(
-        "SELECT count(*) FROM duckdb_columns() WHERE database_name = current_database()"
-        " AND table_name = 'indicators' AND column_name = 'note'"
-    ).fetchall()
-    return "i.note" if rows[0][0] else "NULL::VARCHAR"
+    return "i.note" if "note" in stored_columns(con, "indicators") else "NULL::VARCHAR"
 
 
 def indicators_outdated(con: duckdb.DuckDBPyConnection) -> str | None:
@@ -145,21 +145,22 @@ def choices(con: duckdb.DuckDBPyConnection) -> Choices:
         return [v for (v,) in con.execute(sql).fetchall()]
 
     years = [
-        int(y) for y in column(f"SELECT DISTINCT year_from FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")
+        int(y)
+        for y in column(f"SELECT DISTINCT year_from FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")  # noqa: S608 - fragments of this module; values bound as $parameters
     ]
-    variables = column(f"SELECT DISTINCT variable FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")
+    variables = column(f"SELECT DISTINCT variable FROM indicators WHERE kind = 'value' AND {live} ORDER BY 1")  # noqa: S608 - fragments of this module; values bound as $parameters
     regions = column(
-        f"SELECT DISTINCT region FROM indicators WHERE kind = 'value' AND {live} ORDER BY region <> 'World', region"
+        f"SELECT DISTINCT region FROM indicators WHERE kind = 'value' AND {live} ORDER BY region <> 'World', region"  # noqa: S608 - fragments of this module; values bound as $parameters
     )
     models = column("SELECT DISTINCT model FROM current_scenarios ORDER BY 1")
     attributes = column("""SELECT DISTINCT k FROM (SELECT unnest(json_keys(attributes)) AS k FROM current_scenarios
                            WHERE attributes IS NOT NULL) WHERE k <> 'reference' ORDER BY 1""")
     # the base year is where every `cumulative` indicator starts; without them, the first value year
     (base,) = con.execute(
-        f"SELECT coalesce((SELECT min(year_from) FROM indicators WHERE kind = 'cumulative' AND {live}), "
+        f"SELECT coalesce((SELECT min(year_from) FROM indicators WHERE kind = 'cumulative' AND {live}), "  # noqa: S608 - fragments of this module; values bound as $parameters
         f"(SELECT min(year_from) FROM indicators WHERE kind = 'value' AND {live}))"
     ).fetchall()[0]
-    data_variables = column(f"SELECT DISTINCT variable FROM data WHERE {live} ORDER BY 1")
+    data_variables = column(f"SELECT DISTINCT variable FROM data WHERE {live} ORDER BY 1")  # noqa: S608 - fragments of this module; values bound as $parameters
     return Choices(
         variables, years, int(base) if base is not None else None, regions, models, attributes, data_variables
     )
@@ -175,14 +176,14 @@ def attribute_values(con: duckdb.DuckDBPyConnection, attribute: str) -> list[str
 
 def band_edges(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[float]:
     """The band edges in use: the given ones, or the terciles of the selected values."""
-    (edges,) = con.execute(f"WITH {_BANDED} SELECT list(e ORDER BY e) FROM edges", sel.params()).fetchall()[0]
+    (edges,) = con.execute(f"WITH {_BANDED} SELECT list(e ORDER BY e) FROM edges", sel.params()).fetchall()[0]  # noqa: S608 - fragments of this module; values bound as $parameters
     return [float(e) for e in edges or []]
 
 
 def selected(con: duckdb.DuckDBPyConnection, sel: Selection) -> pd.DataFrame:
     """The selected scenarios with their band number and value at the milestone."""
     sql = (
-        f"WITH {_BANDED} SELECT model, scenario, band, band_value FROM banded "
+        f"WITH {_BANDED} SELECT model, scenario, band, band_value FROM banded "  # noqa: S608 - fragments of this module; values bound as $parameters
         "ORDER BY band, band_value, model, scenario"
     )
     return _df(con, sql, sel.params())
@@ -207,9 +208,7 @@ def screen_table(
     an empty net-zero year reads "not reached by" that year; `net_zero_note` is the stored note.
     """
     params = {**sel.params(), "base": base_year, "next": next_year}
-    attr_cols = "".join(
-        f', b.attributes ->> $attr_{i} AS "{a.replace(chr(34), chr(34) * 2)}"' for i, a in enumerate(attributes)
-    )
+    attr_cols = "".join(f", b.attributes ->> $attr_{i} AS {identifier(a)}" for i, a in enumerate(attributes))
     params.update({f"attr_{i}": a for i, a in enumerate(attributes)})
     sql = f"""WITH {_BANDED}
     SELECT b.model, b.scenario{attr_cols}, b.band, b.band_value AS value,
@@ -226,7 +225,7 @@ def screen_table(
     LEFT JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario
          AND i.region = $region AND i.variable = $variable
     GROUP BY ALL
-    ORDER BY b.band, value, b.model, b.scenario"""
+    ORDER BY b.band, value, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return _df(con, sql, params)
 
 
@@ -249,7 +248,7 @@ def rates(con: duckdb.DuckDBPyConnection, sel: Selection, year_from: int, year_t
     JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario
          AND i.region = $region AND i.variable = $variable
          AND list_contains($kinds::VARCHAR[], i.kind) AND i.year_from = $yf AND i.year_to = $yt
-    ORDER BY i.kind, b.band, b.model, b.scenario"""
+    ORDER BY i.kind, b.band, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return _df(con, sql, {**sel.params(), "yf": int(year_from), "yt": int(year_to), "kinds": list(RATE_KINDS)})
 
 
@@ -268,7 +267,7 @@ def reference_names(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[str]
     """The reference scenarios (scenarios table, column `reference`) that the selected scenarios are compared with."""
     sql = f"""WITH {_BANDED}
     SELECT DISTINCT s.reference FROM banded b JOIN current_scenarios s ON s.model = b.model AND s.scenario = b.scenario
-    WHERE s.reference IS NOT NULL ORDER BY 1"""
+    WHERE s.reference IS NOT NULL ORDER BY 1"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return [r for (r,) in con.execute(sql, sel.params()).fetchall()]
 
 
@@ -282,7 +281,7 @@ def costs(con: duckdb.DuckDBPyConnection, sel: Selection, base_year: int | None)
        OR (i.kind = 'growth_reduction_pp' AND i.variable IN ('gdp.mer', 'gdp.ppp', 'consumption'))
        OR (i.kind = 'value' AND i.variable = 'price.carbon' AND i.year_from > coalesce($base, -1))
        OR (i.kind = 'npv' AND i.variable = 'cost.abatement')
-    ORDER BY i.kind, i.variable, year, b.band, b.model, b.scenario"""
+    ORDER BY i.kind, i.variable, year, b.band, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return _df(con, sql, {**sel.params(), "base": base_year})
 
 
@@ -297,7 +296,7 @@ def pathway_bands(con: duckdb.DuckDBPyConnection, sel: Selection, variable: str,
       WHERE d.value IS NOT NULL
       GROUP BY ALL)
     SELECT band, year, unit, n, q[1] AS q05, q[2] AS q25, q[3] AS median, q[4] AS q75, q[5] AS q95
-    FROM q ORDER BY band, year"""
+    FROM q ORDER BY band, year"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return _df(con, sql, {**sel.params(), "pv": variable, "pr": region})
 
 
@@ -329,12 +328,12 @@ def contract_name(con: duckdb.DuckDBPyConnection) -> str | None:
 
 
 def submissions(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
-    """Every submission, newest first, with its version number per model."""
-    sql = """SELECT id, model,
-        row_number() OVER (PARTITION BY model ORDER BY submitted_at, id) AS version,
-        status, submitted_at, submitted_by, rows, errors, warnings, notes, superseded_by,
-        contract_name, note, sha256
-      FROM submissions ORDER BY submitted_at DESC, id DESC"""
+    """Every submission, newest first, with its version per model (the `submission_versions` view; none if rejected)."""
+    versions = view_or_definition(con, "submission_versions")  # a database not yet migrated lacks the view
+    sql = f"""SELECT b.id, b.model, v.version, b.status, b.submitted_at, b.submitted_by, b.rows, b.errors, b.warnings,
+        b.notes, b.superseded_by, b.contract_name, b.note, b.sha256
+      FROM submissions AS b JOIN {versions} AS v ON v.submission_id = b.id
+      ORDER BY b.submitted_at DESC, b.id DESC"""  # noqa: S608 - the view or its definition in database.sql
     return _df(con, sql)
 
 
@@ -355,14 +354,13 @@ def findings(
     limit: int = 5000,
 ) -> pd.DataFrame:
     """The findings of one submission, optionally restricted to some rules and severities."""
-    sql = """SELECT rule, severity, path, line, sheet, model, scenario, region, variable, unit, year, value,
-                    expected, message, hint
+    sql = f"""SELECT {select_columns(con, "findings", FINDING_COLUMNS)}
       FROM findings
       WHERE submission_id = $id
         AND (len($rules::VARCHAR[]) = 0 OR list_contains($rules::VARCHAR[], rule))
         AND (len($sev::VARCHAR[]) = 0 OR list_contains($sev::VARCHAR[], severity))
       ORDER BY severity = 'error' DESC, severity = 'warning' DESC, rule, path, line
-      LIMIT $limit"""
+      LIMIT $limit"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return _df(con, sql, {"id": int(submission_id), "rules": list(rules), "sev": list(severities), "limit": limit})
 
 

@@ -7,14 +7,13 @@ import itertools
 import math
 import re
 from collections.abc import Callable
-from typing import Any, TypeVar
+from typing import Any, NoReturn, TypeVar
 
-import altair as alt
-import duckdb
 import pandas as pd
 import streamlit as st
 
 from milepost.dashboard import charts, connection, queries
+from milepost.validate.errors import LoadError
 
 T = TypeVar("T")
 
@@ -43,7 +42,7 @@ def publish_url() -> None:
             st.query_params.clear()
 
 
-def stop() -> None:
+def stop() -> NoReturn:
     """End the page early, keeping the address bar in step (Streamlit drops commands issued after st.stop)."""
     publish_url()
     st.stop()
@@ -160,8 +159,8 @@ def require_database() -> None:
             f"No database at `{path}`. Load submissions with `milepost ingest`, or pass `--db PATH` (env MILEPOST_DB)."
         )
         stop()
-    except duckdb.Error as e:
-        st.error(f"Cannot open `{path}` read-only: {e}")
+    except LoadError as e:
+        st.error(f"{e}")
         stop()
 
 
@@ -170,7 +169,7 @@ def caution() -> None:
     st.caption(f"⚠️ {CAUTION}")
 
 
-def chart(ch: alt.TopLevelMixin, name: str, key: str) -> None:
+def chart(ch: charts.Chart, name: str, key: str) -> None:
     """Show an Altair chart with PNG and SVG downloads (rendered only when clicked)."""
     st.altair_chart(ch, width="stretch")
     c1, c2, _ = st.columns([1, 1, 6])
@@ -196,7 +195,9 @@ def chart(ch: alt.TopLevelMixin, name: str, key: str) -> None:
 
 def table(df: pd.DataFrame, name: str, key: str, **kwargs: Any) -> None:
     """Show a table with a CSV download of exactly what is shown."""
-    config = {c: st.column_config.NumberColumn(format="%.2f") for c, t in df.dtypes.items() if t.kind == "f"}
+    config: dict[str, Any] = {
+        str(c): st.column_config.NumberColumn(format="%.2f") for c, t in df.dtypes.items() if t.kind == "f"
+    }
     config.update(kwargs.pop("column_config", {}))
     st.dataframe(df, hide_index=True, width="stretch", key=key, column_config=config, **kwargs)
     st.download_button(

@@ -486,7 +486,8 @@ def _assemble(leaves: dict[str, np.ndarray], con: Contract) -> np.ndarray:
                 raise KeyError(f"the generator has no values for contract variable {name!r}")
             total = sum(p.factor * resolve(p.variable).astype(float) for p in parts)
             exact = all(p.factor == 1.0 for p in parts)
-            ints[name] = sum(resolve(p.variable) for p in parts) if exact else np.rint(total).astype(np.int64)
+            exact_sum = np.sum([resolve(p.variable) for p in parts], axis=0)
+            ints[name] = exact_sum if exact else np.rint(total).astype(np.int64)
         return ints[name]
 
     cube = np.empty((n, r + 1, len(names), t), dtype=np.int64)
@@ -531,9 +532,12 @@ def _scenario_table(runs: Runs, models: Models) -> pd.DataFrame:
         {
             "model": model_names,
             "scenario": np.array(runs.scenario, dtype=object),
-            "reference": np.where(fam == "reference", None, REFERENCE_NAME),
+            # numpy's stubs refuse None as a choice of where(); with object arrays it is what pandas wants
+            "reference": np.where(fam == "reference", None, REFERENCE_NAME),  # type: ignore[call-overload]
             "family": fam,
-            "ambition": np.where(np.array(runs.ambition, dtype=object) == "", None, np.array(runs.ambition)),
+            "ambition": np.where(  # type: ignore[call-overload]
+                np.array(runs.ambition, dtype=object) == "", None, np.array(runs.ambition)
+            ),
             "policy_start": pd.Series(runs.start, dtype="Int64").where(runs.start > 0),
         }
     )
@@ -734,6 +738,8 @@ def write_synthetic(path: Path, rows: int, seed: int = 0) -> Path:
     """A large long-format CSV of exactly `rows` rows with valid names, units and years (values do not add up)."""
     import duckdb
 
+    from milepost.validate.sql import literal, literal_list
+
     con_ = contract()
     names = list(con_.variables)
     ref = reference_frame()
@@ -742,22 +748,22 @@ def write_synthetic(path: Path, rows: int, seed: int = 0) -> Path:
     for part in names:
         scale.setdefault(part, float(world.get(part, 0.0)) or 50.0)
     per_scenario = len(ALL_REGIONS) * len(names) * len(YEARS)
-    sql_list = lambda xs: "[" + ", ".join("'" + x.replace("'", "''") + "'" for x in xs) + "]"  # noqa: E731
     years = "[" + ", ".join(str(int(y)) for y in YEARS) + "]"
+    units = literal_list([con_.variables[x].unit for x in names])
     query = f"""
         COPY (
           SELECT 'Synthex' AS model,
                  'syn-' || lpad((i // {per_scenario})::VARCHAR, 6, '0') AS scenario,
-                 {sql_list(ALL_REGIONS)}[(i // {len(names) * len(YEARS)}) % {len(ALL_REGIONS)} + 1] AS region,
-                 {sql_list(names)}[(i // {len(YEARS)}) % {len(names)} + 1] AS variable,
-                 {sql_list([con_.variables[x].unit for x in names])}[(i // {len(YEARS)}) % {len(names)} + 1] AS unit,
+                 {literal_list(ALL_REGIONS)}[(i // {len(names) * len(YEARS)}) % {len(ALL_REGIONS)} + 1] AS region,
+                 {literal_list(names)}[(i // {len(YEARS)}) % {len(names)} + 1] AS variable,
+                 {units}[(i // {len(YEARS)}) % {len(names)} + 1] AS unit,
                  {years}[i % {len(YEARS)} + 1] AS year,
                  round({"[" + ", ".join(repr(scale[x]) for x in names) + "]"}[(i // {len(YEARS)}) % {len(names)} + 1]
                        * (0.2 + 0.8 * (hash(i, {int(seed)}) % 1000000) / 1000000.0), 4) AS value
           FROM range({int(rows)}) r(i)
           ORDER BY i
-        ) TO '{str(Path(path)).replace("'", "''")}' (HEADER, DELIMITER ',')
-    """
+        ) TO {literal(str(Path(path)))} (HEADER, DELIMITER ',')
+    """  # noqa: S608 - demo constants; names and path via validate.sql
     Path(path).parent.mkdir(parents=True, exist_ok=True)
     with duckdb.connect() as db:
         db.execute(query)

@@ -16,15 +16,13 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
 
+from milepost.validate.errors import ContractError as ContractError  # re-exported: raised here, imported from here
+
 CORE_DIR = Path(__file__).parent / "core"
 NAME_PATTERN = re.compile(r"^[a-z0-9_]+(\.[a-z0-9_]+)*$")
 SIGNS = ("any", "non-negative")
 AGGREGATIONS = ("sum", "none", "zero")
 FILES = ("contract.toml", "variables.toml", "regions.toml", "reference.csv", "bounds.csv")
-
-
-class ContractError(Exception):
-    """A contract folder that cannot be read or resolved (missing file, bad TOML, wrong type)."""
 
 
 @dataclass(frozen=True)

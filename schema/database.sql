@@ -1,5 +1,5 @@
 -- Milepost scenario database: the complete current schema (tables and views).
--- schema_version: 2
+-- schema_version: 3
 -- A new database is built from this file; an older one is brought here by the numbered files in migrations/.
 -- Every change here needs a new migrations/NNNN_*.sql that makes the same change (tests compare the two).
 
@@ -43,7 +43,8 @@ CREATE TABLE findings (
     value VARCHAR,
     expected VARCHAR,
     message VARCHAR,
-    hint VARCHAR
+    hint VARCHAR,
+    column_name VARCHAR         -- the long-format column of the cell the finding points at (region, unit, value, ...)
 );
 
 -- Values are in contract units, after conversion.
@@ -81,6 +82,15 @@ CREATE TABLE indicators (
     unit VARCHAR,
     note VARCHAR
 );
+
+-- The version of each submission within its model, the one numbering the CLI and the dashboard show:
+-- accepted submissions (current or superseded since) count 1, 2, 3 ... in the order they were ingested;
+-- rejected submissions have none.
+CREATE VIEW submission_versions AS
+SELECT b.id AS submission_id, b.model,
+       CASE WHEN b.status <> 'rejected' THEN
+            row_number() OVER (PARTITION BY b.model, b.status = 'rejected' ORDER BY b.id) END AS version
+FROM submissions AS b;
 
 -- The newest accepted submission of each (model, scenario).
 CREATE VIEW current_versions AS

@@ -14,6 +14,8 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
+from milepost.validate.errors import UnitError as UnitError  # re-exported: raised here, imported from here
+
 # IUPAC/CIAAW 2021 abridged standard atomic weights: C 12.011, N 14.007, O 15.999 -> M(CO2) = 44.009,
 # M(N2O) = 44.013, M(N2) = 28.014.
 ATOMIC_WEIGHT_C = 12.011
@@ -40,10 +42,6 @@ _CO2E = re.compile(r"CO2[-_ ]?(?:equiv(?:alent)?|eq|e)\b", re.IGNORECASE)
 _N2O_N = re.compile(r"\bN2O[-_]N\b")
 _MASS_SPECIES = re.compile(r"\b([kMGT]?t)(CO2e|CO2|CH4|N2O_N|N2O|C)\b")
 _PER_YEAR = re.compile(r"/\s*(?:year|a)\b")
-
-
-class UnitError(ValueError):
-    """A unit string that cannot be parsed or converted."""
 
 
 def normalise(unit: str) -> str:
@@ -97,11 +95,12 @@ class Units:
         self.pint = pint
         self.carbon_to_co2 = carbon_to_co2
         self.nitrogen_to_n2o = nitrogen_to_n2o
-        reg = pint.UnitRegistry(on_redefinition="ignore", preprocessors=[_group_denominators], cache_folder=None)
+        # pint's registry is typed for its own unit graph; ours is built from strings at run time.
+        reg: Any = pint.UnitRegistry(on_redefinition="ignore", preprocessors=[_group_denominators], cache_folder=None)
         for symbol, name in SPECIES.items():
             reg.define(f"{name} = [{name}] = {symbol}")
-        for d in ("kilotonne = 1e3 * tonne = kt", "billion = 1e9", "million = 1e6", "thousand = 1e3"):
-            reg.define(d)
+        for definition in ("kilotonne = 1e3 * tonne = kt", "billion = 1e9", "million = 1e6", "thousand = 1e3"):
+            reg.define(definition)
         self._currencies: set[str] = set()
         for d in deflators:
             self._ensure_currency(reg, d.target)

@@ -14,9 +14,10 @@ from pathlib import Path
 import duckdb
 import numpy as np
 import pytest
-from dashboard_fixtures import demo, demo_db, milestone_values  # noqa: F401
 
 from milepost.dashboard.ui import fmt
+
+from dashboard_fixtures import milestone_values
 
 CHROMIUM = Path("/usr/bin/chromium")
 ARGS = [
@@ -49,7 +50,7 @@ def _free_port() -> int:
 
 
 @pytest.fixture(scope="session")
-def server(demo_db: Path):  # noqa: F811
+def server(demo_db: Path):
     """`milepost dashboard --db DEMO --port FREE`, the way a reviewer starts it; yields the base URL."""
     port = _free_port()
     log = demo_db.parent / "dashboard-server.log"
@@ -65,7 +66,7 @@ def server(demo_db: Path):  # noqa: F811
         deadline = time.monotonic() + 60
         while True:
             try:
-                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:
+                with urllib.request.urlopen(f"{url}/_stcore/health", timeout=2) as r:  # noqa: S310 - http://127.0.0.1
                     if r.read() == b"ok":
                         break
             except OSError:
@@ -105,7 +106,7 @@ def _full_screenshot(page, path: Path) -> None:
     page.screenshot(path=str(path))
 
 
-def test_screen_in_a_real_browser(server, browser, demo_db, tmp_path):  # noqa: F811
+def test_screen_in_a_real_browser(server, browser, demo_db, tmp_path):
     from playwright.sync_api import expect
 
     page = browser.new_page(viewport={"width": 1400, "height": 900}, accept_downloads=True)
@@ -146,7 +147,7 @@ def test_screen_in_a_real_browser(server, browser, demo_db, tmp_path):  # noqa: 
     assert not errors, errors
 
 
-def test_selfcheck_upload_and_json_report_in_a_real_browser(server, browser, demo):  # noqa: F811
+def test_selfcheck_upload_and_json_report_in_a_real_browser(server, browser, demo):
     from playwright.sync_api import expect
 
     db, files = demo

@@ -13,6 +13,7 @@ from milepost.schema.contract import CORE_DIR, ContractError, iso3_codes, load
 from milepost.validate.contract_lint import lint
 
 from conftest import BASIC_CONTRACT, DEMO_CONTRACT
+from published import AR6_CH4_FOSSIL, AR6_CH4_NON_FOSSIL, GWP100
 
 
 def test_core_has_the_agreed_variables(core):
@@ -50,22 +51,30 @@ def test_core_has_the_agreed_variables(core):
     assert "F-gases" in core.variables["emissions.ghg"].description
 
 
-@pytest.mark.parametrize("metric", ["AR6GWP100", "AR5GWP100", "AR4GWP100", "SARGWP100"])
-def test_gwp_factors_come_from_the_published_set(tmp_path, metric):
-    # IPCC GWP100 tables as shipped by globalwarmingpotentials (AR6: Table 7.SM.7; AR5: Table 8.7; AR4: Table
-    # 2.14; SAR 1995). CH4 in Mt and N2O in kt against a Mt CO2e total: factors GWP and GWP/1000.
+@pytest.mark.parametrize("metric", sorted(GWP100))
+def test_gwp_factors_are_the_published_ones(tmp_path, metric):
+    # The published GWP100 of each set (tests/published.py gives the tables and their sources). CH4 in Mt and N2O in
+    # kt against a Mt CO2e total: factors GWP and GWP/1000.
     folder = tmp_path / metric
     folder.mkdir()
     (folder / "contract.toml").write_text(f'name = "g"\nextends = "core"\ngwp = "{metric}"\n')
     parts = {p.variable: p.factor for p in load(folder).variables["emissions.ghg"].parts}
     assert parts["emissions.co2"] == 1.0
-    assert parts["emissions.ch4"] == pytest.approx(gwp.data[metric]["CH4"])
-    assert parts["emissions.n2o"] == pytest.approx(gwp.data[metric]["N2O"] / 1000)
+    assert parts["emissions.ch4"] == pytest.approx(GWP100[metric]["CH4"])
+    assert parts["emissions.n2o"] == pytest.approx(GWP100[metric]["N2O"] / 1000)
+
+
+@pytest.mark.parametrize("metric", sorted(GWP100))
+def test_the_gwp_package_the_contract_reads_holds_the_published_tables(metric):
+    # globalwarmingpotentials is where the contract takes its factors from; check it against the tables themselves.
+    assert {gas: gwp.data[metric][gas] for gas in GWP100[metric]} == GWP100[metric]
 
 
 def test_ar6_values_are_the_ones_published(core):
-    # IPCC AR6 WGI Table 7.SM.7: CH4 27.9, N2O 273 (shared/reference-values.md rows 28-29, confirmed via the library).
-    assert core.gwp == {"CO2": 1.0, "CH4": 27.9, "N2O": 273.0}
+    # IPCC AR6 WGI Ch. 7 Table 7.SM.7: CH4 27.9, N2O 273. Table 7.15's CH4 by origin (fossil 29.8, non-fossil 27.0)
+    # brackets the one CH4 factor a contract carries.
+    assert core.gwp == {"CO2": 1.0, "CH4": GWP100["AR6GWP100"]["CH4"], "N2O": GWP100["AR6GWP100"]["N2O"]}
+    assert AR6_CH4_NON_FOSSIL < core.gwp["CH4"] < AR6_CH4_FOSSIL
 
 
 def test_unknown_gwp_set_is_a_contract_error(tmp_path):

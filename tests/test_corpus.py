@@ -83,6 +83,24 @@ def test_real_entry_point_never_prints_a_traceback(tmp_path, basic):
     assert proc.stdout.splitlines()[-1].startswith("FAILED: ")
 
 
+def test_each_bad_input_through_every_command_that_reads_it_prints_no_traceback(tmp_path, basic, run_milepost):
+    names = list(_corpus(tmp_path, basic))
+    contract = ["--contract", str(BASIC_CONTRACT)]
+    commands = []
+    for name in names:
+        path = str(tmp_path / name)
+        commands += [
+            ["check", path, *contract],
+            ["check", path, *contract, "-f", "json", "-o", str(tmp_path / f"{name}.json")],
+            ["check", path, *contract, "-f", "xlsx", "-o", str(tmp_path / f"{name}.xlsx")],
+            ["ingest", path, *contract, "--db", str(tmp_path / "corpus.duckdb")],
+        ]
+    codes, stderr = run_milepost(commands)
+    assert "Traceback" not in stderr
+    assert codes == [1] * len(commands), [(c[0], c[1], code) for c, code in zip(commands, codes, strict=True)]
+    assert not (tmp_path / "logs").exists()
+
+
 @pytest.mark.parametrize(
     ("encoding", "bom", "delimiter"), [("utf-8", False, ","), ("utf-8", True, ";"), ("latin-1", False, "\t")]
 )

@@ -15,7 +15,6 @@ import duckdb
 import numpy as np
 import pandas as pd
 import pytest
-from dashboard_fixtures import APP, demo, demo_db, milestone_values, numpy_bands, sql  # noqa: F401
 from streamlit.testing.v1 import AppTest
 
 from milepost.dashboard import queries
@@ -23,6 +22,8 @@ from milepost.dashboard.headlines import sig
 from milepost.dashboard.ui import fmt
 from milepost.example_db.generate import CONTRACT_DIR
 from milepost.validate.store.ingest import ingest
+
+from dashboard_fixtures import APP, milestone_values, numpy_bands
 
 RESULT_PAGES = ("views/screen.py", "views/rates.py", "views/costs.py", "views/pathways.py")
 
@@ -57,7 +58,7 @@ def frame(at: AppTest, must_have: str) -> pd.DataFrame:
     raise AssertionError(f"no table with a column like {must_have!r}: {[list(d.value.columns) for d in at.dataframe]}")
 
 
-def band_rates(sql, year_from: int, year_to: int, kind: str = "rate_cagr") -> tuple[np.ndarray, pd.DataFrame]:  # noqa: F811
+def band_rates(sql, year_from: int, year_to: int, kind: str = "rate_cagr") -> tuple[np.ndarray, pd.DataFrame]:
     sel = milestone_values(sql, "emissions.ghg", 2030)
     _, band = numpy_bands(sel["value"].to_numpy())
     sel = sel.assign(band=band)
@@ -70,7 +71,7 @@ def band_rates(sql, year_from: int, year_to: int, kind: str = "rate_cagr") -> tu
     return band, sel.merge(r, on=["model", "scenario"])
 
 
-def test_screen_numbers_follow_the_milestone_year(demo_db, sql):  # noqa: F811
+def test_screen_numbers_follow_the_milestone_year(demo_db, sql):
     at = open_app(demo_db)
     assert at.title[0].value == "Screen"
     assert len(at.get("vega_lite_chart")) == 1
@@ -93,7 +94,7 @@ def test_screen_numbers_follow_the_milestone_year(demo_db, sql):  # noqa: F811
     assert at.query_params["year"] == ["2050"] or at.query_params["year"] == "2050"
 
 
-def test_screen_edges_models_and_attribute_filter(demo_db, sql):  # noqa: F811
+def test_screen_edges_models_and_attribute_filter(demo_db, sql):
     at = open_app(demo_db)
     at.text_input(key="band_edges").set_value("45000").run()
     bands = frame(at, "range")
@@ -112,7 +113,7 @@ def test_screen_edges_models_and_attribute_filter(demo_db, sql):  # noqa: F811
     assert set(shown["family"]) == {"delayed"} and set(shown["model"]) == {"Ferrow"}
 
 
-def test_url_query_restores_the_view(demo_db, sql):  # noqa: F811
+def test_url_query_restores_the_view(demo_db, sql):
     # An edge between Halvik's lowest and highest 2050 value, so both bands are populated whatever the demo holds.
     halvik = milestone_values(sql, "emissions.ghg", 2050, models=("Halvik",))["value"]
     edge = f"{(halvik.min() + halvik.max()) / 2:.0f}"
@@ -131,7 +132,7 @@ def test_url_query_restores_the_view(demo_db, sql):  # noqa: F811
     assert bad.selectbox(key="band_year").value == 2030 and bad.selectbox(key="band_region").value == "World"
 
 
-def test_rates_sentence_and_table_match_sql(demo_db, sql):  # noqa: F811
+def test_rates_sentence_and_table_match_sql(demo_db, sql):
     at = open_app(demo_db, "views/rates.py")
     for period in ((2030, 2050), (2050, 2100)):
         if period != (2030, 2050):
@@ -150,7 +151,7 @@ def test_rates_sentence_and_table_match_sql(demo_db, sql):  # noqa: F811
     assert {"model", "scenario"} <= {t.get("field") for t in _tooltips(spec)}
 
 
-def test_rates_page_picks_the_linear_rate_and_counts_undefined_cagr(demo_db, sql):  # noqa: F811
+def test_rates_page_picks_the_linear_rate_and_counts_undefined_cagr(demo_db, sql):
     at = open_app(demo_db, "views/rates.py")
     assert at.selectbox(key="rates_kind").value == "rate_linear_base"  # the default: one denominator per period
     at.selectbox(key="rates_period").set_value("2050-2100").run()
@@ -194,7 +195,7 @@ def _tooltips(spec: dict) -> list[dict]:
     return out
 
 
-def _npv_medians(sql, models: tuple[str, ...] = ()) -> tuple[float, float, int, int]:  # noqa: F811
+def _npv_medians(sql, models: tuple[str, ...] = ()) -> tuple[float, float, int, int]:
     """Median NPV 2020-2100 of the highest and lowest tercile band, recomputed from the stored rows with numpy."""
     sel = milestone_values(sql, "emissions.ghg", 2030, models=models)
     _, band = numpy_bands(sel["value"].to_numpy())
@@ -205,7 +206,7 @@ def _npv_medians(sql, models: tuple[str, ...] = ()) -> tuple[float, float, int, 
     return float(np.median(hi)), float(np.median(lo)), len(hi), len(lo)
 
 
-def test_costs_sentence_ratio_and_thin_evidence(demo_db, sql):  # noqa: F811
+def test_costs_sentence_ratio_and_thin_evidence(demo_db, sql):
     at = open_app(demo_db, "views/costs.py")
     for models in ((), ("Ferrow",)):
         if models:
@@ -225,7 +226,7 @@ def test_costs_sentence_ratio_and_thin_evidence(demo_db, sql):  # noqa: F811
     assert models and min(n_hi, n_lo) < 5
 
 
-def test_pathways_variable_change_and_reference(demo_db, sql):  # noqa: F811
+def test_pathways_variable_change_and_reference(demo_db, sql):
     at = open_app(demo_db, "views/pathways.py")
     at.selectbox(key="path_variable").set_value("energy.primary").run()
     table = frame(at, "q95")
@@ -248,7 +249,7 @@ def test_pathways_variable_change_and_reference(demo_db, sql):  # noqa: F811
     assert any(layer.get("mark", {}).get("strokeDash") == [5, 3] for layer in spec["layer"])
 
 
-def test_submissions_and_drill_down(demo_db, sql):  # noqa: F811
+def test_submissions_and_drill_down(demo_db, sql):
     at = open_app(demo_db, "views/submissions.py")
     subs = frame(at, "version")
     assert len(subs) == sql.execute("SELECT count(*) FROM submissions").fetchall()[0][0]
@@ -261,7 +262,7 @@ def test_submissions_and_drill_down(demo_db, sql):  # noqa: F811
     # the one submission with findings is preselected
     assert at.selectbox(key="subs_id").value == rejected
     assert len(frame(at, "hint")) == sum(per_rule.values())
-    rule = max(per_rule, key=per_rule.get)
+    rule = max(per_rule, key=lambda r: per_rule[r])
     at.multiselect(key="subs_rules").set_value([rule]).run()
     found = frame(at, "hint")
     assert len(found) == per_rule[rule] and set(found["rule"]) == {rule}
@@ -272,7 +273,7 @@ def _signature(p: Path) -> tuple[int, int, str]:
     return s.st_ino, s.st_mtime_ns, hashlib.sha256(p.read_bytes()).hexdigest()
 
 
-def test_selfcheck_reports_findings_without_writing(demo, sql):  # noqa: F811
+def test_selfcheck_reports_findings_without_writing(demo, sql):
     db, files = demo
     before = _signature(db)
     at = open_app(db, "views/selfcheck.py")
@@ -297,7 +298,7 @@ def test_selfcheck_reports_findings_without_writing(demo, sql):  # noqa: F811
 
 
 @pytest.mark.parametrize("page", RESULT_PAGES)
-def test_results_pages_carry_cautions_and_downloads(demo_db, page):  # noqa: F811
+def test_results_pages_carry_cautions_and_downloads(demo_db, page):
     at = open_app(demo_db, page)
     captions = " ".join(c.value for c in at.caption)
     assert "not forecasts" in captions and "avoided climate damages and co-benefits" in captions
@@ -313,7 +314,7 @@ def test_missing_database_says_what_to_do(tmp_path):
     assert "No database at" in at.error[0].value and "milepost ingest" in at.error[0].value
 
 
-def test_dashboard_reads_during_an_ingest_and_then_sees_the_new_version(demo, tmp_path):  # noqa: F811
+def test_dashboard_reads_during_an_ingest_and_then_sees_the_new_version(demo, tmp_path):
     _, files = demo
     db = tmp_path / "live.duckdb"
     ingest(files.submissions["Ferrow"], db, CONTRACT_DIR)
@@ -352,7 +353,7 @@ def test_dashboard_reads_during_an_ingest_and_then_sees_the_new_version(demo, tm
     assert int(next(m for m in at.metric if m.label == "Scenarios").value) == expect > int(n_before)
 
 
-def test_screen_states_the_conventions_and_net_zero_not_reached(demo_db, sql):  # noqa: F811
+def test_screen_states_the_conventions_and_net_zero_not_reached(demo_db, sql):
     at = open_app(demo_db)
     captions = " ".join(c.value for c in at.caption)
     assert "both included" in captions and "IPCC AR6 WG1" in captions and "1 January 2020" in captions
@@ -371,7 +372,7 @@ def test_screen_states_the_conventions_and_net_zero_not_reached(demo_db, sql):  
     assert (shown[(~never).to_numpy()] == nz.loc[~never, "value"].astype(int).astype(str)).all()
 
 
-def test_costs_show_gdp_growth_reduction_against_the_named_reference(demo_db, sql):  # noqa: F811
+def test_costs_show_gdp_growth_reduction_against_the_named_reference(demo_db, sql):
     at = open_app(demo_db, "views/costs.py")
     captions = " ".join(c.value for c in at.caption)
     assert "each model's own reference scenario named in the scenarios table (here: drift)" in captions
@@ -384,7 +385,7 @@ def test_costs_show_gdp_growth_reduction_against_the_named_reference(demo_db, sq
     assert set(row["unit"]) == {"pp/yr"}
 
 
-def test_an_outdated_database_is_shown_with_a_warning(demo_db, tmp_path):  # noqa: F811
+def test_an_outdated_database_is_shown_with_a_warning(demo_db, tmp_path):
     # a copy of the demo as the previous milepost wrote it: schema 1, no note column
     db = tmp_path / "old.duckdb"
     shutil.copyfile(demo_db, db)

@@ -9,7 +9,6 @@ import time
 import urllib.request
 from pathlib import Path
 
-from dashboard_fixtures import demo, demo_db  # noqa: F401
 from typer.testing import CliRunner
 
 from milepost.validate.cli import app
@@ -23,9 +22,9 @@ def test_help_lists_the_options():
         assert option in res.stdout
 
 
-def test_missing_database_is_a_usage_error(tmp_path: Path):
+def test_missing_database_exits_with_the_database_code(tmp_path: Path):
     res = CliRunner().invoke(app, ["dashboard", "--db", str(tmp_path / "nothing.duckdb")])
-    assert res.exit_code == 2
+    assert res.exit_code == 3
     assert "Error: no database at" in res.stderr and "milepost ingest" in res.stderr
 
 
@@ -39,7 +38,7 @@ def test_command_line_is_headless_without_telemetry(tmp_path: Path):
     assert env["MILEPOST_DB"] == str((tmp_path / "x.duckdb").resolve())
 
 
-def test_the_command_serves_the_app(demo_db: Path):  # noqa: F811
+def test_the_command_serves_the_app(demo_db: Path):
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))
         port = s.getsockname()[1]

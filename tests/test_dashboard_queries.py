@@ -11,21 +11,21 @@ import duckdb
 import numpy as np
 import pandas as pd
 import pytest
-from dashboard_fixtures import demo, demo_db, milestone_values, numpy_bands, sql  # noqa: F401
 
 from milepost.dashboard import charts, connection, contracts, queries
 from milepost.example_db.generate import CONTRACT_DIR
+from milepost.validate.store.database import Reader
+
+from dashboard_fixtures import milestone_values, numpy_bands
 
 
 @pytest.fixture
-def con(demo_db: Path):  # noqa: F811
-    c = connection.open_read_only(demo_db)
-    c.execute(f"USE {connection.CATALOG}")
-    yield c
-    c.close()
+def con(demo_db: Path):
+    with Reader(demo_db) as reader:
+        yield reader.con
 
 
-def test_choices_list_what_the_database_holds(con, sql):  # noqa: F811
+def test_choices_list_what_the_database_holds(con, sql):
     ch = queries.choices(con)
     assert ch.base_year == 2020
     assert ch.milestones == [2030, 2050, 2100]  # the demo contract's milestones (example_db/contract)
@@ -35,7 +35,7 @@ def test_choices_list_what_the_database_holds(con, sql):  # noqa: F811
     assert {"family", "ambition"} <= set(ch.attributes) and "reference" not in ch.attributes
 
 
-def test_default_bands_are_numpy_terciles_and_each_scenario_lands_in_its_band(con, sql):  # noqa: F811
+def test_default_bands_are_numpy_terciles_and_each_scenario_lands_in_its_band(con, sql):
     sel = queries.Selection()
     got = queries.screen_table(con, sel, 2020, 2050)
     want = milestone_values(sql, "emissions.ghg", 2030)
@@ -48,7 +48,7 @@ def test_default_bands_are_numpy_terciles_and_each_scenario_lands_in_its_band(co
     assert merged["value_x"].to_numpy() == pytest.approx(merged["value_y"].to_numpy())
 
 
-def test_user_edges_filters_and_reference_scenarios(con, sql):  # noqa: F811
+def test_user_edges_filters_and_reference_scenarios(con, sql):
     sel = queries.Selection(year=2050, edges=(20000.0, 5000.0), models=("Ferrow", "Ormund"))
     got = queries.selected(con, sel)
     want = milestone_values(sql, "emissions.ghg", 2050, models=("Ferrow", "Ormund"))
@@ -69,15 +69,15 @@ def test_user_edges_filters_and_reference_scenarios(con, sql):  # noqa: F811
     assert 0 < len(delayed) == expect
 
 
-def test_rates_are_the_cagr_of_the_stored_series(con, sql):  # noqa: F811
+def test_rates_are_the_cagr_of_the_stored_series(con, sql):
     sel = queries.Selection()
     df = queries.rates(con, sel, 2030, 2050)
     cagr = df[df["kind"] == "rate_cagr"].set_index(["model", "scenario"])["value"]
     pts = sql.execute("""SELECT model, scenario, year, value FROM current_data
                          WHERE variable = 'emissions.ghg' AND region = 'World' AND year IN (2030, 2050)""").df()
     wide = pts.pivot(index=["model", "scenario"], columns="year", values="value").loc[cagr.index]
-    # CAGR = (V_end/V_start)^(1/n) - 1 (US BEA definition, see shared reference-values.md); the demo reports 2030
-    # and 2050 directly, so no interpolation is involved
+    # CAGR = (V_end/V_start)^(1/n) - 1 (US BEA regional data definitions, "compound annual growth rate"); the demo
+    # reports 2030 and 2050 directly, so no interpolation is involved
     v0, v1 = wide[2030].to_numpy(), wide[2050].to_numpy()
     expected = np.where((v0 > 0) & (v1 > 0), ((v1 / v0) ** (1 / 20) - 1) * 100, np.nan)
     np.testing.assert_allclose(cagr.to_numpy(dtype=float), expected, rtol=1e-9, equal_nan=True)
@@ -117,7 +117,7 @@ def test_summarise_matches_numpy_percentiles(con):
         assert row["q75"] == pytest.approx(np.percentile(v, 75))
 
 
-def test_costs_and_ratio_of_band_medians(con, sql):  # noqa: F811
+def test_costs_and_ratio_of_band_medians(con, sql):
     sel = queries.Selection()
     df = queries.costs(con, sel, 2020)
     assert {("loss_pct", "gdp.mer"), ("npv", "cost.abatement"), ("value", "price.carbon")} <= set(
@@ -142,11 +142,11 @@ def test_band_ratio_needs_a_positive_denominator():
         {"m": ["a", "a", "b", "b"], "band": [0, 1, 0, 1], "median": [2.0, 3.0, 0.0, 1.0], "n": [4, 5, 4, 5]}
     )
     r = queries.band_ratio(s, ["m"], top=1, bottom=0).set_index("m")
-    assert r.loc["a", "ratio"] == 1.5 and np.isnan(r.loc["b", "ratio"])
+    assert r.loc["a", "ratio"] == 1.5 and r["ratio"].isna()["b"]
     assert r.loc["a", "n_top"] == 5 and r.loc["a", "n_bottom"] == 4
 
 
-def test_pathway_quantiles_match_numpy(con, sql):  # noqa: F811
+def test_pathway_quantiles_match_numpy(con, sql):
     sel = queries.Selection()
     got = queries.pathway_bands(con, sel, "emissions.co2", "Belmora")
     bands = queries.selected(con, sel).set_index(["model", "scenario"])["band"]
@@ -164,7 +164,7 @@ def test_pathway_quantiles_match_numpy(con, sql):  # noqa: F811
     assert len(one) == len(pts[pts.set_index(["model", "scenario"]).index.isin(keys)])
 
 
-def test_submissions_versions_and_findings(con, sql):  # noqa: F811
+def test_submissions_versions_and_findings(con, sql):
     subs = queries.submissions(con)
     assert len(subs) == sql.execute("SELECT count(*) FROM submissions").fetchall()[0][0]
     halvik = subs[subs["model"] == "Halvik"].sort_values("id")
@@ -185,7 +185,7 @@ def test_submissions_versions_and_findings(con, sql):  # noqa: F811
     assert queries.contract_name(con) == "lowmoor-demo"
 
 
-def test_connection_is_read_only_and_follows_a_replaced_file(demo_db: Path, tmp_path: Path):  # noqa: F811
+def test_connection_is_read_only_and_follows_a_replaced_file(demo_db: Path, tmp_path: Path):
     live = tmp_path / "live.duckdb"
     shutil.copyfile(demo_db, live)
     first = connection.connection(live)

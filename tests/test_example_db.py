@@ -1,5 +1,8 @@
 """Tests of the invented demo intercomparison generator (milepost.example_db.generate)."""
 
+# pandas-stubs types a `.loc[...]` scalar as the union of every scalar type; these checks index frames throughout.
+# mypy: disable-error-code="index, call-overload, arg-type, assignment, return-value"
+
 from __future__ import annotations
 
 from pathlib import Path
@@ -10,6 +13,8 @@ import pytest
 
 from milepost.example_db import generate as gen
 from milepost.schema.contract import Contract
+
+from published import GWP100
 
 KEYS = ["model", "scenario", "region", "year"]
 MIXED_KEYS = ["model", "scenario", "variable", "year"]
@@ -152,9 +157,8 @@ def test_world_is_sum_of_regions(frame: pd.DataFrame, con: Contract) -> None:
 
 
 def test_ghg_is_ar6_gwp100_weighting(frame: pd.DataFrame) -> None:
-    gwp = pytest.importorskip("globalwarmingpotentials")
-    # IPCC AR6 WGI Ch. 7 Table 7.SM.7 GWP100, as shipped by the globalwarmingpotentials package (27.9 and 273).
-    ch4, n2o = gwp.data["AR6GWP100"]["CH4"], gwp.data["AR6GWP100"]["N2O"]
+    # IPCC AR6 WGI Ch. 7 Table 7.SM.7 GWP100: CH4 27.9, N2O 273 (tests/published.py).
+    ch4, n2o = GWP100["AR6GWP100"]["CH4"], GWP100["AR6GWP100"]["N2O"]
     wide = frame.pivot_table(index=KEYS, columns="variable", values="value")
     # N2O is reported in kt, the total in Mt CO2e: divide by 1000. F-gases are reported in Mt CO2e already.
     expected = (
@@ -437,12 +441,8 @@ def test_synthetic_file_is_valid_and_seeded(tmp_path: Path, con: Contract) -> No
 
 
 @pytest.mark.slow
-def test_synthetic_two_million_rows_in_seconds(tmp_path: Path) -> None:
-    import time
-
-    t0 = time.perf_counter()
-    path = gen.write_synthetic(tmp_path / "big.csv", rows=2_000_000)
-    assert time.perf_counter() - t0 < 30  # measured about 3 s on 2 cores
+def test_synthetic_two_million_rows(tmp_path: Path) -> None:
+    path = gen.write_synthetic(tmp_path / "big.csv", rows=2_000_000)  # its speed belongs to `make bench`
     with path.open() as f:
         assert sum(1 for _ in f) == 2_000_001
 

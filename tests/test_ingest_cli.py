@@ -123,12 +123,12 @@ def test_export_snapshot_and_diff_commands(tmp_path: Path, subs) -> None:
     assert d["counts"]["removed"] == 0 and d["counts"]["changed"] > 0 and d["scenarios_only_in_a"] == ["Halvik | drift"]
 
 
-def test_errors_are_one_line_with_exit_code_2(tmp_path: Path, subs) -> None:
+def test_errors_are_one_line_with_their_exit_code(tmp_path: Path, subs) -> None:
     db = str(tmp_path / "m.duckdb")
     r = run("submissions", "--db", db)
-    assert (r.exit_code, r.stderr) == (2, f"Error: no database at {db} (create one with `milepost ingest`)\n")
+    assert (r.exit_code, r.stderr) == (3, f"Error: no database at {db} (create one with `milepost ingest`)\n")
     r = run("export", "--db", db, "--what", "data", "--format", "csv", "-o", str(tmp_path / "x.csv"))
-    assert r.exit_code == 2 and r.stderr.startswith("Error: no database at")
+    assert r.exit_code == 3 and r.stderr.startswith("Error: no database at")
     bad = tmp_path / "badcontract"
     bad.mkdir()
     (bad / "contract.toml").write_text("name = [unclosed\n")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import os
 import signal
 import subprocess
@@ -117,6 +118,7 @@ def test_two_concurrent_ingests_both_end_correctly(tmp_path: Path, files, contra
     ]
     outs = [p.communicate(timeout=120) for p in procs]
     assert [p.returncode for p in procs] == [0, 0], outs
+    assert not any("Traceback" in out + err for out, err in outs)
     subs, n = state(db)
     assert [s[:2] for s in subs] == [(1, "accepted"), (2, "accepted")]
     with open_reader(db) as r:
@@ -142,7 +144,7 @@ def test_a_writer_that_cannot_get_the_lock_fails_cleanly(tmp_path: Path, files, 
     finally:
         holder.kill()
         holder.wait()
-    assert second.returncode == 2
+    assert second.returncode == 3
     assert second.stderr.splitlines()[0].startswith("Waiting up to 0.5 s for another milepost process")
     assert second.stderr.splitlines()[-1] == (
         f"Error: another milepost process (pid {holder.pid}) is writing {db}; gave up after 0.5 s "
@@ -153,7 +155,7 @@ def test_a_writer_that_cannot_get_the_lock_fails_cleanly(tmp_path: Path, files, 
 
 
 READER = textwrap.dedent("""
-    import sys, time
+    import json, sys, time
     from milepost.validate.store.database import open_reader
     r = open_reader(sys.argv[1])
     seen, bad = [], 0
@@ -169,7 +171,7 @@ READER = textwrap.dedent("""
         if not seen or seen[-1] != (subs, rows):
             seen.append((subs, rows))
         time.sleep(0.005)
-    print(bad, seen, flush=True)
+    print(json.dumps([bad, seen]), flush=True)
 """)
 
 
@@ -178,13 +180,13 @@ def test_a_reader_held_open_neither_blocks_the_ingest_nor_sees_a_half_state(tmp_
     first = ingest(files["drift"], db, contract)
     reader = subprocess.Popen([sys.executable, "-c", READER, str(db), "2"], stdout=subprocess.PIPE, text=True)
     assert reader.stdout is not None and reader.stdout.readline().strip() == "ready"
-    t = time.monotonic()
+    # lock_timeout=0: a reader holding the file open never makes the writer wait
     res = ingest(files["act-firm"], db, contract, lock_timeout=0)
-    assert res.status == "accepted" and time.monotonic() - t < 30
+    assert res.status == "accepted"
     out, _ = reader.communicate(timeout=60)
-    bad, seen = out.split(" ", 1)
-    assert bad == "0"  # every state it saw was whole: data rows == the stored submissions' row counts
-    assert eval(seen) == [(1, first.rows), (2, first.rows + res.rows)]  # our own printed list of tuples
+    bad, seen = json.loads(out)
+    assert bad == 0  # every state it saw was whole: data rows == the stored submissions' row counts
+    assert seen == [[1, first.rows], [2, first.rows + res.rows]]
 
 
 def test_bad_input_never_reaches_the_data_table(tmp_path: Path, contract) -> None:

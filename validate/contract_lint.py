@@ -4,13 +4,14 @@ from __future__ import annotations
 
 import os
 from pathlib import Path
+from typing import Any
 
 from milepost.schema.contract import AGGREGATIONS, NAME_PATTERN, SIGNS, Contract, iso3_codes
 from milepost.schema.units import UnitError
 from milepost.validate.findings import RULES, SEVERITIES, Finding
 
 
-def _f(rule: str, message: str, hint: str | None = None, **where: object) -> Finding:
+def _f(rule: str, message: str, hint: str | None = None, **where: Any) -> Finding:
     return Finding(
         rule,
         "error",
@@ -18,7 +19,7 @@ def _f(rule: str, message: str, hint: str | None = None, **where: object) -> Fin
         message=message,
         hint=hint,
         **{k: v for k, v in where.items() if v is not None},
-    )  # type: ignore[arg-type]
+    )
 
 
 def _cycles(graph: dict[str, tuple[str, ...]]) -> list[list[str]]:
@@ -133,27 +134,27 @@ def lint(contract: Contract) -> list[Finding]:
     uses_codes = any(len(p) == 3 and p.isupper() for r in contract.regions.values() for p in r.parts)
     isos = iso3_codes() if uses_codes else frozenset()
     for r in contract.regions.values():
-        for p in r.parts:
-            if p not in contract.regions and p not in isos:
+        for code in r.parts:
+            if code not in contract.regions and code not in isos:
                 out.append(
                     _f(
                         "contract-part",
-                        f"region {r.name}: part {p!r} is neither a region of the contract "
+                        f"region {r.name}: part {code!r} is neither a region of the contract "
                         "nor an ISO 3166-1 alpha-3 code",
                         path=src,
                         region=r.name,
                     )
                 )
     for ref in contract.reference:
-        where = {"path": src, "region": ref.region, "variable": ref.variable, "year": ref.year}
-        v = contract.variables.get(ref.variable)
-        if v is None:
+        where: dict[str, Any] = {"path": src, "region": ref.region, "variable": ref.variable, "year": ref.year}
+        known = contract.variables.get(ref.variable)
+        if known is None:
             out.append(_f("contract-reference", f"reference value for unknown variable {ref.variable!r}", **where))
-        elif not units.compatible(ref.unit, v.unit):
+        elif not units.compatible(ref.unit, known.unit):
             out.append(
                 _f(
                     "contract-reference",
-                    f"reference {ref.variable} is in {ref.unit}, which does not convert to {v.unit}",
+                    f"reference {ref.variable} is in {ref.unit}, which does not convert to {known.unit}",
                     **where,
                 )
             )
@@ -174,9 +175,9 @@ def lint(contract: Contract) -> list[Finding]:
     for m in c.milestones:
         if not c.first_year <= m <= c.last_year:
             out.append(_f("contract-reference", f"milestone {m} is outside {c.first_year}–{c.last_year}", path=src))
-    for r in c.required_regions:
-        if not c.is_region(r):
-            out.append(_f("contract-reference", f"required region {r!r} is not a region of the contract", path=src))
+    for name in c.required_regions:
+        if not c.is_region(name):
+            out.append(_f("contract-reference", f"required region {name!r} is not a region of the contract", path=src))
     for rule, sev in c.severity.items():
         if rule not in RULES or sev not in SEVERITIES:
             out.append(

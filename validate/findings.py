@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import asdict, dataclass, fields
 from typing import Any
 
@@ -95,28 +96,16 @@ RULES: dict[str, Rule] = {
     )
 }
 
-FINDING_COLUMNS = (
-    "rule",
-    "severity",
-    "path",
-    "line",
-    "sheet",
-    "model",
-    "scenario",
-    "region",
-    "variable",
-    "unit",
-    "year",
-    "value",
-    "expected",
-    "message",
-    "hint",
-)
-
 
 @dataclass(frozen=True)
 class Finding:
-    """One thing a check found: where it is (file, line, key), what was there, what was expected, and a fix hint."""
+    """One thing a check found: where it is (file, line, key), what was there, what was expected, and a fix hint.
+
+    The fields are the columns of the `findings` tables (the check run's TEMP table and the database's), in this
+    order; `FINDING_COLUMNS` below is derived from them, so a new field is a new column everywhere (with a
+    migration for the database). `column_name` is the long-format column of the cell the finding points at
+    (region, variable, unit, year, value or a key column), None for findings about a whole file or table.
+    """
 
     rule: str
     severity: str
@@ -133,15 +122,39 @@ class Finding:
     expected: str | None = None
     message: str = ""
     hint: str | None = None
+    column_name: str | None = None
 
     def to_dict(self) -> dict[str, Any]:
         """Plain dict with every field (None where it does not apply)."""
         return asdict(self)
 
     @classmethod
-    def from_row(cls, row: tuple[Any, ...]) -> Finding:
-        """Build from a row of the `findings` table (columns in FINDING_COLUMNS order)."""
-        return cls(**{f.name: _clean(v) for f, v in zip(fields(cls), row, strict=True)})
+    def from_row(cls, row: Mapping[str, Any]) -> Finding:
+        """Build from a row of a `findings` table given as {column: value}; unknown columns are an error.
+
+        Columns that are not finding fields (the database's `submission_id`) must be left out by the caller.
+        """
+        unknown = set(row) - set(FINDING_COLUMNS)
+        if unknown:
+            raise TypeError(f"not finding columns: {', '.join(sorted(unknown))}")
+        return cls(**{k: _clean(v) for k, v in row.items()})
+
+
+# The findings columns, in table order: the one list every reader, writer and DDL test uses.
+FINDING_COLUMNS: tuple[str, ...] = tuple(f.name for f in fields(Finding))
+# SQL types of the columns that are not VARCHAR (the database DDL and the check run's TEMP table agree on them).
+FINDING_TYPES: dict[str, str] = {"line": "BIGINT", "year": "INTEGER"}
+
+
+def finding_columns_ddl() -> str:
+    """The column definitions of a findings table: `rule VARCHAR, severity VARCHAR, ..., line BIGINT, ...`."""
+    return ", ".join(f"{c} {FINDING_TYPES.get(c, 'VARCHAR')}" for c in FINDING_COLUMNS)
+
+
+def findings_from(cursor: Any) -> list[Finding]:
+    """The Findings of an executed DuckDB query whose columns are named like Finding's fields."""
+    names = [d[0] for d in cursor.description]
+    return [Finding.from_row(dict(zip(names, r, strict=True))) for r in cursor.fetchall()]
 
 
 def _clean(v: Any) -> Any:

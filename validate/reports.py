@@ -5,29 +5,14 @@ from __future__ import annotations
 import json
 from collections.abc import Iterator
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
-from milepost.validate.findings import SEVERITIES, Finding
+from milepost.validate.findings import FINDING_COLUMNS, SEVERITIES, Finding
+from milepost.validate.outputs import save_workbook
 from milepost.validate.runner import CheckResult
 
 TEXT_LIMIT = 200
 XLSX_COPY_ROWS = 100_000
-# Which cell of a submission row a rule points at, for highlighting the copy in the XLSX report.
-RULE_COLUMN = {
-    "unknown-region": "region",
-    "unknown-variable": "variable",
-    "wrong-unit": "unit",
-    "converted-unit": "unit",
-    "bad-year": "year",
-    "bad-value": "value",
-    "sign": "value",
-    "out-of-bounds": "value",
-    "sum-of-parts": "value",
-    "sum-of-regions": "value",
-    "base-year-deviation": "value",
-    "duplicate-row": "value",
-    "conflicting-row": "value",
-}
 FILL = {"error": "FFF4B6B6", "warning": "FFFFE699", "note": "FFDDEBF7"}
 
 
@@ -154,9 +139,10 @@ def print_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LI
 
 def _raw_rows(
     result: CheckResult, path: str, sheet: str | None, limit: int
-) -> tuple[list[str], list[tuple[int, list]]]:
+) -> tuple[list[str], list[tuple[int, list[Any]]]]:
     """Header and (line, cells) of a submission file as it stands, for the highlighted copy."""
     p = Path(path)
+    rows: list[tuple[int, list[Any]]] = []
     if p.suffix.lower() in (".xlsx", ".xlsm"):
         import openpyxl
 
@@ -164,7 +150,6 @@ def _raw_rows(
         try:
             it = wb[sheet or wb.sheetnames[0]].iter_rows(values_only=True)
             header = [str(h) if h is not None else "" for h in next(it)]
-            rows = []
             for n, r in enumerate(it, start=2):
                 if n > limit + 1:
                     break
@@ -173,7 +158,7 @@ def _raw_rows(
             wb.close()
         return header, rows
     if p.suffix.lower() in (".parquet", ".pq"):
-        rel = result.con.execute(f"SELECT * FROM read_parquet(?) LIMIT {limit}", [str(p)])
+        rel = result.con.execute(f"SELECT * FROM read_parquet(?) LIMIT {limit}", [str(p)])  # noqa: S608 - the limit is an int
         return [d[0] for d in rel.description], [(n, list(r)) for n, r in enumerate(rel.fetchall(), start=2)]
     import csv
 
@@ -184,7 +169,6 @@ def _raw_rows(
     with p.open(encoding="utf-8-sig" if d.encoding == "utf-8" else d.encoding, newline="") as f:
         reader = csv.reader(f, delimiter=d.delimiter)
         header = next(reader, [])
-        rows = []
         for cells in reader:
             if len(rows) >= limit:
                 break
@@ -197,10 +181,11 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
     import openpyxl
     from openpyxl.comments import Comment
     from openpyxl.styles import Font, PatternFill
+    from openpyxl.worksheet.worksheet import Worksheet
 
     path = Path(path)
     wb = openpyxl.Workbook()
-    ws = wb.active
+    ws = cast(Worksheet, wb.active)  # a new workbook's active sheet is its one worksheet
     ws.title = "summary"
     s = summary(result, fail_on)
     for row in (
@@ -226,7 +211,7 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
         ws.append([])
         ws.append(["Only the first findings of each rule are listed; the counts above are complete."])
     fs = wb.create_sheet("findings")
-    cols = list(Finding.__dataclass_fields__)
+    cols = list(FINDING_COLUMNS)
     fs.append(cols)
     for c in fs[1]:
         c.font = Font(bold=True)
@@ -235,10 +220,10 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
     fs.auto_filter.ref = fs.dimensions
     fs.freeze_panes = "A2"
 
-    by_file: dict[str, list[Finding]] = {}
+    by_file: dict[str, list[tuple[int, Finding]]] = {}
     for f in result.findings:
         if f.path and f.line is not None:
-            by_file.setdefault(f.path, []).append(f)
+            by_file.setdefault(f.path, []).append((f.line, f))
     for n, inp in enumerate(i for i in result.inputs if i.kind == "data"):
         title = f"copy {n + 1}"
         sheet = wb.create_sheet(title)
@@ -258,12 +243,10 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
                 sheet.cell(row=line, column=j, value=v)
         lower = {h.strip().lower(): j for j, h in enumerate(header, start=1)}
         notes: dict[tuple[int, int], list[Finding]] = {}
-        for f in by_file.get(inp.path, []):
-            col = RULE_COLUMN.get(f.rule)
-            if f.rule == "missing-value" and f.expected:
-                col = f.expected.removeprefix("a ")
-            j = lower.get(col or "value", 1) if f.line > 1 else 1
-            notes.setdefault((f.line, j), []).append(f)
+        for at, f in by_file.get(inp.path, []):
+            # A finding about a row but no particular cell (an unsplittable line) marks the value cell.
+            j = lower.get(f.column_name or "value", 1) if at > 1 else 1
+            notes.setdefault((at, j), []).append(f)
         for (line, j), found in notes.items():
             cell = sheet.cell(row=line, column=j)
             worst = min((f.severity for f in found), key=SEVERITIES.index)
@@ -274,5 +257,5 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
         sheet["A1"].font = Font(bold=True)
         ws.append([])
         ws.append([f"sheet '{title}' is a copy of {inp.path}: row numbers are the file's lines"])
-    wb.save(path)
+    save_workbook(wb, path)
     return path

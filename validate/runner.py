@@ -17,8 +17,9 @@ from milepost.schema.contract import Contract
 from milepost.validate import __version__
 from milepost.validate.checks import ROW_CHECKS, TABLE_CHECKS, Context
 from milepost.validate.checks.structure import file_findings
-from milepost.validate.findings import FINDING_COLUMNS, RULES, SEVERITIES, Finding
+from milepost.validate.findings import FINDING_COLUMNS, RULES, SEVERITIES, Finding, finding_columns_ddl, findings_from
 from milepost.validate.readers import InputFile, read_file
+from milepost.validate.sql import enum_type, literal
 
 FINDINGS_PER_RULE = 1000
 PROGRESS_BYTES = 40 << 20  # about a million long-format rows
@@ -115,11 +116,10 @@ def _obs_view(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> None:
     parts = []
     for i, inp in enumerate(inputs):
         if inp.kind == "data" and inp.table:
-            path = inp.path.replace("'", "''")
-            sheet = f"'{inp.sheet}'" if inp.sheet else "NULL::VARCHAR"
+            sheet = literal(inp.sheet) if inp.sheet else "NULL::VARCHAR"
             # CSV tables leave `line` empty: rows are stored in file order, so the row id gives it for free.
             parts.append(
-                f"SELECT {i} AS src, '{path}' AS path, {sheet} AS sheet, coalesce(line, rowid + 2) AS line, "
+                f"SELECT {i} AS src, {literal(inp.path)} AS path, {sheet} AS sheet, coalesce(line, rowid + 2) AS line, "  # noqa: S608 - names from the code; user text via validate.sql
                 f"* EXCLUDE (line) FROM {inp.table}"
             )
     if not parts:
@@ -136,10 +136,7 @@ KEY = "model, scenario, region, variable, year"
 
 
 def _enum_type(con: duckdb.DuckDBPyConnection, sql: str) -> str:
-    values = sorted(r[0] for r in con.execute(sql).fetchall())
-    if not values:
-        return "VARCHAR"
-    return "ENUM(" + ", ".join("'" + v.replace("'", "''") + "'" for v in values) + ")"
+    return enum_type(sorted(r[0] for r in con.execute(sql).fetchall()))
 
 
 def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
@@ -147,7 +144,7 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
     # Key columns become ENUMs of the values seen: the same text to every reader, but grouping and joining on
     # them (duplicates, sums) runs on small integers, several times faster than on strings.
     enum = {
-        c: _enum_type(con, f"SELECT DISTINCT {c} FROM combos WHERE {c} IS NOT NULL")
+        c: _enum_type(con, f"SELECT DISTINCT {c} FROM combos WHERE {c} IS NOT NULL")  # noqa: S608 - names from the code; user text via validate.sql
         for c in ("model", "scenario", "region", "variable")
     }
     enum["unit"] = _enum_type(con, "SELECT DISTINCT target FROM unit_map WHERE target IS NOT NULL")
@@ -175,23 +172,23 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
     con.execute(f"CREATE OR REPLACE TEMP TABLE checked AS {sql}")
     # The contract's part lists in the same ENUM types, so sum joins never cast.
     con.execute(
-        f"CREATE OR REPLACE TEMP TABLE e_parts AS SELECT * FROM (SELECT TRY_CAST(total AS "
+        f"CREATE OR REPLACE TEMP TABLE e_parts AS SELECT * FROM (SELECT TRY_CAST(total AS "  # noqa: S608 - names from the code; user text via validate.sql
         f"{enum['variable']}) AS total, TRY_CAST(part AS {enum['variable']}) AS part, factor FROM c_parts) "
         "WHERE total IS NOT NULL AND part IS NOT NULL"
     )
     con.execute(
-        f"CREATE OR REPLACE TEMP TABLE e_region_parts AS SELECT * FROM (SELECT TRY_CAST(parent AS "
+        f"CREATE OR REPLACE TEMP TABLE e_region_parts AS SELECT * FROM (SELECT TRY_CAST(parent AS "  # noqa: S608 - names from the code; user text via validate.sql
         f"{enum['region']}) AS parent, TRY_CAST(part AS {enum['region']}) AS part FROM c_region_parts) "
         "WHERE parent IS NOT NULL AND part IS NOT NULL"
     )
     con.execute(
-        f"CREATE OR REPLACE TEMP TABLE e_variables AS SELECT * FROM (SELECT TRY_CAST(variable AS "
+        f"CREATE OR REPLACE TEMP TABLE e_variables AS SELECT * FROM (SELECT TRY_CAST(variable AS "  # noqa: S608 - names from the code; user text via validate.sql
         f"{enum['variable']}) AS variable, regions, unit FROM c_variables) WHERE variable IS NOT NULL"
     )
     # Repeats are rare: find the keys with a narrow aggregate, then look only at their rows.
-    con.execute(f"CREATE OR REPLACE TEMP TABLE dup_keys AS SELECT {KEY} FROM checked GROUP BY ALL HAVING count(*) > 1")
+    con.execute(f"CREATE OR REPLACE TEMP TABLE dup_keys AS SELECT {KEY} FROM checked GROUP BY ALL HAVING count(*) > 1")  # noqa: S608 - names from the code; user text via validate.sql
     con.execute(
-        "CREATE OR REPLACE TEMP TABLE dups AS SELECT c.model, c.scenario, c.region, c.variable, c.year, "
+        "CREATE OR REPLACE TEMP TABLE dups AS SELECT c.model, c.scenario, c.region, c.variable, c.year, "  # noqa: S608 - names from the code; user text via validate.sql
         "any_value(c.unit) AS unit, count(*) AS n, min(c.value) AS vmin, max(c.value) AS vmax, "
         "arg_min(c.src, (c.src, c.line)) AS src, arg_min(c.line, (c.src, c.line)) AS line, "
         "arg_max(c.src, (c.src, c.line)) AS src_last, arg_max(c.line, (c.src, c.line)) AS line_last "
@@ -208,8 +205,8 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
 def _insert(con: duckdb.DuckDBPyConnection, sql: str, severity: str) -> None:
     # Most checks leave severity to the rule table; one names a finer one itself (the spelling-only unit note).
     if " AS severity" not in sql:
-        sql = f"SELECT NULL::VARCHAR AS severity, * FROM ({sql})"
-    con.execute(f"INSERT INTO findings BY NAME SELECT * REPLACE ({severity} AS severity) FROM ({sql})")
+        sql = f"SELECT NULL::VARCHAR AS severity, * FROM ({sql})"  # noqa: S608 - names from the code; user text via validate.sql
+    con.execute(f"INSERT INTO findings BY NAME SELECT * REPLACE ({severity} AS severity) FROM ({sql})")  # noqa: S608 - names from the code; user text via validate.sql
 
 
 def _scenario_attributes(inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
@@ -264,15 +261,9 @@ def run_check(
     """Check submission files against a contract. Bad data becomes findings; this raises only for broken programs.
     `digests`: the files' sha256, in the order of `paths`, when the caller has computed them already."""
     con = con if con is not None else duckdb.connect(config={"autoinstall_known_extensions": False})
-    paths = [Path(p) for p in paths]
-    big = progress and sum(p.stat().st_size for p in paths if p.is_file()) > PROGRESS_BYTES
-    con.execute(
-        "CREATE OR REPLACE TEMP TABLE findings ("
-        + ", ".join(
-            f"{c} {'BIGINT' if c == 'line' else 'INTEGER' if c == 'year' else 'VARCHAR'}" for c in FINDING_COLUMNS
-        )
-        + ")"
-    )
+    files = [Path(p) for p in paths]
+    big = progress and sum(p.stat().st_size for p in files if p.is_file()) > PROGRESS_BYTES
+    con.execute(f"CREATE OR REPLACE TEMP TABLE findings ({finding_columns_ddl()})")
     timings: dict[str, float] = {}
     clock = [time.perf_counter()]
 
@@ -285,7 +276,7 @@ def run_check(
         _contract_tables(con, contract)
         lap("contract tables")
         inputs: list[InputFile] = []
-        for n, path in enumerate(paths):
+        for n, path in enumerate(files):
             inputs += read_file(con, path, f"obs_{os.getpid()}_{n}", digests[n] if digests else None)
         lap("read")
         step("checking rows")
@@ -317,7 +308,7 @@ def run_check(
         if extra:
             eff = effective_severity(contract)
             con.executemany(
-                f"INSERT INTO findings VALUES ({', '.join('?' * len(FINDING_COLUMNS))})",
+                f"INSERT INTO findings ({', '.join(FINDING_COLUMNS)}) VALUES ({', '.join('?' * len(FINDING_COLUMNS))})",  # noqa: S608 - names from the code; user text via validate.sql
                 [
                     tuple(f.to_dict()[c] if c != "severity" else eff.get(f.rule, f.severity) for c in FINDING_COLUMNS)
                     for f in extra
@@ -332,12 +323,14 @@ def run_check(
     counts = {s: 0 for s in SEVERITIES}
     for _, s, n in rule_counts:
         counts[s] = counts.get(s, 0) + n
-    rows = con.execute(
-        f"SELECT * EXCLUDE (rn) FROM (SELECT *, row_number() OVER (PARTITION BY rule ORDER BY path, line, year) AS rn "
-        f"FROM findings) WHERE rn <= {int(findings_per_rule)} "
-        "ORDER BY path NULLS FIRST, line NULLS LAST, rule, model, scenario, region, variable, year"
-    ).fetchall()
-    findings = [Finding.from_row(r) for r in rows]
+    findings = findings_from(
+        con.execute(
+            "SELECT * EXCLUDE (rn) FROM (SELECT *, row_number() OVER (PARTITION BY rule ORDER BY path, line, year) "
+            "AS rn FROM findings) WHERE rn <= ? "
+            "ORDER BY path NULLS FIRST, line NULLS LAST, rule, model, scenario, region, variable, year",
+            [int(findings_per_rule)],
+        )
+    )
     usable = con.execute("SELECT count(*) FROM checked").fetchall()[0][0]
     lap("collect")
     return CheckResult(
@@ -366,6 +359,6 @@ def effective_severity(contract: Contract) -> dict[str, str]:
 def _severity_case(contract: Contract) -> str:
     """SQL giving each finding its severity: a contract override, else the check's own, else the rule's default."""
     eff = effective_severity(contract)
-    by_rule = "CASE rule " + " ".join(f"WHEN '{r}' THEN '{s}'" for r, s in eff.items()) + " END"
-    forced = ", ".join(f"'{k}'" for k in contract.severity if k in eff) or "NULL"
+    by_rule = "CASE rule " + " ".join(f"WHEN {literal(r)} THEN {literal(s)}" for r, s in eff.items()) + " END"
+    forced = ", ".join(literal(k) for k in contract.severity if k in eff) or "NULL"
     return f"CASE WHEN rule IN ({forced}) THEN {by_rule} ELSE coalesce(severity, {by_rule}) END"

@@ -3,8 +3,10 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import cast
 
 from milepost.schema.contract import Contract
+from milepost.validate.outputs import save_workbook, writing
 from milepost.validate.readers import LONG_COLUMNS
 
 TEMPLATE_ROWS = 5000  # rows that carry the drop-down validation in the XLSX template
@@ -13,14 +15,17 @@ TEMPLATE_ROWS = 5000  # rows that carry the drop-down validation in the XLSX tem
 def write_template(contract: Contract, path: Path) -> Path:
     """Write the template; the format follows the suffix (.xlsx or .csv)."""
     if path.suffix.lower() == ".csv":
-        path.write_text(",".join(LONG_COLUMNS) + "\n", encoding="utf-8")
+        with writing(path):
+            path.write_text(",".join(LONG_COLUMNS) + "\n", encoding="utf-8")
         return path
     import openpyxl
     from openpyxl.styles import Font
+    from openpyxl.utils import get_column_letter
     from openpyxl.worksheet.datavalidation import DataValidation
+    from openpyxl.worksheet.worksheet import Worksheet
 
     wb = openpyxl.Workbook()
-    data = wb.active
+    data = cast(Worksheet, wb.active)  # a new workbook's active sheet is its one worksheet
     data.title = "data"
     data.append(list(LONG_COLUMNS))
     for c in data[1]:
@@ -36,8 +41,8 @@ def write_template(contract: Contract, path: Path) -> Path:
         lists.cell(row=1, column=j, value=name).font = Font(bold=True)
         for i, v in enumerate(values, start=2):
             lists.cell(row=i, column=j, value=v)
-        letter = lists.cell(row=1, column=j).column_letter
-        target = data.cell(row=1, column=LONG_COLUMNS.index(name) + 1).column_letter
+        letter = get_column_letter(j)
+        target = get_column_letter(LONG_COLUMNS.index(name) + 1)
         dv = DataValidation(
             type="list",
             formula1=f"=lists!${letter}$2:${letter}${len(values) + 1}",
@@ -50,7 +55,7 @@ def write_template(contract: Contract, path: Path) -> Path:
             dv.showErrorMessage = False  # ISO 3166 codes are allowed too, so the list is a suggestion only
         data.add_data_validation(dv)
         dv.add(f"{target}2:{target}{TEMPLATE_ROWS + 1}")
-    year_col = data.cell(row=1, column=LONG_COLUMNS.index("year") + 1).column_letter
+    year_col = get_column_letter(LONG_COLUMNS.index("year") + 1)
     yv = DataValidation(
         type="whole",
         operator="between",
@@ -63,20 +68,20 @@ def write_template(contract: Contract, path: Path) -> Path:
     yv.add(f"{year_col}2:{year_col}{TEMPLATE_ROWS + 1}")
     info = wb.create_sheet("variables")
     info.append(["variable", "unit", "required", "sign", "regions", "parts", "description"])
-    for v in contract.variables.values():
+    for var in contract.variables.values():
         info.append(
             [
-                v.name,
-                v.unit,
-                v.required,
-                v.sign,
-                v.regions,
-                ", ".join(f"{p.variable} × {p.factor:g}" for p in v.parts),
-                v.description,
+                var.name,
+                var.unit,
+                var.required,
+                var.sign,
+                var.regions,
+                ", ".join(f"{p.variable} × {p.factor:g}" for p in var.parts),
+                var.description,
             ]
         )
     sc = wb.create_sheet("scenarios")
     sc.append(["model", "scenario", "reference"])
     info["A1"].font = sc["A1"].font = Font(bold=True)
-    wb.save(path)
+    save_workbook(wb, path)
     return path

@@ -9,6 +9,7 @@ import streamlit as st
 
 from milepost.dashboard import connection, contracts, queries, ui
 from milepost.dashboard.checking import CheckedUpload
+from milepost.validate.errors import LoadError
 
 st.title("Self-check")
 st.write(
@@ -20,13 +21,16 @@ name = None
 if connection.db_path().exists():
     try:
         name = ui.query(queries.contract_name)
-    except duckdb.Error:
+    except (duckdb.Error, LoadError):
         name = None
 found = contracts.find(name)
 if found.contract is None:
     found = contracts.find("core")
     st.warning("Using the core contract: the database's contract is not available here.")
 contract = found.contract
+if contract is None:
+    st.error(f"No contract to check against: {found.source}.")
+    ui.stop()
 st.caption(f"Contract: {found.source}.")
 
 files = st.file_uploader("Files", type=["csv", "tsv", "xlsx", "parquet"], accept_multiple_files=True, key="check_files")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import pandas as pd
 import streamlit as st
 
 from milepost.dashboard import queries, ui
@@ -30,7 +31,10 @@ st.caption("Counts per rule are findings of any severity; errors/warnings/notes 
 
 st.subheader("Findings of one submission")
 ids = subs["id"].astype(int).tolist()
-labels = {int(r.id): f"#{r.id} {r.model} v{r.version} ({r.status})" for r in subs.itertuples()}
+versions = [f" v{int(v)}" if pd.notna(v) else "" for v in subs["version"]]  # rejected ones have none
+labels = {
+    int(i): f"#{i} {m}{v} ({s})" for i, m, v, s in zip(subs["id"], subs["model"], versions, subs["status"], strict=True)
+}
 with_findings = subs.loc[subs["errors"].fillna(0) + subs["warnings"].fillna(0) + subs["notes"].fillna(0) > 0, "id"]
 default_id = int(with_findings.iloc[0]) if len(with_findings) else ids[0]
 sid = ui.url_selectbox(

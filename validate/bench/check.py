@@ -33,7 +33,7 @@ def timed(cmd: list[str], repeat: int = 3, env: dict[str, str] | None = None) ->
     times, peaks, code = [], [], 0
     for _ in range(repeat):
         t = time.perf_counter()
-        proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=env)
+        proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=env)  # noqa: S603 - the bench's own argv lists, no shell
         _, status, usage = os.wait4(proc.pid, 0)
         times.append(time.perf_counter() - t)
         peaks.append(usage.ru_maxrss / 1024)  # kB -> MB on Linux
@@ -46,6 +46,7 @@ def clean_file(workdir: Path, rows: int = ROWS) -> Path:
     import duckdb
 
     from milepost.example_db.generate import write_many_scenarios
+    from milepost.validate.sql import literal, literal_list
 
     out = workdir / f"clean-{rows}.csv"
     if out.exists():
@@ -54,7 +55,8 @@ def clean_file(workdir: Path, rows: int = ROWS) -> Path:
     parts = write_many_scenarios(workdir / "clean-parts", n_scenarios=max(1, rows // per_scenario), fmt="csv")
     data = [str(p) for p in parts if "scenarios" not in p.name]
     duckdb.connect().execute(
-        f"COPY (SELECT * FROM read_csv({data!r}, header = true, all_varchar = true)) TO '{out}' (HEADER)"
+        f"COPY (SELECT * FROM read_csv({literal_list(data)}, header = true, all_varchar = true)) "  # noqa: S608 - paths via validate.sql
+        f"TO {literal(str(out))} (HEADER)"
     )
     return out
 

@@ -8,9 +8,8 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-import duckdb
-
-from milepost.dashboard import connection, queries
+from milepost.dashboard import queries
+from milepost.validate.store.database import Reader
 
 N_SCENARIOS = 3000
 REPEATS = 7
@@ -48,9 +47,8 @@ def _ratio(fn: Callable[[], Any], floor: Callable[[], Any], repeats: int = REPEA
     return statistics.median(p[0] for p in pairs), statistics.median(p[1] for p in pairs)
 
 
-def _on_cursor(con: duckdb.DuckDBPyConnection, fn: Callable[..., Any], *args: Any) -> Any:
-    cur = con.cursor()
-    cur.execute(f"USE {connection.CATALOG}")
+def _on_cursor(reader: Reader, fn: Callable[..., Any], *args: Any) -> Any:
+    cur = reader.cursor()
     try:
         return fn(cur, *args)
     finally:
@@ -61,7 +59,7 @@ def run(workdir: Path) -> list[dict[str, Any]]:
     """Time what the Screen and Rates pages query per interaction (default filters), and the per-version `choices`,
     each as a ratio to a full scan of the indicators table."""
     db = build(Path(workdir))
-    con = connection.open_read_only(db)
+    con = Reader(db)  # the dashboard's own reader (dashboard/connection.py caches one per file version)
     try:
         ch = _on_cursor(con, queries.choices)
         sel = queries.Selection()

@@ -37,8 +37,3 @@ class Context:
 def fmt(expr: str) -> str:
     """SQL rendering a number the way reports show it: up to 6 significant digits, no trailing zeros."""
     return f"(CASE WHEN abs({expr}) >= 1e5 THEN printf('%.0f', {expr}) ELSE printf('%.6g', {expr}) END)"
-
-
-def sql_str(s: str) -> str:
-    """A SQL string literal."""
-    return "'" + s.replace("'", "''") + "'"

@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from milepost.validate.checks.context import Context, sql_str
+from milepost.validate.checks.context import Context
+from milepost.validate.sql import literal
 
 
 def check_missing_required(ctx: Context) -> list[str]:
@@ -13,9 +14,9 @@ def check_missing_required(ctx: Context) -> list[str]:
     if not years or not regions:
         return []
     year_list = ", ".join(str(y) for y in years)
-    region_list = ", ".join(sql_str(r) for r in regions)
+    region_list = ", ".join(literal(r) for r in regions)
     return [
-        "WITH s AS (SELECT model, scenario, min(src) AS src FROM combos WHERE trim(model) <> '' "
+        "WITH s AS (SELECT model, scenario, min(src) AS src FROM combos WHERE trim(model) <> '' "  # noqa: S608 - names from the code; contract text via validate.sql
         "AND trim(scenario) <> '' GROUP BY ALL), "
         f"y AS (SELECT unnest([{year_list}]) AS year), g AS (SELECT unnest([{region_list}]) AS region), "
         "need AS (SELECT s.*, v.variable, v.unit, y.year, g.region FROM s CROSS JOIN "

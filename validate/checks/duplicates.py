@@ -18,10 +18,12 @@ def check_duplicates(ctx: Context) -> list[str]:
     row = "i.path, i.sheet, d.line, d.model, d.scenario, d.region, d.variable, d.unit, d.year"
     src = "FROM dups d JOIN c_inputs i ON i.src = d.src JOIN c_inputs j ON j.src = d.src_last"
     return [
-        f"SELECT 'duplicate-row' AS rule, {row}, {fmt('d.vmin')} AS value, 'one row per key' AS expected, "
+        "SELECT 'duplicate-row' AS rule, 'value' AS column_name, "
+        f"{row}, {fmt('d.vmin')} AS value, 'one row per key' AS expected, "
         f"'the same key and value appear ' || d.n || ' times (' || {where} || ')' AS message, "
         f"'Delete the repeated rows.' AS hint {src} WHERE {same}",
-        f"SELECT 'conflicting-row' AS rule, {row}, {fmt('d.vmin')} || ' … ' || {fmt('d.vmax')} AS value, "
+        "SELECT 'conflicting-row' AS rule, 'value' AS column_name, "
+        f"{row}, {fmt('d.vmin')} || ' … ' || {fmt('d.vmax')} AS value, "
         "'one value per key' AS expected, "
         f"'the same key appears ' || d.n || ' times with different values (' || {where} || ')' AS message, "
         f"'Keep one row per model, scenario, region, variable and year.' AS hint {src} WHERE NOT {same}",

@@ -5,7 +5,8 @@ from __future__ import annotations
 import difflib
 from collections.abc import Callable
 
-from milepost.validate.checks.context import Context, sql_str
+from milepost.validate.checks.context import Context
+from milepost.validate.sql import literal
 
 _ROW = "o.path, o.sheet, o.line, o.model, o.scenario, o.region, o.variable, o.unit, o.year"
 
@@ -27,14 +28,14 @@ def _hints_table(ctx: Context, table: str, column: str, known: list[str], is_kno
     names = [
         r[0]
         for r in ctx.con.execute(
-            f"SELECT DISTINCT {column} FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> ''"
+            f"SELECT DISTINCT {column} FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> ''"  # noqa: S608 - names from the code; contract text via validate.sql
         ).fetchall()
     ]
     unknown = [n for n in names if not is_known(n)]
     rows = [(n, suggest(n, known)) for n in unknown]
     ctx.con.execute(f"CREATE OR REPLACE TEMP TABLE {table} (name VARCHAR, suggestion VARCHAR)")
     if rows:
-        ctx.con.executemany(f"INSERT INTO {table} VALUES (?, ?)", rows)
+        ctx.con.executemany(f"INSERT INTO {table} VALUES (?, ?)", rows)  # noqa: S608 - names from the code; contract text via validate.sql
     return bool(rows)
 
 
@@ -48,10 +49,11 @@ def check_unknown_region(ctx: Context) -> list[str]:
     if c.countries:
         listing += " or an ISO 3166-1 alpha-3 country code"
     return [
-        f"SELECT 'unknown-region' AS rule, {_ROW}, o.region AS value, {sql_str(listing)} AS expected, "
+        "SELECT 'unknown-region' AS rule, 'region' AS column_name, "  # noqa: S608 - names from the code; contract text via validate.sql
+        f"{_ROW}, o.region AS value, {literal(listing)} AS expected, "
         "'region ' || o.region || ' is not in the contract' AS message, "
         "CASE WHEN h.suggestion IS NOT NULL THEN 'Did you mean ' || h.suggestion || '?' "
-        f"ELSE 'Use one of: ' || {sql_str(listing)} || '.' END AS hint "
+        f"ELSE 'Use one of: ' || {literal(listing)} || '.' END AS hint "
         "FROM obs o JOIN unknown_regions h ON o.region = h.name"
     ]
 
@@ -62,7 +64,7 @@ def check_unknown_variable(ctx: Context) -> list[str]:
     if not _hints_table(ctx, "unknown_variables", "variable", known, lambda n: n in ctx.contract.variables):
         return []
     return [
-        f"SELECT 'unknown-variable' AS rule, {_ROW}, o.variable AS value, "
+        f"SELECT 'unknown-variable' AS rule, 'variable' AS column_name, {_ROW}, o.variable AS value, "  # noqa: S608 - names from the code; contract text via validate.sql
         "coalesce(h.suggestion, 'a contract variable') AS expected, "
         "'variable ' || o.variable || ' is not in the contract' AS message, "
         "CASE WHEN h.suggestion IS NOT NULL THEN 'Did you mean ' || h.suggestion || '?' "

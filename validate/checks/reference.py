@@ -11,7 +11,8 @@ def check_base_year(ctx: Context) -> list[str]:
     """base-year-deviation: |value - reference| > base_year_relative * |reference| (absolute floor if it is 0)."""
     tol = ctx.contract.tolerance.base_year_relative
     return [
-        f"SELECT 'base-year-deviation' AS rule, {_ROW}, {fmt('c.value')} AS value, {fmt('r.value')} AS expected, "
+        "SELECT 'base-year-deviation' AS rule, 'value' AS column_name, "
+        f"{_ROW}, {fmt('c.value')} AS value, {fmt('r.value')} AS expected, "
         "c.variable || ' in ' || c.region || ' ' || c.year || ' is ' || " + fmt("c.value") + " || ' ' || c.unit "
         "|| ', the reference is ' || " + fmt("r.value") + " || CASE WHEN r.value = 0 THEN '' ELSE ' (' || "
         "printf('%+.1f', (c.value - r.value) / abs(r.value) * 100) || ' %)' END "

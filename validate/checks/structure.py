@@ -2,11 +2,12 @@
 
 from __future__ import annotations
 
-from milepost.validate.checks.context import Context, sql_str
+from milepost.validate.checks.context import Context
 from milepost.validate.findings import Finding, shorten
 from milepost.validate.readers import KEY_TEXT, LONG_COLUMNS, MISSING_TOKENS
+from milepost.validate.sql import literal
 
-_MISSING = "(" + ", ".join(sql_str(t) for t in MISSING_TOKENS) + ")"
+_MISSING = "(" + ", ".join(literal(t) for t in MISSING_TOKENS) + ")"
 _ROW = "path, sheet, line, model, scenario, region, variable, unit, year"
 
 
@@ -94,18 +95,18 @@ def check_missing_cells(ctx: Context) -> list[str]:
     no_value = f"(value IS NULL AND (value_raw IS NULL OR lower(value_raw) IN {_MISSING}))"
     no_year = "(year IS NULL AND (year_raw IS NULL OR year_raw = ''))"
     # One scan picks the rows with any gap; the per-column split then runs on those few rows only.
-    gaps = ctx.con.execute(f"SELECT count(*) FROM combos WHERE {empty}").fetchall()[0][0]
+    gaps = ctx.con.execute(f"SELECT count(*) FROM combos WHERE {empty}").fetchall()[0][0]  # noqa: S608 - names from the code; contract text via validate.sql
     where = f"{empty} OR {no_value} OR {no_year}" if gaps else f"{no_value} OR {no_year}"
-    bad = f"WITH bad AS MATERIALIZED (SELECT * FROM obs WHERE {where}) "
+    bad = f"WITH bad AS MATERIALIZED (SELECT * FROM obs WHERE {where}) "  # noqa: S608 - names from the code; contract text via validate.sql
     key_tests = [
-        f"SELECT {_ROW}, {sql_str(c)} AS col, NULL AS raw FROM bad WHERE {c} IS NULL OR trim({c}) = ''"
+        f"SELECT {_ROW}, {literal(c)} AS col, NULL AS raw FROM bad WHERE {c} IS NULL OR trim({c}) = ''"  # noqa: S608 - names from the code; contract text via validate.sql
         for c in KEY_TEXT
     ]
-    year_test = f"SELECT {_ROW}, 'year' AS col, NULL AS raw FROM bad WHERE {no_year}"
-    value_test = f"SELECT {_ROW}, 'value' AS col, value_raw AS raw FROM bad WHERE {no_value}"
+    year_test = f"SELECT {_ROW}, 'year' AS col, NULL AS raw FROM bad WHERE {no_year}"  # noqa: S608 - names from the code; contract text via validate.sql
+    value_test = f"SELECT {_ROW}, 'value' AS col, value_raw AS raw FROM bad WHERE {no_value}"  # noqa: S608 - names from the code; contract text via validate.sql
     union = " UNION ALL ".join([*key_tests, year_test, value_test])
     return [
-        bad + f"SELECT 'missing-value' AS rule, {_ROW}, "
+        bad + f"SELECT 'missing-value' AS rule, {_ROW}, col AS column_name, "  # noqa: S608 - names from the code; contract text via validate.sql
         "CASE WHEN raw IS NULL OR trim(raw) = '' THEN 'empty ' || col || ' cell' "
         "ELSE col || ' ' || raw || ' marks a missing value' END AS message, raw AS value, 'a ' || col AS expected, "
         "CASE WHEN col = 'value' THEN 'Leave out rows without a value, or fill it in.' "
@@ -119,11 +120,13 @@ def check_bad_year(ctx: Context) -> list[str]:
     c = ctx.contract
     rng = f"{c.first_year}–{c.last_year}"
     return [
-        f"SELECT 'bad-year' AS rule, {_ROW}, year_raw AS value, 'a whole year in {rng}' AS expected, "
+        "SELECT 'bad-year' AS rule, 'year' AS column_name, "  # noqa: S608 - names from the code; contract text via validate.sql
+        f"{_ROW}, year_raw AS value, 'a whole year in {rng}' AS expected, "
         "'year ' || year_raw || ' is not a whole number' AS message, "
         "'Write years as whole numbers, e.g. 2030.' AS hint "
         "FROM obs WHERE year IS NULL AND year_raw IS NOT NULL AND year_raw <> ''",
-        f"SELECT 'bad-year' AS rule, {_ROW}, CAST(year AS VARCHAR) AS value, '{rng}' AS expected, "
+        "SELECT 'bad-year' AS rule, 'year' AS column_name, "  # noqa: S608 - names from the code; contract text via validate.sql
+        f"{_ROW}, CAST(year AS VARCHAR) AS value, '{rng}' AS expected, "
         f"'year ' || year || ' is outside the contract''s range {rng}' AS message, "
         f"'Report only the years {rng}.' AS hint "
         f"FROM obs WHERE year NOT BETWEEN {c.first_year} AND {c.last_year}",
@@ -133,7 +136,8 @@ def check_bad_year(ctx: Context) -> list[str]:
 def check_bad_value(ctx: Context) -> list[str]:
     """bad-value: a value that is text, infinite or too large for a double."""
     return [
-        f"SELECT 'bad-value' AS rule, {_ROW}, value_raw AS value, 'a finite number' AS expected, "
+        "SELECT 'bad-value' AS rule, 'value' AS column_name, "  # noqa: S608 - names from the code; contract text via validate.sql
+        f"{_ROW}, value_raw AS value, 'a finite number' AS expected, "
         "'value ' || value_raw || ' is not a finite number' AS message, "
         "CASE WHEN TRY_CAST(value_raw AS DOUBLE) IS NOT NULL THEN 'Infinite or overflowing values cannot be "
         "compared; check the model output.' ELSE 'Use a plain number with a decimal point, e.g. 1234.5.' END AS hint "

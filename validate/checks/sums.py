@@ -25,7 +25,7 @@ def check_sum_of_parts(ctx: Context) -> list[str]:
         "SELECT DISTINCT total, total AS variable, 1.0, true FROM e_parts"
     )
     failing = (
-        "WITH p AS (SELECT c.model, c.scenario, c.region, c.year, r.total, "
+        "WITH p AS (SELECT c.model, c.scenario, c.region, c.year, r.total, "  # noqa: S608 - names from the code; contract text via validate.sql
         "sum(c.value * r.factor) FILTER (WHERE NOT r.is_total) AS expected, count(*) FILTER (WHERE NOT r.is_total) "
         "AS n, any_value(c.value) FILTER (WHERE r.is_total) AS reported, any_value(c.src) FILTER (WHERE r.is_total) "
         "AS src, any_value(c.line) FILTER (WHERE r.is_total) AS line, any_value(c.unit) FILTER (WHERE r.is_total) "
@@ -40,7 +40,8 @@ def check_sum_of_parts(ctx: Context) -> list[str]:
         "GROUP BY ALL) "
     )
     return [
-        failing + "SELECT 'sum-of-parts' AS rule, i.path, i.sheet, t.line, t.model, t.scenario, t.region, "
+        failing + "SELECT 'sum-of-parts' AS rule, 'value' AS column_name, "
+        "i.path, i.sheet, t.line, t.model, t.scenario, t.region, "
         f"t.total AS variable, t.unit, t.year, {fmt('t.reported')} AS value, {fmt('t.expected')} AS expected, "
         "t.total || ' is ' || "
         + fmt("t.reported")
@@ -60,7 +61,7 @@ def check_sum_of_regions(ctx: Context) -> list[str]:
         "SELECT DISTINCT parent, parent AS region, true FROM e_region_parts"
     )
     grouped = (
-        "SELECT c.model, c.scenario, r.parent, c.variable, c.year, any_value(v.regions) AS rule_kind, "
+        "SELECT c.model, c.scenario, r.parent, c.variable, c.year, any_value(v.regions) AS rule_kind, "  # noqa: S608 - names from the code; contract text via validate.sql
         "any_value(c.unit) AS unit, "
         "sum(c.value) FILTER (WHERE NOT r.is_total) AS expected, "
         "sum(abs(c.value)) FILTER (WHERE NOT r.is_total) AS gross, count(*) FILTER (WHERE NOT r.is_total) AS n, "
@@ -71,7 +72,7 @@ def check_sum_of_regions(ctx: Context) -> list[str]:
         "JOIN e_variables v ON c.variable = v.variable WHERE v.regions IN ('sum', 'zero') GROUP BY ALL"
     )
     bad = (
-        f"WITH f AS ({grouped}), bad AS MATERIALIZED (SELECT f.* FROM f "
+        f"WITH f AS ({grouped}), bad AS MATERIALIZED (SELECT f.* FROM f "  # noqa: S608 - names from the code; contract text via validate.sql
         "JOIN c_region_counts k ON f.parent = k.parent AND f.n = k.n "
         f"WHERE (f.rule_kind = 'sum' AND f.reported IS NOT NULL AND abs(f.reported - f.expected) > "
         f"greatest({ctx.tol_rel} * abs(f.expected), {ctx.tol_abs})) OR (f.rule_kind = 'zero' AND "
@@ -83,7 +84,7 @@ def check_sum_of_regions(ctx: Context) -> list[str]:
         "GROUP BY ALL) "
     )
     return [
-        bad + "SELECT 'sum-of-regions' AS rule, i.path, i.sheet, b.line, b.model, "
+        bad + "SELECT 'sum-of-regions' AS rule, 'value' AS column_name, i.path, i.sheet, b.line, b.model, "
         "b.scenario, b.parent AS region, b.variable, b.unit, b.year, "
         "CASE WHEN b.rule_kind = 'sum' THEN " + fmt("b.reported") + " ELSE " + fmt("b.expected") + " END AS value, "
         "CASE WHEN b.rule_kind = 'sum' THEN " + fmt("b.expected") + " ELSE '0' END AS expected, "

@@ -20,7 +20,7 @@ def build_unit_map(ctx: Context) -> bool:
         "WHERE o.unit IS NOT NULL AND trim(o.unit) <> ''"
     ).fetchall()
     units = ctx.contract.units
-    rows = []
+    rows: list[tuple[str, str, float | None, str, str, str | None]] = []
     for variable, unit in pairs:
         target = ctx.contract.variables[variable].unit
         if unit == target:
@@ -49,12 +49,13 @@ def check_units(ctx: Context) -> list[str]:
     if not build_unit_map(ctx):
         return []
     return [
-        f"SELECT 'wrong-unit' AS rule, {_ROW}, o.unit AS value, m.target AS expected, "
+        f"SELECT 'wrong-unit' AS rule, 'unit' AS column_name, {_ROW}, o.unit AS value, m.target AS expected, "  # noqa: S608 - names from the code; contract text via validate.sql
         "'unit ' || o.unit || ' does not convert to ' || m.target || ' (' || o.variable || ')' AS message, "
         "'Report ' || o.variable || ' in ' || m.target || '.' AS hint "
         "FROM obs o JOIN unit_map m USING (variable, unit) WHERE m.status = 'wrong'",
         # One finding per file and (variable, unit): a file reported in Gt instead of Mt is one fact, not 10,000.
-        "SELECT 'converted-unit' AS rule, CASE WHEN any_value(m.status) = 'spelling' THEN 'note' END AS severity, "
+        "SELECT 'converted-unit' AS rule, 'unit' AS column_name, "
+        "CASE WHEN any_value(m.status) = 'spelling' THEN 'note' END AS severity, "
         "o.path, any_value(o.sheet) AS sheet, min(o.line) AS line, o.variable, o.unit, o.unit AS value, "
         "any_value(m.target) AS expected, "
         "CASE WHEN any_value(m.status) = 'spelling' THEN 'unit ' || o.unit || ' read as ' || any_value(m.target) "

@@ -3,10 +3,13 @@
 from __future__ import annotations
 
 import importlib
+import sys
 
 import typer
 
 from milepost.validate import __version__
+from milepost.validate.cli.common import echo, internal_error
+from milepost.validate.errors import EXIT_INTERRUPTED
 
 # Each module exposes register(app). Keep the order: it is the order of `milepost --help`.
 COMMAND_MODULES = ("check", "contract", "db", "dashboard")
@@ -22,7 +25,7 @@ app = typer.Typer(
 
 def _version(value: bool) -> None:
     if value:
-        typer.echo(f"milepost {__version__}")
+        echo(f"milepost {__version__}")
         raise typer.Exit()
 
 
@@ -38,5 +41,15 @@ for _name in COMMAND_MODULES:
 
 
 def main() -> None:
-    """Console-script entry point."""
-    app()
+    """Console-script entry point. Commands translate their own errors (`common.handle_errors`); this is the last
+    resort for anything that escapes Typer itself, so that no command ever ends in a traceback."""
+    try:
+        app()
+    except KeyboardInterrupt:
+        sys.stderr.write("Interrupted.\n")
+        sys.exit(EXIT_INTERRUPTED)
+    except Exception as e:
+        try:
+            internal_error(e)
+        except typer.Exit as done:
+            sys.exit(done.exit_code)

@@ -2,14 +2,23 @@
 
 from __future__ import annotations
 
-import sys
 from enum import StrEnum
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
-from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, ContractOption, fail, handle_errors, load_contract
+from milepost.validate.cli.common import (
+    EXIT_FINDINGS,
+    EXIT_OK,
+    ContractOption,
+    echo,
+    fail,
+    handle_errors,
+    load_contract,
+    standard_output,
+)
+from milepost.validate.outputs import writing
 
 
 class Format(StrEnum):
@@ -48,7 +57,8 @@ def check(
     ] = FailOn.error,
     limit: Annotated[int, typer.Option(help="Findings shown in the text report.", min=0)] = 200,
 ) -> None:
-    """Check submission files against the contract. Exit 0: passed; 1: findings at the fail level; 2: usage error."""
+    """Check submission files against the contract. Exit 0: passed; 1: findings at the fail level; 2: usage error;
+    4: the report could not be written."""
     from milepost.validate.reports import print_text, to_json, to_text, to_xlsx
     from milepost.validate.runner import run_check
 
@@ -59,21 +69,23 @@ def check(
     if fmt is Format.json:
         text = to_json(result, fail_on.value)
         if output:
-            output.write_text(text + "\n", encoding="utf-8")
+            with writing(output):
+                output.write_text(text + "\n", encoding="utf-8")
         else:
-            sys.stdout.write(text + "\n")
-    elif fmt is Format.xlsx:
-        assert output is not None
+            echo(text)
+    elif fmt is Format.xlsx and output is not None:  # without --output it stopped above
         to_xlsx(result, output, fail_on.value)
-        typer.echo(f"wrote {output}", err=True)
+        echo(f"wrote {output}", err=True)
     if fmt is Format.text:
         if output:
-            output.write_text("\n".join(to_text(result, fail_on.value, limit)) + "\n", encoding="utf-8")
+            with writing(output):
+                output.write_text("\n".join(to_text(result, fail_on.value, limit)) + "\n", encoding="utf-8")
         else:
-            print_text(result, fail_on.value, limit)
+            with standard_output():
+                print_text(result, fail_on.value, limit)
     elif output is not None or fmt is Format.json:
         verdict = "passed" if result.passed(fail_on.value) else "failed"
-        typer.echo(
+        echo(
             f"{verdict}: {result.counts['error']} errors, {result.counts['warning']} warnings, "
             f"{result.counts['note']} notes in {result.rows} rows",
             err=True,
@@ -81,12 +93,13 @@ def check(
     raise typer.Exit(EXIT_OK if result.passed(fail_on.value) else EXIT_FINDINGS)
 
 
+@handle_errors
 def rules() -> None:
     """List every rule id with its default severity and meaning."""
     from milepost.validate.findings import RULES
 
     for r in RULES.values():
-        typer.echo(f"{r.id:<22}{r.severity:<9}{r.category:<10}{r.summary}")
+        echo(f"{r.id:<22}{r.severity:<9}{r.category:<10}{r.summary}")
 
 
 def register(app: typer.Typer) -> None:

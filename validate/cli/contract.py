@@ -8,7 +8,7 @@ from typing import Annotated
 
 import typer
 
-from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, TextJson, fail, handle_errors, load_contract
+from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, TextJson, echo, fail, handle_errors, load_contract
 
 contract_app = typer.Typer(
     help="Inspect a contract: lint it, show it resolved, or write a submission template.", no_args_is_help=True
@@ -29,11 +29,11 @@ def lint_cmd(directory: DirArg = None) -> None:
     c = load_contract(directory, strict=False)
     problems = lint(c)
     for p in problems:
-        typer.echo(finding_line(p))
+        echo(finding_line(p))
     if problems:
-        typer.echo(f"FAILED: contract {c.name} has {len(problems)} problem(s)")
+        echo(f"FAILED: contract {c.name} has {len(problems)} problem(s)")
         raise typer.Exit(EXIT_FINDINGS)
-    typer.echo(
+    echo(
         f"PASSED: contract {c.name} ({c.hash[:12]}): {len(c.variables)} variables, {len(c.regions)} regions, "
         f"{len(c.reference)} reference values, {len(c.bounds)} bounds"
     )
@@ -48,30 +48,30 @@ def show_cmd(
     """Print the resolved contract (after `extends`), with its hash."""
     c = load_contract(directory, strict=False)
     if fmt is TextJson.json:
-        typer.echo(json.dumps(c.to_dict(), indent=2, ensure_ascii=False))
+        echo(json.dumps(c.to_dict(), indent=2, ensure_ascii=False))
         return
-    typer.echo(f"contract {c.name}  hash {c.hash}")
-    typer.echo(f"  {c.description}")
-    typer.echo(f"  sources: {' <- '.join(c.sources)}")
-    typer.echo(
+    echo(f"contract {c.name}  hash {c.hash}")
+    echo(f"  {c.description}")
+    echo(f"  sources: {' <- '.join(c.sources)}")
+    echo(
         f"  years {c.first_year}–{c.last_year}, base {c.base_year}, milestones "
         f"{', '.join(map(str, c.milestones))}; required in {', '.join(c.required_regions)}"
     )
     t = c.tolerance
-    typer.echo(
+    echo(
         f"  tolerance: sums ±{t.sum_relative * 100:g} % (floor {t.sum_absolute:g}), base year "
         f"±{t.base_year_relative * 100:g} %; GWP set {c.gwp_set}; discount rate {c.discount_rate:g} %/yr"
     )
-    typer.echo("")
-    typer.echo(f"{'variable':<34}{'unit':<22}{'req':<5}{'sign':<14}{'regions':<8}parts")
+    echo("")
+    echo(f"{'variable':<34}{'unit':<22}{'req':<5}{'sign':<14}{'regions':<8}parts")
     for v in c.variables.values():
         parts = ", ".join(p.variable + (f" ×{p.factor:g}" if p.factor != 1 else "") for p in v.parts)
-        typer.echo(f"{v.name:<34}{v.unit:<22}{'yes' if v.required else '':<5}{v.sign:<14}{v.regions:<8}{parts}")
-    typer.echo("")
+        echo(f"{v.name:<34}{v.unit:<22}{'yes' if v.required else '':<5}{v.sign:<14}{v.regions:<8}{parts}")
+    echo("")
     for r in c.regions.values():
-        typer.echo(f"region {r.name}" + (f" = {' + '.join(r.parts)}" if r.parts else ""))
+        echo(f"region {r.name}" + (f" = {' + '.join(r.parts)}" if r.parts else ""))
     if c.countries:
-        typer.echo("regions may also be ISO 3166-1 alpha-3 country codes")
+        echo("regions may also be ISO 3166-1 alpha-3 country codes")
 
 
 @contract_app.command("template")
@@ -89,7 +89,7 @@ def template_cmd(
         fail(f"{output}: the template is written as .xlsx or .csv")
     c = load_contract(directory)
     write_template(c, output)
-    typer.echo(f"wrote {output} for contract {c.name}")
+    echo(f"wrote {output} for contract {c.name}")
 
 
 def register(app: typer.Typer) -> None:

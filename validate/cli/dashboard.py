@@ -9,7 +9,7 @@ from typing import Annotated
 
 import typer
 
-from milepost.validate.cli.common import fail, handle_errors
+from milepost.validate.cli.common import echo, fail, handle_errors
 
 MAX_UPLOAD_MB = 50
 
@@ -88,15 +88,16 @@ def register(app: typer.Typer) -> None:
         ] = None,
     ) -> None:
         """Serve the reviewer dashboard: screen scenarios by a milestone value, compare rates and costs per band."""
-        from milepost.validate.store.database import default_db_path
+        from milepost.validate.store.database import Reader, default_db_path
 
         path = default_db_path(db)
-        if not path.is_file():
-            fail(f"no database at {path} (create one with `milepost ingest`)")
+        # Open it once here, as the dashboard will: a missing, damaged or foreign file stops the command with exit
+        # code 3 instead of an error page in the browser.
+        Reader(path).close()
         if contract is not None and not (contract / "contract.toml").is_file():
             fail(f"contract folder {contract} has no contract.toml")
         argv, env = streamlit_command(path, port, address, contract)
-        typer.echo(f"Milepost dashboard on http://{address}:{port}  (database {path}, read-only; Ctrl+C stops)")
+        echo(f"Milepost dashboard on http://{address}:{port}  (database {path}, read-only; Ctrl+C stops)")
         sys.stdout.flush()
         # become the server process, so Ctrl+C and a terminating parent reach streamlit without a middleman
-        os.execve(argv[0], argv, env)
+        os.execve(argv[0], argv, env)  # noqa: S606 - streamlit via this interpreter, argv built above, no shell

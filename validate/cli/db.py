@@ -3,14 +3,13 @@
 from __future__ import annotations
 
 import json
-import sys
 from enum import StrEnum
 from pathlib import Path
 from typing import Annotated, Any
 
 import typer
 
-from milepost.validate.cli.common import EXIT_OK, ContractOption, TextJson, fail, handle_errors, load_contract
+from milepost.validate.cli.common import EXIT_OK, ContractOption, TextJson, echo, fail, handle_errors, load_contract
 
 DbOption = Annotated[
     Path | None,
@@ -36,7 +35,7 @@ class ExportFormat(StrEnum):
 
 
 def _echo_json(payload: Any) -> None:
-    sys.stdout.write(json.dumps(payload, indent=2, default=str) + "\n")
+    echo(json.dumps(payload, indent=2, default=str))
 
 
 def _scenario_list(names: list[str], limit: int = 6) -> str:
@@ -72,7 +71,8 @@ def ingest_cmd(
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Report format.")] = TextJson.text,
     limit: Annotated[int, typer.Option(help="Findings listed for a rejected submission.", min=0)] = 20,
 ) -> None:
-    """Check one submission and store it. Exit 0: stored (or already stored); 1: rejected; 2: usage error."""
+    """Check one submission and store it. Exit 0: stored (or already stored); 1: rejected; 2: usage error;
+    3: the database could not be written (or another ingest held it longer than --wait)."""
     from milepost.validate.reports import finding_line
     from milepost.validate.store.database import default_db_path, warn
     from milepost.validate.store.ingest import ingest
@@ -98,41 +98,41 @@ def ingest_cmd(
     )
     if result.status == "unchanged":
         if result.recomputed:
-            typer.echo(f"Unchanged: {result.reason}; no submission was written to {result.db}.")
-            typer.echo(recomputed)
+            echo(f"Unchanged: {result.reason}; no submission was written to {result.db}.")
+            echo(recomputed)
         else:
-            typer.echo(f"Unchanged: {result.reason}; nothing was written to {result.db}.")
+            echo(f"Unchanged: {result.reason}; nothing was written to {result.db}.")
         raise typer.Exit(result.exit_code)
     if result.recomputed:
-        typer.echo(recomputed)
+        echo(recomputed)
     n = len(result.scenarios)
     scen = f"{n} scenario{'s' if n != 1 else ''}" + (f" ({_scenario_list(result.scenarios)})" if n else "")
     counts = result.counts
     tally = f"{counts['error']} errors, {counts['warning']} warnings, {counts['note']} notes"
     if result.status == "accepted":
-        typer.echo(
+        echo(
             f"Accepted as submission {result.submission_id}: model {result.model}, {scen}, "
             f"{result.rows:,} rows stored in {result.db}."
         )
         if result.replaced:
             older = ", ".join(f"{r['scenario']} (submission {r['submission_id']})" for r in result.replaced)
-            typer.echo(f"New version of: {older}; the older versions are kept as history.")
+            echo(f"New version of: {older}; the older versions are kept as history.")
         if result.superseded:
-            typer.echo(f"Now wholly superseded: submission {', '.join(map(str, result.superseded))}.")
+            echo(f"Now wholly superseded: submission {', '.join(map(str, result.superseded))}.")
         if result.refreshed:
             names = ", ".join(r["scenario"] for r in result.refreshed)
-            typer.echo(f"Indicators recomputed against the new reference for: {names}.")
-        typer.echo(f"Findings: {tally} (stored with the submission).")
+            echo(f"Indicators recomputed against the new reference for: {names}.")
+        echo(f"Findings: {tally} (stored with the submission).")
         raise typer.Exit(EXIT_OK)
-    typer.echo(f"Rejected as submission {result.submission_id}: model {result.model or '-'}, {scen}: {result.reason}.")
+    echo(f"Rejected as submission {result.submission_id}: model {result.model or '-'}, {scen}: {result.reason}.")
     for f in result.findings[:limit]:
-        typer.echo(finding_line(f))
+        echo(finding_line(f))
     if len(result.findings) > limit or counts["error"] + counts["warning"] > limit:
-        typer.echo(
+        echo(
             f"... all findings are stored: milepost export --what findings --submission "
             f"{result.submission_id} --format csv -o findings.csv"
         )
-    typer.echo(f"Findings: {tally}.")
+    echo(f"Findings: {tally}.")
     raise typer.Exit(result.exit_code)
 
 
@@ -150,18 +150,18 @@ def submissions_cmd(
         _echo_json(rows)
         return
     if not rows:
-        typer.echo("No submissions yet.")
+        echo("No submissions yet.")
         return
     header = (
         f"{'id':>4}  {'status':<16}  {'model':<16}  {'ver':>3}  {'scen':>4}  {'rows':>10}  "
         f"{'err':>5}  {'warn':>5}  {'submitted (UTC)':<19}  {'by':<12}  files"
     )
-    typer.echo(header)
+    echo(header)
     for r in rows:
         status = r["status"] + (f" by {r['superseded_by']}" if r["superseded_by"] else "")
         ver = f"v{r['version']}" if r["version"] else "-"
         files = ", ".join(f["name"] for f in r["files"])
-        typer.echo(
+        echo(
             f"{r['id']:>4}  {status:<16}  {(r['model'] or '-'):<16}  {ver:>3}  {len(r['scenarios']):>4}  "
             f"{r['rows']:>10,}  {r['errors']:>5}  {r['warnings']:>5}  {r['submitted_at'] or '-':<19}  "
             f"{(r['submitted_by'] or '-'):<12}  {files}"
@@ -195,7 +195,7 @@ def export_cmd(
 
     filters = Filters(model or (), scenario or (), region or (), variable or (), submission or ())
     n = export(default_db_path(db), what.value, fmt.value, output, filters, on_warning=warn)
-    typer.echo(f"Wrote {n:,} rows to {output}.", err=True)
+    echo(f"Wrote {n:,} rows to {output}.", err=True)
 
 
 @handle_errors
@@ -211,7 +211,7 @@ def snapshot_cmd(
 
     manifest = snapshot(default_db_path(db), directory)
     t = manifest["tables"]
-    typer.echo(
+    echo(
         f"Wrote {len(manifest['files'])} files to {directory}: {t['data']['rows']:,} data rows, "
         f"{t['indicators']['rows']:,} indicator rows, {t['scenarios']['rows']:,} scenarios; "
         f"manifest.json lists their sha256."
@@ -251,29 +251,29 @@ def diff_cmd(
         _echo_json(d.to_dict())
         return
     n = d.counts
-    typer.echo(
+    echo(
         f"Submission {a} -> {b}: {n['added']:,} added, {n['removed']:,} removed, {n['changed']:,} changed "
         f"beyond tolerance (relative {rel:g}, absolute {ab:g}), {n['same']:,} unchanged."
     )
     for side, names in ((a, d.only_a), (b, d.only_b)):
         if names:
             note = " (not compared: --common)" if common else ""
-            typer.echo(f"Scenarios only in {side}{note}: {_scenario_list(names)}")
+            echo(f"Scenarios only in {side}{note}: {_scenario_list(names)}")
     for kind, sign in (("added", "+"), ("removed", "-")):
         for r in getattr(d, kind):
-            typer.echo(
+            echo(
                 f"{sign} {r['model']} | {r['scenario']} | {r['region']} | {r['variable']} | {r['year']}: "
                 f"{r['value']:g} {r['unit']}"
             )
     for r in d.changed:
         units = r["unit_a"] if r["unit_a"] == r["unit_b"] else f"{r['unit_a']} -> {r['unit_b']}"
-        typer.echo(
+        echo(
             f"~ {r['model']} | {r['scenario']} | {r['region']} | {r['variable']} | {r['year']}: "
             f"{r['value_a']:g} -> {r['value_b']:g} {units}"
         )
     shown = len(d.added) + len(d.removed) + len(d.changed)
     if shown < n["added"] + n["removed"] + n["changed"]:
-        typer.echo(f"({shown} of {n['added'] + n['removed'] + n['changed']:,} differences listed; --limit 0 for all)")
+        echo(f"({shown} of {n['added'] + n['removed'] + n['changed']:,} differences listed; --limit 0 for all)")
 
 
 def register(app: typer.Typer) -> None:

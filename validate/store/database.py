@@ -16,14 +16,15 @@ import re
 import shutil
 import sys
 import time
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
 import duckdb
 
 import milepost.schema
-from milepost.validate.errors import LoadError, LockTimeout
+from milepost.validate.errors import LoadError, LockTimeout, one_line
+from milepost.validate.sql import identifier
 
 ENV_DB = "MILEPOST_DB"
 ENV_LOCK_TIMEOUT = "MILEPOST_LOCK_TIMEOUT"
@@ -59,11 +60,6 @@ def lock_timeout_default() -> float:
         raise LoadError(f"{ENV_LOCK_TIMEOUT}={raw!r} is not a number of seconds") from None
 
 
-def quote(name: str) -> str:
-    """A DuckDB identifier in double quotes (names can never be query parameters)."""
-    return '"' + name.replace('"', '""') + '"'
-
-
 def connect_memory() -> duckdb.DuckDBPyConnection:
     """A new in-memory connection that never tries to download extensions."""
     return duckdb.connect(":memory:", config=dict(_NO_AUTOLOAD))
@@ -94,17 +90,22 @@ def latest_version(directory: Path = MIGRATIONS_DIR) -> int:
 
 def schema_version(con: duckdb.DuckDBPyConnection, catalog: str | None = None) -> int:
     """The schema_version recorded in a database's meta table (0 for a database without one)."""
-    prefix = f"{quote(catalog)}." if catalog else ""
+    prefix = f"{identifier(catalog)}." if catalog else ""
     try:
-        rows = con.execute(f"SELECT value FROM {prefix}meta WHERE key = 'schema_version'").fetchall()
+        rows = con.execute(f"SELECT value FROM {prefix}meta WHERE key = 'schema_version'").fetchall()  # noqa: S608 - catalog quoted by validate.sql
     except duckdb.CatalogException:
         return 0
     return int(rows[0][0]) if rows else 0
 
 
+def _has_tables(con: duckdb.DuckDBPyConnection, catalog: str) -> bool:
+    found = con.execute("SELECT count(*) FROM duckdb_tables() WHERE database_name = ?", [catalog]).fetchall()
+    return bool(found[0][0])
+
+
 def _run_script(con: duckdb.DuckDBPyConnection, catalog: str, sql: str) -> None:
     # Scripts use unqualified names; USE makes them land in the attached copy.
-    con.execute(f"USE {quote(catalog)}")
+    con.execute(f"USE {identifier(catalog)}")
     try:
         con.execute(sql)
     finally:
@@ -112,9 +113,9 @@ def _run_script(con: duckdb.DuckDBPyConnection, catalog: str, sql: str) -> None:
 
 
 def _set_meta(con: duckdb.DuckDBPyConnection, catalog: str, key: str, value: str) -> None:
-    c = quote(catalog)
-    con.execute(f"DELETE FROM {c}.meta WHERE key = ?", [key])
-    con.execute(f"INSERT INTO {c}.meta VALUES (?, ?)", [key, value])
+    c = identifier(catalog)
+    con.execute(f"DELETE FROM {c}.meta WHERE key = ?", [key])  # noqa: S608 - catalog quoted by validate.sql
+    con.execute(f"INSERT INTO {c}.meta VALUES (?, ?)", [key, value])  # noqa: S608 - catalog quoted by validate.sql
 
 
 def create_schema(con: duckdb.DuckDBPyConnection, catalog: str, directory: Path = MIGRATIONS_DIR) -> None:
@@ -147,6 +148,23 @@ def migrate(con: duckdb.DuckDBPyConnection, catalog: str, directory: Path = MIGR
             raise LoadError(f"migration {path.name} failed: {e}") from None
         applied.append(number)
     return applied
+
+
+# DuckDB errors that say the file cannot be read or written (I/O, a full disk, a damaged block): a LoadError, not a
+# bug. DuckDB raises a damaged block's checksum error as the plain base class. Errors about our SQL (parser,
+# binder, catalog, constraint) stay what they are.
+FILE_ERRORS: tuple[type[duckdb.Error], ...] = (
+    duckdb.IOException,
+    duckdb.SerializationException,
+    duckdb.PermissionException,
+    duckdb.FatalException,
+    duckdb.InternalException,
+)
+
+
+def is_file_error(e: BaseException) -> bool:
+    """Whether an exception says the database file (or the disk under it) failed, rather than our code."""
+    return isinstance(e, (OSError, *FILE_ERRORS)) or type(e) is duckdb.Error
 
 
 # ---------------------------------------------------------------- lock
@@ -302,7 +320,10 @@ class Writer:
                         "written in place by another program; open it once with duckdb and CHECKPOINT"
                     )
                 # copyfile uses the kernel's copy path (sendfile); measured ~0.2 s for a 35 MB file.
-                shutil.copyfile(self.db, self.tmp)
+                try:
+                    shutil.copyfile(self.db, self.tmp)
+                except OSError as e:
+                    raise LoadError(f"cannot copy {self.db} to write it: {e.strerror or e}") from None
             try:
                 self.con.execute(f"ATTACH ? AS {NEW}", [str(self.tmp)])
             except duckdb.Error as e:
@@ -311,9 +332,13 @@ class Writer:
             if self.created:
                 create_schema(self.con, NEW, self.migrations_dir)
             else:
+                if schema_version(self.con, NEW) == 0 and _has_tables(self.con, NEW):
+                    raise LoadError(f"{self.db} is a DuckDB file but not a milepost database (no schema version)")
                 self.migrated = migrate(self.con, NEW, self.migrations_dir)
-        except BaseException:
+        except BaseException as e:
             self._discard()
+            if is_file_error(e):
+                raise LoadError(f"cannot open {self.db} to write it: {one_line(e)}") from None
             raise
         return self
 
@@ -325,6 +350,9 @@ class Writer:
     def __exit__(self, exc_type: type[BaseException] | None, exc: BaseException | None, tb: object) -> None:
         if exc_type is not None:
             self._discard()
+            if exc is not None and is_file_error(exc):
+                # The disk filled up or went away under the copy: a database that cannot be written, not a bug.
+                raise LoadError(f"could not write {self.db}, nothing was changed: {one_line(exc)}") from exc
             return
         try:
             if self._in_tx:
@@ -342,8 +370,10 @@ class Writer:
             os.replace(self.tmp, self.db)
             _fsync_dir(self.db.parent)
             _pause("after-replace")
-        except BaseException:
+        except BaseException as e:
             self._discard()
+            if is_file_error(e):
+                raise LoadError(f"could not write {self.db}, nothing was changed: {one_line(e)}") from e
             raise
         finally:
             if self.lock is not None:
@@ -371,7 +401,7 @@ def ensure_database(db: Path, *, timeout: float | None = None) -> list[int]:
     db = Path(db)
     if db.exists():
         with open_reader(db) as reader:
-            if schema_version(reader.con, "db") >= latest_version():
+            if reader.version >= latest_version():
                 return []
     con = connect_memory()
     try:
@@ -393,17 +423,27 @@ def _signature(path: Path) -> tuple[int, int] | None:
 
 
 class Reader:
-    """A read-only view of the database file that can tell when a writer has swapped in a new version.
+    """The read-only view of the database file that every reader uses: the CLI's read commands (through
+    `reading`), ingest's look for an earlier identical submission, and the dashboard (`dashboard/connection.py`).
 
     `con` is an in-memory DuckDB connection with the file attached read-only as catalog `db` and selected
     (`USE db`), so queries use plain table names. Attaching (rather than `duckdb.connect(path)`) gives each
-    reader its own instance: DuckDB's per-path instance cache would otherwise hand back the old file.
+    reader its own instance: DuckDB's per-path instance cache would otherwise hand back the old file, and old
+    and new versions can be open side by side (queries in flight finish on the old one).
+
+    Opening checks the schema version (unless `check_version=False`): a file that is not a Milepost database, or
+    one newer than this program, raises LoadError instead of failing later on a missing table. A database of an
+    older schema is read as it is (only writers migrate): `stored_columns` and `view_or_definition` let queries
+    read it in the current shape. `refresh()` reopens the file after a writer swapped in a new version.
     """
 
-    def __init__(self, path: str | Path) -> None:
+    def __init__(self, path: str | Path, *, check_version: bool = True, migrations_dir: Path = MIGRATIONS_DIR) -> None:
         self.path = Path(path)
+        self.check_version = check_version
+        self.migrations_dir = migrations_dir
         self.con: duckdb.DuckDBPyConnection
         self.signature: tuple[int, int] | None = None
+        self.version = 0  # the schema version of the file as opened (0: not a milepost database)
         self._open()
 
     def _open(self) -> None:
@@ -414,11 +454,27 @@ class Reader:
         try:
             con.execute("ATTACH ? AS db (READ_ONLY)", [str(self.path)])
             con.execute("USE db")
+            version = schema_version(con, "db")
+            if self.check_version:
+                self._check_version(version)
         except duckdb.Error as e:
             con.close()
-            raise LoadError(f"cannot open {self.path} read-only: {_one_line(e)}") from None
+            raise LoadError(f"cannot open {self.path} read-only: {one_line(e)}") from None
+        except LoadError:
+            con.close()
+            raise
         self.con = con
         self.signature = sig
+        self.version = version
+
+    def _check_version(self, version: int) -> None:
+        latest = latest_version(self.migrations_dir)
+        if version == 0:
+            raise LoadError(f"{self.path} is a DuckDB file but not a milepost database (it has no schema version)")
+        if version > latest:
+            raise LoadError(
+                f"{self.path} has schema version {version}, newer than this milepost knows ({latest}); upgrade milepost"
+            )
 
     def changed(self) -> bool:
         """True when the file on disk is no longer the one this reader has open."""
@@ -450,29 +506,56 @@ class Reader:
         self.close()
 
 
-def open_reader(path: str | Path) -> Reader:
+def open_reader(path: str | Path, *, migrations_dir: Path = MIGRATIONS_DIR) -> Reader:
     """Open the database read-only; `reader.refresh()` reopens it after an ingest and says whether it did."""
-    return Reader(path)
-
-
-def _one_line(e: BaseException) -> str:
-    return " ".join(str(e).split())
+    return Reader(path, migrations_dir=migrations_dir)
 
 
 @contextlib.contextmanager
 def reading(db: str | Path) -> Iterator[duckdb.DuckDBPyConnection]:
-    """A read-only connection for the length of a `with` block (the commands that only read use this)."""
+    """A read-only connection for the length of a `with` block (the commands that only read use this).
+
+    DuckDB errors about the file raised inside the block (I/O, damaged blocks) become LoadError.
+    """
     reader = open_reader(db)
     try:
-        version = schema_version(reader.con, "db")
-        latest = latest_version()
-        if version > latest:
-            raise LoadError(
-                f"{db} has schema version {version}, newer than this milepost knows ({latest}); upgrade milepost"
-            )
         yield reader.con
+    except duckdb.Error as e:
+        if not is_file_error(e):
+            raise
+        raise LoadError(f"cannot read {db}: {one_line(e)}") from None
     finally:
         reader.close()
+
+
+def stored_columns(con: duckdb.DuckDBPyConnection, relation: str) -> frozenset[str]:
+    """The columns of a table or view of the current database (one of an older schema lacks the newer ones)."""
+    rows = con.execute(
+        "SELECT column_name FROM duckdb_columns() WHERE database_name = current_database() AND table_name = ?",
+        [relation],
+    ).fetchall()
+    return frozenset(r[0] for r in rows)
+
+
+def select_columns(con: duckdb.DuckDBPyConnection, relation: str, columns: Sequence[str], prefix: str = "") -> str:
+    """A select list of `columns` of `relation`, with an empty (NULL) column for each one that a database of an
+    older schema does not have yet (readers do not migrate); `prefix` is a table alias such as "i."."""
+    present = stored_columns(con, relation)
+    return ", ".join(f"{prefix}{c}" if c in present else f"NULL::VARCHAR AS {c}" for c in columns)
+
+
+def view_or_definition(con: duckdb.DuckDBPyConnection, name: str) -> str:
+    """`name` when the database has that view, else its definition in the current schema (database.sql) as a
+    subquery, for a database of an older schema: both read the same rule, written once."""
+    found = con.execute(
+        "SELECT count(*) FROM duckdb_views() WHERE database_name = current_database() AND view_name = ?", [name]
+    ).fetchall()
+    if found[0][0]:
+        return name
+    m = re.search(rf"^CREATE VIEW {re.escape(name)} AS\n(.*?);\s*$", schema_sql(), flags=re.S | re.M)
+    if m is None:
+        raise LoadError(f"database.sql defines no view {name}")
+    return f"({m.group(1)})"
 
 
 def warn(message: str) -> None:

@@ -17,9 +17,12 @@ from typing import Any
 
 import duckdb
 
-from milepost.validate.errors import UsageError
+from milepost.validate.errors import OutputError, UsageError, one_line
+from milepost.validate.findings import FINDING_COLUMNS
+from milepost.validate.outputs import save_workbook, writing
 from milepost.validate.readers import sha256_of
-from milepost.validate.store.database import reading, schema_version
+from milepost.validate.sql import literal
+from milepost.validate.store.database import reading, schema_version, select_columns, view_or_definition
 from milepost.validate.store.recompute import outdated_reason
 
 XLSX_MAX_ROWS = 1_048_575  # an Excel sheet has 1,048,576 rows; one is the header
@@ -53,24 +56,7 @@ INDICATOR_COLUMNS = (
     "unit",
     "note",
 )
-FINDING_COLUMNS = (
-    "submission_id",
-    "rule",
-    "severity",
-    "path",
-    "line",
-    "sheet",
-    "model",
-    "scenario",
-    "region",
-    "variable",
-    "unit",
-    "year",
-    "value",
-    "expected",
-    "message",
-    "hint",
-)
+STORED_FINDING_COLUMNS = ("submission_id", *FINDING_COLUMNS)
 # what -> (current view, stored table, columns, sort order)
 EXPORTS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "data": ("current_data", "data", DATA_COLUMNS, "model, scenario, region, variable, year"),
@@ -80,7 +66,12 @@ EXPORTS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
         INDICATOR_COLUMNS,
         "model, scenario, region, kind, variable, year_from, year_to",
     ),
-    "findings": ("findings", "findings", FINDING_COLUMNS, "submission_id, path NULLS FIRST, line NULLS LAST, rule"),
+    "findings": (
+        "findings",
+        "findings",
+        STORED_FINDING_COLUMNS,
+        "submission_id, path NULLS FIRST, line NULLS LAST, rule",
+    ),
 }
 FORMATS = ("csv", "parquet", "xlsx")
 SNAPSHOT_TABLES = (
@@ -102,15 +93,16 @@ class Filters:
 
     def where(self) -> tuple[str, list[Any]]:
         """A WHERE clause with `?` placeholders, and its parameters."""
-        clauses, params = [], []
-        for column, values in (
+        clauses: list[str] = []
+        params: list[Any] = []
+        for column, given in (
             ("model", self.model),
             ("scenario", self.scenario),
             ("region", self.region),
             ("variable", self.variable),
             ("submission_id", self.submission),
         ):
-            values = list(values)
+            values = list(given)
             if values:
                 clauses.append(f"{column} IN ({', '.join('?' * len(values))})")
                 params += values
@@ -120,10 +112,11 @@ class Filters:
         return {k: list(v) for k, v in self.__dict__.items() if v}
 
 
-def export_query(what: str, filters: Filters, old_indicators: bool = False) -> tuple[str, list[Any]]:
+def export_query(what: str, filters: Filters, con: duckdb.DuckDBPyConnection | None = None) -> tuple[str, list[Any]]:
     """The SELECT of an export: current rows (or, with a submission filter, that submission's stored rows).
 
-    `old_indicators`: the database predates the indicators' `note` column (not migrated yet); it is exported empty.
+    With `con`, a column that a database of an older schema does not have yet (not migrated: readers do not
+    migrate) is exported empty.
     """
     if what not in EXPORTS:
         raise UsageError(f"--what must be one of {', '.join(EXPORTS)}, not {what!r}")
@@ -131,20 +124,8 @@ def export_query(what: str, filters: Filters, old_indicators: bool = False) -> t
     # A submission filter asks for history: read the table, not the current view.
     source = table if filters.submission else view
     where, params = filters.where()
-    return f"SELECT {_select_list(columns, old_indicators)} FROM {source}{where} ORDER BY {order}", params
-
-
-def _select_list(columns: Sequence[str], old_indicators: bool) -> str:
-    return ", ".join("NULL::VARCHAR AS note" if old_indicators and c == "note" else c for c in columns)
-
-
-def _lacks_notes(con: duckdb.DuckDBPyConnection) -> bool:
-    """True for a database written before indicator rows had a `note` (schema version 1, not migrated yet)."""
-    rows = con.execute(
-        "SELECT count(*) FROM duckdb_columns() WHERE database_name = current_database() AND table_name = 'indicators'"
-        " AND column_name = 'note'"
-    ).fetchall()
-    return not rows[0][0]
+    select = select_columns(con, source, columns) if con is not None else ", ".join(columns)
+    return f"SELECT {select} FROM {source}{where} ORDER BY {order}", params  # noqa: S608 - names from this module; filters bound as parameters
 
 
 def export(
@@ -166,7 +147,7 @@ def export(
     if not output.parent.is_dir():
         raise UsageError(f"the folder of {output} does not exist")
     with reading(db) as con:
-        sql, params = export_query(what, filters, old_indicators=what == "indicators" and _lacks_notes(con))
+        sql, params = export_query(what, filters, con)
         if what == "indicators":
             reason = outdated_reason(con)
             if reason is not None and on_warning is not None:
@@ -174,20 +155,32 @@ def export(
         if fmt != "xlsx":
             # COPY reports the rows it wrote, so the query runs once.
             options = "FORMAT csv, HEADER" if fmt == "csv" else "FORMAT parquet, COMPRESSION zstd"
-            copied = con.execute(f"COPY ({sql}) TO '{_sql_path(output)}' ({options})", params).fetchall()
+            if _in_place(output):
+                options += ", USE_TMP_FILE false"
+            try:
+                copied = con.execute(f"COPY ({sql}) TO {literal(str(output))} ({options})", params).fetchall()
+            except duckdb.IOException as e:
+                raise OutputError(f"cannot write {output}: {one_line(e)}") from None
             return int(copied[0][0])
-        n = int(con.execute(f"SELECT count(*) FROM ({sql})", params).fetchall()[0][0])
+        n = int(con.execute(f"SELECT count(*) FROM ({sql})", params).fetchall()[0][0])  # noqa: S608 - names from this module; filters bound as parameters
         if n > XLSX_MAX_ROWS:
             raise UsageError(
                 f"{n:,} rows do not fit in an Excel sheet (at most {XLSX_MAX_ROWS:,}); "
                 "use --format csv or parquet, or filter with --model/--scenario/--region/--variable"
             )
-        _write_xlsx(con, sql, params, output, what, filters, db)
+        with writing(output):  # openpyxl's write-only sheets stream into temporary files
+            _write_xlsx(con, sql, params, output, what, filters, db)
     return n
 
 
-def _sql_path(path: Path) -> str:
-    return str(path).replace("'", "''")
+def _in_place(output: Path) -> bool:
+    """Whether to write straight into `output` rather than into a copy renamed over it at the end.
+
+    A regular file (or a new one) is replaced whole, so a failed export never leaves half a file. A symlink, a
+    device (/dev/stdout, /dev/full) or a pipe is written through: renaming over it would replace the link or the
+    device node itself (DuckDB's COPY renames its temporary file over an existing target by default).
+    """
+    return output.is_symlink() or (output.exists() and not output.is_file())
 
 
 def _write_xlsx(
@@ -222,9 +215,16 @@ def _write_xlsx(
     if what == "indicators":
         for line in INDICATOR_BASIS:
             about.append(["basis", line])
+    if _in_place(output):
+        save_workbook(wb, output)
+        return
     tmp = output.with_name(output.name + f".tmp-{os.getpid()}")
-    wb.save(tmp)
-    os.replace(tmp, output)
+    try:
+        save_workbook(wb, tmp)
+        with writing(output):
+            os.replace(tmp, output)
+    finally:
+        tmp.unlink(missing_ok=True)
 
 
 # ---------------------------------------------------------------- snapshot
@@ -246,23 +246,24 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
     # Build beside the target and rename at the end, so a half-written snapshot never carries the real name.
     work = out_dir.with_name(f"{out_dir.name}.tmp-{os.getpid()}")
     shutil.rmtree(work, ignore_errors=True)
-    work.mkdir()
     try:
-        with reading(db) as con:
+        with writing(out_dir), reading(db) as con:
+            work.mkdir()
             total = int(con.execute("SELECT count(*) FROM current_data").fetchall()[0][0])
             if total == 0:
                 raise UsageError(f"{db} has no accepted data to snapshot")
             tables: dict[str, Any] = {}
-            old = _lacks_notes(con)
             for name, view, columns, order in SNAPSHOT_TABLES:
-                rows = int(con.execute(f"SELECT count(*) FROM {view}").fetchall()[0][0])
+                rows = int(con.execute(f"SELECT count(*) FROM {view}").fetchall()[0][0])  # noqa: S608 - names from this module; filters bound as parameters
                 tables[name] = {"rows": rows, "source": view, "partition_by": ["model"], "columns": list(columns)}
                 if rows:
-                    target = str(work / name).replace("'", "''")
-                    con.execute(
-                        f"COPY (SELECT {_select_list(columns, old)} FROM {view} ORDER BY model, {order}) "
-                        f"TO '{target}' (FORMAT parquet, COMPRESSION zstd, PARTITION_BY (model))"
-                    )
+                    try:
+                        con.execute(
+                            f"COPY (SELECT {select_columns(con, view, columns)} FROM {view} ORDER BY model, {order}) "  # noqa: S608 - names from this module; filters bound as parameters
+                            f"TO {literal(str(work / name))} (FORMAT parquet, COMPRESSION zstd, PARTITION_BY (model))"
+                        )
+                    except duckdb.IOException as e:
+                        raise OutputError(f"cannot write the snapshot into {out_dir}: {one_line(e)}") from None
             contracts = [
                 {"name": n, "hash": h}
                 for n, h in con.execute(
@@ -295,10 +296,11 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
             "cautions": list(CAUTIONS),
             "indicators_outdated": outdated,
         }
-        (work / "manifest.json").write_text(json.dumps(manifest, indent=2) + "\n", encoding="utf-8")
-        if out_dir.exists():
-            out_dir.rmdir()
-        os.replace(work, out_dir)
+        with writing(out_dir):
+            (work / "manifest.json").write_text(json.dumps(manifest, indent=2) + "\n", encoding="utf-8")
+            if out_dir.exists():
+                out_dir.rmdir()
+            os.replace(work, out_dir)
     except BaseException:
         shutil.rmtree(work, ignore_errors=True)
         raise
@@ -369,7 +371,7 @@ def diff(
         key = ", ".join(KEY)
         pairs = "SELECT DISTINCT model, scenario FROM scenarios WHERE submission_id = ?"
         con.execute(
-            f"CREATE TEMP TABLE diff_pairs AS SELECT *, 'a' AS side FROM ({pairs}) "
+            f"CREATE TEMP TABLE diff_pairs AS SELECT *, 'a' AS side FROM ({pairs}) "  # noqa: S608 - names from this module; filters bound as parameters
             f"UNION ALL SELECT *, 'b' FROM ({pairs})",
             [a, b],
         )
@@ -404,7 +406,7 @@ def diff(
                         ELSE 'same' END AS change
             FROM (SELECT {key}, unit, value FROM data WHERE submission_id = ? {common}) AS x
             FULL OUTER JOIN (SELECT {key}, unit, value FROM data WHERE submission_id = ? {common}) AS y
-              USING ({key})""",
+              USING ({key})""",  # noqa: S608 - names from this module; filters bound as parameters
             [relative, absolute, a, b],
         )
         counts = {k: 0 for k in ("added", "removed", "changed", "same")}
@@ -420,26 +422,25 @@ def diff(
             ("removed", "unit_a AS unit, value_a AS value"),
             ("changed", "unit_a, unit_b, value_a, value_b, value_b - value_a AS delta"),
         ):
-            cur = con.execute(f"SELECT {key}, {columns} FROM diff_rows WHERE change = ? ORDER BY {key}{cap}", [change])
+            cur = con.execute(f"SELECT {key}, {columns} FROM diff_rows WHERE change = ? ORDER BY {key}{cap}", [change])  # noqa: S608 - names from this module; filters bound as parameters
             names = [d[0] for d in cur.description]
             setattr(out, change, [dict(zip(names, r, strict=True)) for r in cur.fetchall()])
     return out
 
 
 def submissions(db: str | Path) -> list[dict[str, Any]]:
-    """Every submission, oldest first, with its version number per model (accepted ones count) and scenarios."""
+    """Every submission, oldest first, with its version per model (the `submission_versions` view) and scenarios."""
     with reading(db) as con:
-        cur = con.execute("""
-            SELECT b.id, b.model, b.status,
-                   CASE WHEN b.status <> 'rejected' THEN
-                        row_number() OVER (PARTITION BY b.model, b.status = 'rejected' ORDER BY b.id) END AS version,
-                   b.superseded_by, b.rows, b.errors, b.warnings, b.notes, b.submitted_at, b.submitted_by, b.note,
+        cur = con.execute(f"""
+            SELECT b.id, b.model, b.status, v.version, b.superseded_by, b.rows, b.errors, b.warnings, b.notes,
+                   b.submitted_at, b.submitted_by, b.note,
                    b.contract_name, b.contract_hash, b.milepost_version, b.sha256, b.files,
                    (SELECT list(s.scenario ORDER BY s.scenario) FROM scenarios AS s WHERE s.submission_id = b.id)
                        AS scenarios,
                    (SELECT list(c.scenario ORDER BY c.scenario) FROM current_versions AS c
                      WHERE c.submission_id = b.id) AS current_scenarios
-            FROM submissions AS b ORDER BY b.id""")
+            FROM submissions AS b JOIN {view_or_definition(con, "submission_versions")} AS v
+              ON v.submission_id = b.id ORDER BY b.id""")  # noqa: S608 - the view or its definition in database.sql
         names = [d[0] for d in cur.description]
         out = []
         for row in cur.fetchall():

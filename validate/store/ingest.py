@@ -20,26 +20,11 @@ from typing import Any
 import duckdb
 
 from milepost.validate.errors import LoadError, UsageError
+from milepost.validate.findings import FINDING_COLUMNS
+from milepost.validate.sql import identifier
 from milepost.validate.store import recompute
-from milepost.validate.store.database import NEW, Writer, connect_memory, default_db_path, open_reader, quote
+from milepost.validate.store.database import NEW, Reader, Writer, connect_memory, default_db_path
 
-FINDING_COLUMNS = (
-    "rule",
-    "severity",
-    "path",
-    "line",
-    "sheet",
-    "model",
-    "scenario",
-    "region",
-    "variable",
-    "unit",
-    "year",
-    "value",
-    "expected",
-    "message",
-    "hint",
-)
 DATA_COLUMNS = ("model", "scenario", "region", "variable", "unit", "year", "value")
 INDICATOR_COLUMNS = ("model", "scenario", "region", "kind", "variable", "year_from", "year_to", "value", "unit", "note")
 PROGRESS_ROWS = 1_000_000  # show a progress bar for the load stage above this many rows
@@ -101,7 +86,7 @@ def _find_repeat(
 ) -> tuple[Any, ...] | None:
     """The earlier submission of the same files under the same contract whose outcome would not change."""
     rows = con.execute(
-        f"SELECT id, status, errors, warnings FROM {quote(catalog)}.submissions "
+        f"SELECT id, status, errors, warnings FROM {identifier(catalog)}.submissions "  # noqa: S608 - names from the code; values bound as parameters
         "WHERE sha256 = ? AND contract_hash = ? ORDER BY id DESC",
         [sha, contract_hash],
     ).fetchall()
@@ -113,14 +98,14 @@ def _find_repeat(
     return None
 
 
-def _check_repeat_before_lock(db: Path, sha: str, contract_hash: str, accept_warnings: bool) -> tuple | None:
+def _check_repeat_before_lock(db: Path, sha: str, contract_hash: str, accept_warnings: bool) -> tuple[Any, ...] | None:
     if not db.exists():
         return None
-    with open_reader(db) as reader:
-        try:
-            return _find_repeat(reader.con, "db", sha, contract_hash, accept_warnings)
-        except duckdb.CatalogException:
+    # The version is not checked here: the writer migrates an older database, and refuses a newer or foreign one.
+    with Reader(db, check_version=False) as reader:
+        if reader.version == 0:
             return None
+        return _find_repeat(reader.con, "db", sha, contract_hash, accept_warnings)
 
 
 def _unchanged(db: Path, sha: str, row: tuple[Any, ...], files: list[dict[str, Any]]) -> IngestResult:
@@ -169,7 +154,10 @@ def ingest(
     resolved = [p.resolve() for p in files]
     if len(set(resolved)) != len(resolved):
         raise UsageError("the same file is given more than once")
-    digests = [sha256_of(p) for p in files]
+    try:
+        digests = [sha256_of(p) for p in files]
+    except OSError as e:
+        raise UsageError(f"cannot read {e.filename}: {e.strerror or e}") from None
     sha = submission_digest(digests)
     timings["hash"] = time.perf_counter() - t0
 
@@ -263,11 +251,11 @@ def _register_scenarios(con: duckdb.DuckDBPyConnection, scenarios: Any) -> None:
     con.register("ingest_scenarios_frame", scenarios)
     try:
         attrs = [c for c in scenarios.columns if c not in ("model", "scenario")]
-        pack = ", ".join(f"{quote(c)} := {quote(c)}" for c in attrs)
+        pack = ", ".join(f"{identifier(c)} := {identifier(c)}" for c in attrs)
         attributes = f"to_json(struct_pack({pack}))::VARCHAR" if attrs else "'{}'"
         reference = "reference::VARCHAR" if "reference" in attrs else "NULL::VARCHAR"
         con.execute(
-            "CREATE OR REPLACE TEMP TABLE ingest_scenarios AS "
+            "CREATE OR REPLACE TEMP TABLE ingest_scenarios AS "  # noqa: S608 - names from the code; values bound as parameters
             f"SELECT DISTINCT model::VARCHAR AS model, scenario::VARCHAR AS scenario, {reference} AS reference, "
             f"{attributes} AS attributes FROM ingest_scenarios_frame "
             "WHERE model IS NOT NULL AND scenario IS NOT NULL"
@@ -291,7 +279,7 @@ def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any) -> None:
         FROM {NEW}.current_scenarios AS cs
         WHERE cs.model IN (SELECT model FROM temp.main.ingest_scenarios)
           AND NOT EXISTS (SELECT 1 FROM temp.main.ingest_scenarios AS n
-                          WHERE n.model = cs.model AND n.scenario = cs.scenario)""")
+                          WHERE n.model = cs.model AND n.scenario = cs.scenario)""")  # noqa: S608 - names from the code; values bound as parameters
     con.execute("""
         CREATE OR REPLACE TEMP TABLE ingest_dependents AS
         SELECT o.submission_id, o.model, o.scenario FROM temp.main.ingest_old AS o
@@ -311,7 +299,7 @@ def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any) -> None:
         UNION ALL
         SELECT {", ".join("d." + c for c in DATA_COLUMNS)} FROM {NEW}.data AS d
         JOIN temp.main.ingest_needed AS n
-          ON n.submission_id = d.submission_id AND n.model = d.model AND n.scenario = d.scenario""")
+          ON n.submission_id = d.submission_id AND n.model = d.model AND n.scenario = d.scenario""")  # noqa: S608 - names from the code; values bound as parameters
     con.execute("""
         CREATE OR REPLACE TEMP VIEW ingest_all_scenarios AS
         SELECT model, scenario, reference, attributes FROM temp.main.ingest_scenarios
@@ -393,7 +381,7 @@ def _store_ordered_freely(
 ) -> IngestResult:
     from milepost.validate import __version__
 
-    sid = int(con.execute(f"SELECT coalesce(max(id), 0) + 1 FROM {NEW}.submissions").fetchall()[0][0])
+    sid = int(con.execute(f"SELECT coalesce(max(id), 0) + 1 FROM {NEW}.submissions").fetchall()[0][0])  # noqa: S608 - names from the code; values bound as parameters
     _register_scenarios(con, result.scenarios)
     model = _models(con)
     submitter = by if by is not None else _user()
@@ -411,7 +399,7 @@ def _store_ordered_freely(
         # first, so that the new submission's own rows (and the dependents it refreshes) land on top
         recompute.apply(con, NEW)
     con.execute(
-        f"INSERT INTO {NEW}.submissions VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, NULL, ?, ?, ?, ?)",
+        f"INSERT INTO {NEW}.submissions VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, NULL, ?, ?, ?, ?)",  # noqa: S608 - names from the code; values bound as parameters
         [
             sid,
             model,
@@ -431,7 +419,7 @@ def _store_ordered_freely(
         ],
     )
     fcols = ", ".join(FINDING_COLUMNS)
-    con.execute(f"INSERT INTO {NEW}.findings SELECT ?, {fcols} FROM temp.main.findings", [sid])
+    con.execute(f"INSERT INTO {NEW}.findings (submission_id, {fcols}) SELECT ?, {fcols} FROM temp.main.findings", [sid])  # noqa: S608 - names from the code; values bound as parameters
     out = IngestResult(
         status="accepted" if accepted else "rejected",
         db="",
@@ -449,9 +437,9 @@ def _store_ordered_freely(
     ]
     if accepted:
         bar.step(f"storing {rows:,} rows")
-        con.execute(f"INSERT INTO {NEW}.data SELECT ?, {', '.join(DATA_COLUMNS)} FROM temp.main.checked", [sid])
+        con.execute(f"INSERT INTO {NEW}.data SELECT ?, {', '.join(DATA_COLUMNS)} FROM temp.main.checked", [sid])  # noqa: S608 - names from the code; values bound as parameters
         con.execute(
-            f"INSERT INTO {NEW}.scenarios SELECT ?, model, scenario, reference, attributes "
+            f"INSERT INTO {NEW}.scenarios SELECT ?, model, scenario, reference, attributes "  # noqa: S608 - names from the code; values bound as parameters
             "FROM temp.main.ingest_scenarios",
             [sid],
         )
@@ -463,7 +451,7 @@ def _store_ordered_freely(
                 SELECT c.model, c.scenario, max(c.submission_id) FROM {NEW}.scenarios AS c
                 JOIN {NEW}.submissions AS b ON b.id = c.submission_id AND b.status = 'accepted' AND b.id <> ?
                 JOIN temp.main.ingest_scenarios AS n ON n.model = c.model AND n.scenario = c.scenario
-                GROUP BY c.model, c.scenario ORDER BY 1, 2""",
+                GROUP BY c.model, c.scenario ORDER BY 1, 2""",  # noqa: S608 - names from the code; values bound as parameters
                 [sid],
             ).fetchall()
         ]
@@ -482,7 +470,7 @@ def _store_ordered_freely(
               AND id IN (SELECT s.submission_id FROM {NEW}.scenarios AS s
                          JOIN temp.main.ingest_scenarios AS n ON n.model = s.model AND n.scenario = s.scenario)
               AND id NOT IN (SELECT submission_id FROM {NEW}.current_versions)
-            RETURNING id""",
+            RETURNING id""",  # noqa: S608 - names from the code; values bound as parameters
                 [sid, sid],
             ).fetchall()
         ]
@@ -496,16 +484,16 @@ def _store_indicators(con: duckdb.DuckDBPyConnection, sid: int) -> None:
     con.execute(
         f"""
         INSERT INTO {NEW}.indicators SELECT ?, {cols} FROM temp.main.ingest_indicators AS i
-        SEMI JOIN temp.main.ingest_scenarios AS n ON n.model = i.model AND n.scenario = i.scenario""",
+        SEMI JOIN temp.main.ingest_scenarios AS n ON n.model = i.model AND n.scenario = i.scenario""",  # noqa: S608 - names from the code; values bound as parameters
         [sid],
     )
     # Stored scenarios whose reference was just replaced: their reference-based indicators are recomputed.
     con.execute(f"""
         DELETE FROM {NEW}.indicators AS x USING temp.main.ingest_dependents AS d
-        WHERE x.submission_id = d.submission_id AND x.model = d.model AND x.scenario = d.scenario""")
+        WHERE x.submission_id = d.submission_id AND x.model = d.model AND x.scenario = d.scenario""")  # noqa: S608 - names from the code; values bound as parameters
     con.execute(f"""
         INSERT INTO {NEW}.indicators SELECT d.submission_id, {cols} FROM temp.main.ingest_indicators AS i
-        JOIN temp.main.ingest_dependents AS d ON d.model = i.model AND d.scenario = i.scenario""")
+        JOIN temp.main.ingest_dependents AS d ON d.model = i.model AND d.scenario = i.scenario""")  # noqa: S608 - names from the code; values bound as parameters
 
 
 def _user() -> str | None:

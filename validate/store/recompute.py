@@ -19,7 +19,8 @@ from typing import Any
 
 import duckdb
 
-from milepost.validate.store.database import quote, schema_version
+from milepost.validate.sql import identifier
+from milepost.validate.store.database import schema_version
 
 OUTDATED_KEY = "indicators_outdated"
 _DATA = "model, scenario, region, variable, unit, year, value"
@@ -34,7 +35,7 @@ def outdated_reason(con: duckdb.DuckDBPyConnection, catalog: str | None = None) 
     """
     from milepost.validate.store.database import latest_version
 
-    prefix = f"{quote(catalog)}." if catalog else ""
+    prefix = f"{identifier(catalog)}." if catalog else ""
     version, latest = schema_version(con, catalog), latest_version()
     if version < latest:
         return (
@@ -42,7 +43,7 @@ def outdated_reason(con: duckdb.DuckDBPyConnection, catalog: str | None = None) 
             "older conventions until the next `milepost ingest` migrates it and recomputes them"
         )
     try:
-        rows = con.execute(f"SELECT value FROM {prefix}meta WHERE key = ?", [OUTDATED_KEY]).fetchall()
+        rows = con.execute(f"SELECT value FROM {prefix}meta WHERE key = ?", [OUTDATED_KEY]).fetchall()  # noqa: S608 - names from the code; values bound as parameters
     except duckdb.CatalogException:
         return None
     if not rows:
@@ -52,7 +53,7 @@ def outdated_reason(con: duckdb.DuckDBPyConnection, catalog: str | None = None) 
 
 def is_outdated(con: duckdb.DuckDBPyConnection, catalog: str) -> bool:
     """True when the (migrated) database `catalog` waits for its indicators to be recomputed."""
-    rows = con.execute(f"SELECT count(*) FROM {quote(catalog)}.meta WHERE key = ?", [OUTDATED_KEY]).fetchall()
+    rows = con.execute(f"SELECT count(*) FROM {identifier(catalog)}.meta WHERE key = ?", [OUTDATED_KEY]).fetchall()  # noqa: S608 - names from the code; values bound as parameters
     return bool(rows[0][0])
 
 
@@ -65,12 +66,12 @@ def prepare(
     """
     from milepost.validate.store.indicators import COLUMNS, compute_indicators
 
-    c = quote(catalog)
+    c = identifier(catalog)
     if on_step is not None:
         on_step("recomputing the stored indicators")
-    con.execute(f"CREATE OR REPLACE TEMP VIEW recompute_current_data AS SELECT {_DATA} FROM {c}.current_data")
+    con.execute(f"CREATE OR REPLACE TEMP VIEW recompute_current_data AS SELECT {_DATA} FROM {c}.current_data")  # noqa: S608 - names from the code; values bound as parameters
     con.execute(
-        "CREATE OR REPLACE TEMP VIEW recompute_current_scenarios AS SELECT model, scenario, reference"
+        "CREATE OR REPLACE TEMP VIEW recompute_current_scenarios AS SELECT model, scenario, reference"  # noqa: S608 - names from the code; values bound as parameters
         f" FROM {c}.current_scenarios"
     )
     compute_indicators(con, contract, "recompute_current_data", "recompute_current_scenarios", "recompute_computed")
@@ -78,7 +79,7 @@ def prepare(
     con.execute("DROP VIEW temp.main.recompute_current_scenarios")
     columns = ", ".join(name for name, _ in COLUMNS)
     con.execute(
-        f"CREATE OR REPLACE TEMP TABLE recompute_current AS SELECT v.submission_id, {columns}"
+        f"CREATE OR REPLACE TEMP TABLE recompute_current AS SELECT v.submission_id, {columns}"  # noqa: S608 - names from the code; values bound as parameters
         f" FROM temp.main.recompute_computed JOIN {c}.current_versions v USING (model, scenario)"
     )
     con.execute(
@@ -88,14 +89,14 @@ def prepare(
     older = [
         int(r[0])
         for r in con.execute(
-            f"SELECT DISTINCT s.submission_id FROM {c}.scenarios s JOIN {c}.submissions b ON b.id = s.submission_id"
+            f"SELECT DISTINCT s.submission_id FROM {c}.scenarios s JOIN {c}.submissions b ON b.id = s.submission_id"  # noqa: S608 - names from the code; values bound as parameters
             f" WHERE b.status <> 'rejected' AND NOT EXISTS (SELECT 1 FROM {c}.current_versions v"
             " WHERE v.submission_id = s.submission_id AND v.model = s.model AND v.scenario = s.scenario) ORDER BY 1"
         ).fetchall()
     ]
     for sid in older:
         con.execute(
-            f"CREATE OR REPLACE TEMP TABLE recompute_data AS SELECT {_DATA} FROM {c}.data WHERE submission_id = $sid"
+            f"CREATE OR REPLACE TEMP TABLE recompute_data AS SELECT {_DATA} FROM {c}.data WHERE submission_id = $sid"  # noqa: S608 - names from the code; values bound as parameters
             f" UNION ALL SELECT {_DATA} FROM {c}.current_data d WHERE EXISTS (SELECT 1 FROM {c}.scenarios s"
             " WHERE s.submission_id = $sid AND s.model = d.model AND s.reference = d.scenario)"
             f" AND NOT EXISTS (SELECT 1 FROM {c}.scenarios s"
@@ -103,13 +104,13 @@ def prepare(
             {"sid": sid},
         )
         con.execute(
-            "CREATE OR REPLACE TEMP TABLE recompute_scenarios AS SELECT model, scenario, reference"
+            "CREATE OR REPLACE TEMP TABLE recompute_scenarios AS SELECT model, scenario, reference"  # noqa: S608 - names from the code; values bound as parameters
             f" FROM {c}.scenarios WHERE submission_id = ?",
             [sid],
         )
         compute_indicators(con, contract, "recompute_data", "recompute_scenarios", "recompute_computed")
         con.execute(
-            f"INSERT INTO temp.main.recompute_history SELECT $sid, {columns} FROM temp.main.recompute_computed i"
+            f"INSERT INTO temp.main.recompute_history SELECT $sid, {columns} FROM temp.main.recompute_computed i"  # noqa: S608 - names from the code; values bound as parameters
             f" WHERE EXISTS (SELECT 1 FROM {c}.scenarios s WHERE s.submission_id = $sid AND s.model = i.model"
             f" AND s.scenario = i.scenario) AND NOT EXISTS (SELECT 1 FROM {c}.current_versions v"
             " WHERE v.submission_id = $sid AND v.model = i.model AND v.scenario = i.scenario)",
@@ -117,7 +118,7 @@ def prepare(
         )
     for leftover in ("recompute_computed", "recompute_data", "recompute_scenarios"):
         con.execute(f"DROP TABLE IF EXISTS temp.main.{leftover}")
-    counts = [con.execute(f"SELECT count(*) FROM temp.main.{t}").fetchall()[0][0] for t in _TABLES]
+    counts = [con.execute(f"SELECT count(*) FROM temp.main.{t}").fetchall()[0][0] for t in _TABLES]  # noqa: S608 - names from the code; values bound as parameters
     return int(sum(counts))
 
 
@@ -125,12 +126,12 @@ def apply(con: duckdb.DuckDBPyConnection, catalog: str) -> None:
     """Inside the write's transaction: replace every stored indicator with the recomputed rows, clear the marker."""
     from milepost.validate.store.indicators import COLUMNS
 
-    c = quote(catalog)
+    c = identifier(catalog)
     columns = ", ".join(["submission_id", *(name for name, _ in COLUMNS)])
-    con.execute(f"DELETE FROM {c}.indicators")
+    con.execute(f"DELETE FROM {c}.indicators")  # noqa: S608 - names from the code; values bound as parameters
     for table in _TABLES:
-        con.execute(f"INSERT INTO {c}.indicators ({columns}) SELECT {columns} FROM temp.main.{table}")
-    con.execute(f"DELETE FROM {c}.meta WHERE key = ?", [OUTDATED_KEY])
+        con.execute(f"INSERT INTO {c}.indicators ({columns}) SELECT {columns} FROM temp.main.{table}")  # noqa: S608 - names from the code; values bound as parameters
+    con.execute(f"DELETE FROM {c}.meta WHERE key = ?", [OUTDATED_KEY])  # noqa: S608 - names from the code; values bound as parameters
 
 
 def recompute_stored(

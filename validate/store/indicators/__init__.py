@@ -25,8 +25,9 @@ from pathlib import Path
 import duckdb
 
 from milepost.schema.contract import Contract
+from milepost.validate.sql import qualified
 from milepost.validate.store.indicators import costs, cumulative, levels, rates, timing
-from milepost.validate.store.indicators.base import Kind, identifier
+from milepost.validate.store.indicators.base import Kind
 from milepost.validate.store.indicators.definitions import IndicatorSpecError, Plan, load_definitions, resolve
 from milepost.validate.store.indicators.interpolation import IndicatorDataError, drop_helpers, prepare
 
@@ -77,7 +78,7 @@ def compute_indicators(
     Raises IndicatorSpecError for unusable definitions and IndicatorDataError for conflicting repeated rows.
     """
     resolved = plan(contract, definitions)
-    out = identifier(target)
+    out = qualified(target)
     columns = ", ".join(f"{name} {sql_type}" for name, sql_type in COLUMNS)
     try:
         tables = prepare(

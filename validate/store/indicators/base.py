@@ -16,6 +16,8 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass
 
+from milepost.validate.sql import literal
+
 # How a kind's `unit` in indicators.toml relates to the variable's contract unit:
 #   level     the value is in the variable's unit and is converted into the indicator unit (value, peak_value)
 #   integral  the value is a sum of annual values, converted from the variable's unit into indicator unit + "/yr"
@@ -172,15 +174,3 @@ def frame(t: Tables, kind: str) -> str:
 def head(kind: str) -> str:
     """The leading output columns of a kind's SELECT (aliases as in `frame`)."""
     return f"s.model, s.scenario, s.region, {literal(kind)} AS kind, s.variable"
-
-
-def literal(text: str) -> str:
-    """A SQL string literal."""
-    return "'" + text.replace("'", "''") + "'"
-
-
-def identifier(name: str) -> str:
-    """A quoted SQL identifier; a dotted name (schema.table) is quoted part by part."""
-    if not name or any(not part for part in name.split(".")):
-        raise ValueError(f"not a table name: {name!r}")
-    return ".".join('"' + part.replace('"', '""') + '"' for part in name.split("."))

@@ -18,16 +18,13 @@ from typing import Any
 
 import milepost.schema
 from milepost.schema.contract import Contract
+from milepost.validate.errors import IndicatorSpecError as IndicatorSpecError  # re-exported
 from milepost.validate.store.indicators.base import SCALINGS, Kind
 
 DEFAULT_PATH = Path(milepost.schema.__file__).parent / "indicators.toml"
 PERIOD_SHAPES = ("points", "milestones", "pairs", "from_base", "reported")
 KEYS = ("variables", "exclude", "periods", "unit")
 _GAS_UNIT = re.compile(r"^[kMGT]?t (\S+)/yr$")
-
-
-class IndicatorSpecError(ValueError):
-    """An indicators.toml that cannot be used: bad TOML, unknown kind or key, or a period shape a kind refuses."""
 
 
 @dataclass(frozen=True)

@@ -21,14 +21,12 @@ from collections.abc import Iterable
 
 import duckdb
 
-from milepost.validate.store.indicators.base import Tables, identifier, lerp
+from milepost.validate.errors import IndicatorDataError as IndicatorDataError  # re-exported
+from milepost.validate.sql import qualified
+from milepost.validate.store.indicators.base import Tables, lerp
 
 PREFIX = "_milepost_indicators_"
 HELPERS = ("grouped", "endpoints", "series", "points", "annual", "selection", "periods")
-
-
-class IndicatorDataError(ValueError):
-    """Input rows that cannot be interpolated: the same series and year reported with different values."""
 
 
 def helper_names() -> dict[str, str]:
@@ -89,7 +87,7 @@ def prepare(
         f"CREATE TEMP TABLE {n['grouped']} AS SELECT (row_number() OVER ())::INTEGER AS sid,"
         " model, scenario, region, variable, min(year)::INTEGER AS first_year, max(year)::INTEGER AS last_year,"
         " list_sort(list({'year': year::INTEGER, 'value': value::DOUBLE})) AS pts"
-        f" FROM {identifier(data)} WHERE year IS NOT NULL AND value IS NOT NULL AND isfinite(value)"
+        f" FROM {qualified(data)} WHERE year IS NOT NULL AND value IS NOT NULL AND isfinite(value)"
         " AND list_contains(?::VARCHAR[], variable) GROUP BY model, scenario, region, variable",
         [sorted({r[1] for r in sel})],
     )
@@ -112,7 +110,7 @@ def prepare(
         f"CREATE TEMP TABLE {n['series']} AS SELECT g.sid, g.model, g.scenario, g.region, g.variable,"
         " g.first_year, g.last_year, e.ends, c.reference, r.sid AS ref_sid, re.ends AS ref_ends"
         f" FROM {n['grouped']} g LEFT JOIN {n['endpoints']} e ON e.sid = g.sid"
-        f" LEFT JOIN (SELECT DISTINCT model, scenario, reference FROM {identifier(scenarios)}"
+        f" LEFT JOIN (SELECT DISTINCT model, scenario, reference FROM {qualified(scenarios)}"
         " WHERE reference IS NOT NULL) c ON c.model = g.model AND c.scenario = g.scenario"
         f" LEFT JOIN {n['grouped']} r ON r.model = g.model AND r.scenario = c.reference AND r.region = g.region"
         f" AND r.variable = g.variable LEFT JOIN {n['endpoints']} re ON re.sid = r.sid"

@@ -13,7 +13,8 @@ Notes are stored in the `note` column of the indicator row.
 
 from __future__ import annotations
 
-from milepost.validate.store.indicators.base import Kind, Tables, first_at_or_below_zero, head, literal, span_peak
+from milepost.validate.sql import literal
+from milepost.validate.store.indicators.base import Kind, Tables, first_at_or_below_zero, head, span_peak
 
 
 def from_base_spans(t: Tables, kind: str) -> str:
