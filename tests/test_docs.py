@@ -7,6 +7,7 @@ from pathlib import Path
 
 from typer.testing import CliRunner
 
+from milepost.validate import errors
 from milepost.validate.cli import app
 from milepost.validate.findings import RULES
 
@@ -35,3 +36,16 @@ def test_every_top_level_command_has_help():
         assert group.typer_instance.info.help, group.name
     for command in app.registered_commands:
         assert (command.callback.__doc__ or "").strip(), command.name
+
+
+def test_the_exit_codes_are_documented_where_users_and_developers_look():
+    codes = {v for k, v in vars(errors).items() if k.startswith("EXIT_") and k != "EXIT_INTERRUPTED"}
+    for doc in ("README.md", "DEVELOPERS.md"):
+        text = (ROOT / doc).read_text()
+        section = text.split("## Exit codes" if doc == "README.md" else "## Errors and exit codes", 1)[1]
+        table = {int(c) for c in re.findall(r"^\| (\d+) \|", section.split("\n## ", 1)[0], flags=re.M)}
+        assert table == codes, doc
+    documented = errors.__doc__ or ""
+    for cls in (errors.UsageError, errors.LoadError, errors.LockTimeout, errors.OutputError, errors.ContractError):
+        line = next(line for line in documented.splitlines() if f" {cls.__name__} " in line)
+        assert line.rstrip().endswith(str(cls.exit_code)), line
