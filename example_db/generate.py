@@ -202,7 +202,7 @@ def _ramp(growth: np.ndarray, scale: np.ndarray) -> np.ndarray:
 def _models(names: tuple[str, ...], rng: np.random.Generator) -> Models:
     """Draw per-model parameters and build each model's calibrated no-policy paths."""
     m = len(names)
-    u = lambda lo, hi: rng.uniform(lo, hi, m)  # noqa: E731
+    u = lambda lo, hi: rng.uniform(lo, hi, m)  # noqa: E731 - a one-line helper used only here
     pop_scale, gdp_scale, aeei = u(0.85, 1.15), u(0.85, 1.15), u(0.010, 0.016)
     params = dict(
         price_scale=u(0.85, 1.3),
@@ -283,7 +283,7 @@ def _protocol_runs(
 
 def _subset(runs: Runs, idx: np.ndarray) -> Runs:
     """The runs at positions `idx`."""
-    pick = lambda xs: tuple(xs[i] for i in idx)  # noqa: E731
+    pick = lambda xs: tuple(xs[i] for i in idx)  # noqa: E731 - a one-line helper used only here
     return Runs(
         runs.model[idx], pick(runs.scenario), pick(runs.family), pick(runs.ambition), runs.start[idx], runs.price[idx]
     )
@@ -319,7 +319,7 @@ def _match_siblings(models: Models, runs: Runs, ghg_factor: dict[str, float], it
     if not len(delayed):
         return runs
     years = [int(np.searchsorted(YEARS, y)) for y in (2050, 2100)]
-    world = lambda r: _regional_ghg(_simulate(models, r, ghg_factor), ghg_factor).sum(axis=1)[:, years]  # noqa: E731
+    world = lambda r: _regional_ghg(_simulate(models, r, ghg_factor), ghg_factor).sum(axis=1)[:, years]  # noqa: E731 - a one-line helper used only here
     goal = world(_subset(runs, np.array([sibling[key[i]] for i in delayed])))
     sub = _subset(runs, delayed)
     premium, fade = np.ones(len(delayed)), np.full(len(delayed), DELAY_FADE_RANGE[0])

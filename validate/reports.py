@@ -158,7 +158,7 @@ def _raw_rows(
             wb.close()
         return header, rows
     if p.suffix.lower() in (".parquet", ".pq"):
-        rel = result.con.execute(f"SELECT * FROM read_parquet(?) LIMIT {limit}", [str(p)])  # noqa: S608 - the limit is an int
+        rel = result.con.execute("SELECT * FROM read_parquet(?) LIMIT ?", [str(p), limit])
         return [d[0] for d in rel.description], [(n, list(r)) for n, r in enumerate(rel.fetchall(), start=2)]
     import csv
 

@@ -116,14 +116,17 @@ def echo(message: str = "", *, err: bool = False, nl: bool = True) -> None:
 
 def _discard_stdout() -> None:
     # What is still buffered goes to /dev/null, so the interpreter's own flush at exit does not fail again.
-    with open(os.devnull, "w") as null:
+    with contextlib.suppress(OSError, ValueError), open(os.devnull, "w") as null:
         os.dup2(null.fileno(), sys.stdout.fileno())
 
 
 def _stdout_broken() -> OSError | None:
-    """The error standard output gives on flushing (a full disk, /dev/full), or None when it takes the output."""
+    """The error standard output gives on flushing (a full disk, /dev/full), or None when it takes the output
+    (or when its reader has gone away, as `| head` does: that is no error)."""
     try:
         sys.stdout.flush()
+    except BrokenPipeError:
+        _discard_stdout()
     except OSError as e:
         _discard_stdout()
         return e
@@ -149,7 +152,7 @@ def handle_errors(fn: F) -> F:
             typer.echo("Interrupted.", err=True)
             raise typer.Exit(EXIT_INTERRUPTED) from None
         except BrokenPipeError:
-            sys.stderr.close()
+            _discard_stdout()
             raise typer.Exit(EXIT_OK) from None
         except Exception as e:
             internal_error(e)
