@@ -1,7 +1,7 @@
 """Tests of the invented demo intercomparison generator (milepost.example_db.generate)."""
 
 # pandas-stubs types a `.loc[...]` scalar as the union of every scalar type; these checks index frames throughout.
-# mypy: disable-error-code="index, call-overload, arg-type, assignment, return-value"
+# mypy: disable-error-code="assignment, return-value"
 
 from __future__ import annotations
 

@@ -62,6 +62,8 @@ def age(db: Path) -> None:
     The values are shifted so that a recompute is visible; the catalog is checked against a real schema-1 file.
     """
     con = duckdb.connect(str(db))
+    con.execute("DROP VIEW submission_versions")  # migration 3
+    con.execute("ALTER TABLE findings DROP COLUMN column_name")
     con.execute("DROP VIEW current_indicators")
     con.execute("ALTER TABLE indicators DROP COLUMN note")
     con.execute(OLD_VIEW)

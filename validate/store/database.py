@@ -324,6 +324,8 @@ class Writer:
                     shutil.copyfile(self.db, self.tmp)
                 except OSError as e:
                     raise LoadError(f"cannot copy {self.db} to write it: {e.strerror or e}") from None
+            if not self.created:
+                self.migrated = self._migrate_copy()
             try:
                 self.con.execute(f"ATTACH ? AS {NEW}", [str(self.tmp)])
             except duckdb.Error as e:
@@ -331,16 +333,29 @@ class Writer:
             self._attached = True
             if self.created:
                 create_schema(self.con, NEW, self.migrations_dir)
-            else:
-                if schema_version(self.con, NEW) == 0 and _has_tables(self.con, NEW):
-                    raise LoadError(f"{self.db} is a DuckDB file but not a milepost database (no schema version)")
-                self.migrated = migrate(self.con, NEW, self.migrations_dir)
         except BaseException as e:
             self._discard()
             if is_file_error(e):
                 raise LoadError(f"cannot open {self.db} to write it: {one_line(e)}") from None
             raise
         return self
+
+    def _migrate_copy(self) -> list[int]:
+        # On a connection of its own: the caller's TEMP tables (a check run's `findings`) would shadow the tables
+        # of the same name that a migration's unqualified statements alter.
+        con = connect_memory()
+        try:
+            try:
+                con.execute(f"ATTACH ? AS {NEW}", [str(self.tmp)])
+            except duckdb.Error as e:
+                raise LoadError(f"cannot open {self.db}: {e}") from None
+            if schema_version(con, NEW) == 0 and _has_tables(con, NEW):
+                raise LoadError(f"{self.db} is a DuckDB file but not a milepost database (no schema version)")
+            applied = migrate(con, NEW, self.migrations_dir)
+            con.execute(f"CHECKPOINT {NEW}")
+            return applied
+        finally:
+            con.close()
 
     def begin(self) -> None:
         """Start the one transaction of this write."""
