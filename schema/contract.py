@@ -22,6 +22,9 @@ CORE_DIR = Path(__file__).parent / "core"
 NAME_PATTERN = re.compile(r"^[a-z0-9_]+(\.[a-z0-9_]+)*$")
 SIGNS = ("any", "non-negative")
 AGGREGATIONS = ("sum", "none", "zero")
+# Base-year harmonisation methods (published; usual names). A variable may also say "none": never harmonised.
+HARMONISE_METHODS = ("ratio", "offset", "converging-ratio", "converging-offset")
+HARMONISE_OFF = "none"
 FILES = ("contract.toml", "variables.toml", "regions.toml", "reference.csv", "bounds.csv")
 
 
@@ -43,6 +46,8 @@ class Variable:
     sign: str = "any"
     regions: str = "sum"
     parts: tuple[Part, ...] = ()
+    harmonise: str | None = None  # method for this variable; None = the contract's default applies
+    converge_year: int | None = None  # convergence year of the converging methods; None = the default
 
 
 @dataclass(frozen=True)
@@ -57,6 +62,19 @@ class Tolerance:
     sum_relative: float = 0.01
     sum_absolute: float = 0.001
     base_year_relative: float = 0.10
+
+
+@dataclass(frozen=True)
+class Harmonise:
+    """Base-year harmonisation defaults: the variables harmonised (name patterns), the method, the convergence year.
+
+    A variable's own `harmonise` / `converge_year` in variables.toml override these; `harmonise = "none"` keeps
+    a variable out even where a pattern matches it.
+    """
+
+    variables: tuple[str, ...] = ()
+    method: str = "converging-ratio"
+    converge_year: int = 2050
 
 
 @dataclass(frozen=True)
@@ -101,6 +119,7 @@ class Contract:
     severity: dict[str, str]
     reference: tuple[Reference, ...]
     bounds: tuple[Bound, ...]
+    harmonise: Harmonise = Harmonise()
     problems: tuple[str, ...] = field(default=(), compare=False)
     hash: str = ""
     units: Any = field(default=None, compare=False, repr=False)
@@ -125,6 +144,8 @@ class Contract:
                     "sign": v.sign,
                     "regions": v.regions,
                     "parts": [{"variable": p.variable, "factor": p.factor, "gwp": p.gwp} for p in v.parts],
+                    "harmonise": v.harmonise,
+                    "converge_year": v.converge_year,
                 }
                 for v in self.variables.values()
             ],
@@ -141,6 +162,7 @@ class Contract:
             "severity": self.severity,
             "reference": [asdict(r) for r in self.reference],
             "bounds": [asdict(b) for b in self.bounds],
+            "harmonise": {**asdict(self.harmonise), "variables": list(self.harmonise.variables)},
         }
 
     def references_in_contract_units(self) -> tuple[Reference, ...]:
@@ -229,6 +251,42 @@ def _number(value: Any, where: str) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise ContractError(f"{where}: expected a number, got {value!r}")
     return float(value)
+
+
+def _optional_text(value: Any, where: str) -> str | None:
+    if value is None:
+        return None
+    if not isinstance(value, str):
+        raise ContractError(f"{where}: expected a text, got {value!r}")
+    return value
+
+
+def _optional_year(value: Any, where: str) -> int | None:
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise ContractError(f"{where}: expected a whole year, got {value!r}")
+    return value
+
+
+def _harmonise_settings(table: Any, where: str) -> Harmonise:
+    """The [harmonise] table of contract.toml: types are checked here, the values by contract lint."""
+    if not isinstance(table, dict):
+        raise ContractError(f"{where}: [harmonise] must be a table")
+    unknown = sorted(set(table) - set(Harmonise.__dataclass_fields__))
+    if unknown:
+        raise ContractError(f"{where}: [harmonise] has unknown keys {', '.join(unknown)}")
+    default = Harmonise()
+    patterns = table.get("variables", list(default.variables))
+    if not isinstance(patterns, list) or not all(isinstance(p, str) for p in patterns):
+        raise ContractError(f"{where}: [harmonise] variables must be a list of names or patterns")
+    method = _optional_text(table.get("method"), f"{where}: [harmonise] method")
+    year = _optional_year(table.get("converge_year"), f"{where}: [harmonise] converge_year")
+    return Harmonise(
+        tuple(patterns),
+        method if method is not None else default.method,
+        year if year is not None else default.converge_year,
+    )
 
 
 def _optional_number(text: str | None, where: str) -> float | None:
@@ -391,6 +449,8 @@ def _resolve(
             sign=str(spec.get("sign", "any")),
             regions=str(spec.get("regions", "sum")),
             parts=tuple(parts),
+            harmonise=_optional_text(spec.get("harmonise"), f"{vfile}: [{name}] harmonise"),
+            converge_year=_optional_year(spec.get("converge_year"), f"{vfile}: [{name}] converge_year"),
         )
     resolved_regions = {
         name: Region(name, tuple(str(x) for x in spec.get("parts", ())), str(spec.get("description", "")))
@@ -419,6 +479,7 @@ def _resolve(
         severity=severity,
         reference=tuple(reference.values()),
         bounds=tuple(bounds),
+        harmonise=_harmonise_settings(head.get("harmonise", {}), where),
         problems=tuple(problems),
         units=units,
     )

@@ -2,11 +2,20 @@
 
 from __future__ import annotations
 
+import fnmatch
 import os
 from pathlib import Path
 from typing import Any
 
-from milepost.schema.contract import AGGREGATIONS, NAME_PATTERN, SIGNS, Contract, iso3_codes
+from milepost.schema.contract import (
+    AGGREGATIONS,
+    HARMONISE_METHODS,
+    HARMONISE_OFF,
+    NAME_PATTERN,
+    SIGNS,
+    Contract,
+    iso3_codes,
+)
 from milepost.schema.units import UnitError
 from milepost.validate.findings import RULES, SEVERITIES, Finding
 
@@ -188,6 +197,50 @@ def lint(contract: Contract) -> list[Finding]:
                     path=src,
                 )
             )
+    out += _harmonise_problems(c, src)
+    return out
+
+
+def _harmonise_problems(c: Contract, src: str | None) -> list[Finding]:
+    """contract-harmonise: the harmonisation defaults and each variable's own method and convergence year.
+
+    A convergence year is checked only where a converging method uses it, so a contract that harmonises nothing
+    is never faulted for a default it does not use."""
+    from milepost.validate.harmonise.settings import CONVERGING_METHODS, choices
+
+    out: list[Finding] = []
+    h = c.harmonise
+    methods = ", ".join(HARMONISE_METHODS)
+    if h.method not in HARMONISE_METHODS:
+        out.append(_f("contract-harmonise", f"[harmonise] method {h.method!r} is not one of {methods}", path=src))
+    for pattern in h.variables:
+        if not any(fnmatch.fnmatchcase(name, pattern) for name in c.variables):
+            out.append(_f("contract-harmonise", f"[harmonise] variables: {pattern!r} matches no variable", path=src))
+    for v in c.variables.values():
+        if v.harmonise is not None and v.harmonise not in (*HARMONISE_METHODS, HARMONISE_OFF):
+            out.append(
+                _f(
+                    "contract-harmonise",
+                    f"{v.name}: harmonise {v.harmonise!r} is not one of {methods}, {HARMONISE_OFF}",
+                    path=src,
+                    variable=v.name,
+                )
+            )
+    hint = "The converging methods move from the reference at the base year to the model's own values later."
+    default_told = False
+    for choice in choices(c):
+        if choice.method not in CONVERGING_METHODS or choice.converge_year > c.base_year:
+            continue
+        own = c.variables[choice.variable].converge_year is not None
+        if own:
+            message = (
+                f"{choice.variable}: converge_year {choice.converge_year} is not after the base year {c.base_year}"
+            )
+            out.append(_f("contract-harmonise", message, hint, path=src, variable=choice.variable))
+        elif not default_told:
+            message = f"[harmonise] converge_year {h.converge_year} is not after the base year {c.base_year}"
+            out.append(_f("contract-harmonise", message, hint, path=src))
+            default_told = True
     return out
 
 

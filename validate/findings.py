@@ -76,6 +76,36 @@ RULES: dict[str, Rule] = {
             "The base-year value is further from the contract's reference value than the tolerance.",
         ),
         Rule("out-of-bounds", "warning", "data", "The value is outside the contract's plausibility bounds."),
+        Rule(
+            "harmonise-no-base-year",
+            "warning",
+            "data",
+            "A series with a reference value has no base-year value: it cannot be harmonised and is left out.",
+        ),
+        Rule(
+            "harmonise-zero-base",
+            "note",
+            "data",
+            "The base-year value is zero, so a ratio method is undefined: the offset method was used instead.",
+        ),
+        Rule(
+            "harmonise-sign-differs",
+            "note",
+            "data",
+            "The base-year value and the reference differ in sign: the offset method was used instead of a ratio.",
+        ),
+        Rule(
+            "harmonise-partial-total",
+            "warning",
+            "data",
+            "A total whose parts were not all harmonised: rebuilt partly from reported values, or left out.",
+        ),
+        Rule(
+            "harmonise-parts-left-out",
+            "note",
+            "data",
+            "A series harmonised from its own reference value has parts without one: the parts are left out.",
+        ),
         Rule("contract-name", "error", "contract", "A variable name, sign or aggregation rule is malformed."),
         Rule("contract-part", "error", "contract", "A part names a variable or region the contract does not have."),
         Rule("contract-cycle", "error", "contract", "Parts refer back to their own total (a cycle)."),
@@ -93,6 +123,12 @@ RULES: dict[str, Rule] = {
             "something the contract does not have, or has a unit that does not convert.",
         ),
         Rule("contract-severity", "error", "contract", "A severity override names an unknown rule or severity."),
+        Rule(
+            "contract-harmonise",
+            "error",
+            "contract",
+            "A harmonisation method, convergence year or variable pattern is unknown or out of range.",
+        ),
     )
 }
 

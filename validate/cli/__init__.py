@@ -12,7 +12,7 @@ from milepost.validate.cli.common import echo, internal_error
 from milepost.validate.errors import EXIT_INTERRUPTED
 
 # Each module exposes register(app). Keep the order: it is the order of `milepost --help`.
-COMMAND_MODULES = ("check", "contract", "db", "dashboard")
+COMMAND_MODULES = ("check", "contract", "harmonise", "db", "dashboard")
 
 app = typer.Typer(
     add_completion=False,

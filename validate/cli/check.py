@@ -98,8 +98,9 @@ def rules() -> None:
     """List every rule id with its default severity and meaning."""
     from milepost.validate.findings import RULES
 
+    width = max(len(r) for r in RULES) + 2
     for r in RULES.values():
-        echo(f"{r.id:<22}{r.severity:<9}{r.category:<10}{r.summary}")
+        echo(f"{r.id:<{width}}{r.severity:<9}{r.category:<10}{r.summary}")
 
 
 def register(app: typer.Typer) -> None:
