@@ -1,5 +1,8 @@
 """`make demo`: write the invented demo submissions, check each one, and load them through `milepost ingest`.
 
+Each submission is stored twice over, as submitted and harmonised to the contract's base-year reference values
+(`--harmonise`), so the dashboard can show raw and harmonised pathways side by side.
+
 Everything goes through the real command line, as an assessment author would run it, so the demo database is
 built exactly like a real one (never by writing to it directly).
 """
@@ -52,6 +55,7 @@ def main(argv: list[str] | None = None) -> int:
             "demo",
             "--note",
             f"demo submission: {name}",
+            "--harmonise",
         )
         if code != expected:
             print(f"unexpected exit code {code} when ingesting the {name} submission", file=sys.stderr)

@@ -1,5 +1,5 @@
 -- Milepost scenario database: the complete current schema (tables and views).
--- schema_version: 3
+-- schema_version: 4
 -- A new database is built from this file; an older one is brought here by the numbered files in migrations/.
 -- Every change here needs a new migrations/NNNN_*.sql that makes the same change (tests compare the two).
 
@@ -56,7 +56,8 @@ CREATE TABLE data (
     variable VARCHAR,
     unit VARCHAR,
     year INTEGER,
-    value DOUBLE
+    value DOUBLE,
+    basis VARCHAR DEFAULT 'raw' -- 'raw' (as submitted) or 'harmonised' (aligned with the base-year reference)
 );
 
 CREATE TABLE scenarios (
@@ -80,7 +81,27 @@ CREATE TABLE indicators (
     year_to INTEGER,
     value DOUBLE,
     unit VARCHAR,
-    note VARCHAR
+    note VARCHAR,
+    basis VARCHAR DEFAULT 'raw' -- the basis of the data the indicator was computed from
+);
+
+-- The method used for each series of a harmonised submission (`milepost ingest --harmonise`).
+CREATE TABLE harmonisation (
+    submission_id INTEGER,
+    model VARCHAR,
+    scenario VARCHAR,
+    region VARCHAR,
+    variable VARCHAR,
+    unit VARCHAR,
+    method VARCHAR,             -- ratio | offset | converging-ratio | converging-offset | from-parts | from-regions
+                                -- | unchanged | left-out
+    requested VARCHAR,          -- the method the contract asked for (NULL: the series is not harmonised)
+    factor DOUBLE,              -- h / m(t0), the ratio methods
+    offset_value DOUBLE,        -- h - m(t0), the offset methods
+    convergence_year INTEGER,   -- the converging methods
+    base_value DOUBLE,          -- the model's base-year value m(t0)
+    reference_value DOUBLE,     -- the contract's reference value h
+    note VARCHAR                -- why: a fallback from a ratio, the parts of a rebuilt total, why it was left out
 );
 
 -- The version of each submission within its model, the one numbering the CLI and the dashboard show:
@@ -100,10 +121,12 @@ JOIN submissions AS b ON b.id = s.submission_id
 WHERE b.status IN ('accepted', 'superseded')
 GROUP BY s.model, s.scenario;
 
+-- Raw values only: readers that know nothing of harmonisation keep reading what was submitted.
 CREATE VIEW current_data AS
 SELECT d.submission_id, d.model, d.scenario, d.region, d.variable, d.unit, d.year, d.value
 FROM data AS d
-JOIN current_versions AS c ON c.submission_id = d.submission_id AND c.model = d.model AND c.scenario = d.scenario;
+JOIN current_versions AS c ON c.submission_id = d.submission_id AND c.model = d.model AND c.scenario = d.scenario
+WHERE d.basis = 'raw';
 
 CREATE VIEW current_scenarios AS
 SELECT s.submission_id, s.model, s.scenario, s.reference, s.attributes
@@ -114,4 +137,23 @@ CREATE VIEW current_indicators AS
 SELECT i.submission_id, i.model, i.scenario, i.region, i.kind, i.variable, i.year_from, i.year_to, i.value, i.unit,
        i.note
 FROM indicators AS i
+JOIN current_versions AS c ON c.submission_id = i.submission_id AND c.model = i.model AND c.scenario = i.scenario
+WHERE i.basis = 'raw';
+
+-- Both bases, for readers that choose one (the dashboard's raw/harmonised switch, `milepost export --basis`).
+CREATE VIEW current_data_by_basis AS
+SELECT d.submission_id, d.model, d.scenario, d.region, d.variable, d.unit, d.year, d.value, d.basis
+FROM data AS d
+JOIN current_versions AS c ON c.submission_id = d.submission_id AND c.model = d.model AND c.scenario = d.scenario;
+
+CREATE VIEW current_indicators_by_basis AS
+SELECT i.submission_id, i.model, i.scenario, i.region, i.kind, i.variable, i.year_from, i.year_to, i.value, i.unit,
+       i.note, i.basis
+FROM indicators AS i
 JOIN current_versions AS c ON c.submission_id = i.submission_id AND c.model = i.model AND c.scenario = i.scenario;
+
+CREATE VIEW current_harmonisation AS
+SELECT h.submission_id, h.model, h.scenario, h.region, h.variable, h.unit, h.method, h.requested, h.factor,
+       h.offset_value, h.convergence_year, h.base_value, h.reference_value, h.note
+FROM harmonisation AS h
+JOIN current_versions AS c ON c.submission_id = h.submission_id AND c.model = h.model AND c.scenario = h.scenario;

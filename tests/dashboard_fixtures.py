@@ -18,13 +18,14 @@ _BUILT: dict[str, tuple[Path, DemoFiles]] = {}
 
 
 def build_demo_db(folder: Path) -> tuple[Path, DemoFiles]:
-    """Write the demo files and ingest them in the documented order: four models, the flawed one, the revision."""
+    """Write the demo files and ingest them in the documented order (four models, the flawed one, the revision),
+    harmonised as `make demo-db` does: raw values beside harmonised ones."""
     key = str(folder)
     if key not in _BUILT:
         files = write_demo(folder / "files")
         db = folder / "milepost.duckdb"
         for paths in [*files.submissions.values(), files.flawed, files.revision]:
-            ingest(paths, db, CONTRACT_DIR)
+            ingest(paths, db, CONTRACT_DIR, harmonise=True)
         _BUILT[key] = (db, files)
     return _BUILT[key]
 

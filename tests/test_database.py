@@ -16,8 +16,17 @@ from milepost.validate.findings import FINDING_COLUMNS, FINDING_TYPES
 from milepost.validate.store import database as dbm
 from milepost.validate.store import exports, ingest
 
-TABLES = {"meta", "submissions", "findings", "data", "scenarios", "indicators"}
-VIEWS = {"current_versions", "current_data", "current_scenarios", "current_indicators", "submission_versions"}
+TABLES = {"meta", "submissions", "findings", "data", "scenarios", "indicators", "harmonisation"}
+VIEWS = {
+    "current_versions",
+    "current_data",
+    "current_scenarios",
+    "current_indicators",
+    "submission_versions",
+    "current_data_by_basis",
+    "current_indicators_by_basis",
+    "current_harmonisation",
+}
 
 
 def catalog(con: duckdb.DuckDBPyConnection, name: str) -> tuple[dict, dict]:
@@ -64,14 +73,18 @@ def test_stored_columns_are_the_ones_the_code_writes_and_reads(tmp_path: Path) -
     findings = cols["findings"]
     assert [c for c, _ in findings] == ["submission_id", *FINDING_COLUMNS]
     assert {c: t for c, t in findings if t != "VARCHAR"} == {"submission_id": "INTEGER", **FINDING_TYPES}
-    assert tuple(c for c, _ in cols["data"]) == ("submission_id", *ingest.DATA_COLUMNS) == exports.DATA_COLUMNS
-    assert tuple(c for c, _ in cols["current_data"]) == exports.DATA_COLUMNS
+    # data and indicators carry a basis (raw or harmonised) last; the current views are raw only, without it
+    assert tuple(c for c, _ in cols["data"]) == ("submission_id", *ingest.DATA_COLUMNS, "basis")
+    assert tuple(c for c, _ in cols["current_data"]) == exports.DATA_COLUMNS == ("submission_id", *ingest.DATA_COLUMNS)
+    assert tuple(c for c, _ in cols["current_data_by_basis"]) == (*exports.DATA_COLUMNS, "basis")
     assert (
         tuple(c for c, _ in cols["indicators"])
-        == ("submission_id", *ingest.INDICATOR_COLUMNS)
-        == exports.INDICATOR_COLUMNS
-        == tuple(c for c, _ in cols["current_indicators"])
+        == ("submission_id", *ingest.INDICATOR_COLUMNS, "basis")
+        == (*exports.INDICATOR_COLUMNS, "basis")
+        == (*(c for c, _ in cols["current_indicators"]), "basis")
+        == tuple(c for c, _ in cols["current_indicators_by_basis"])
     )
+    assert tuple(c for c, _ in cols["harmonisation"]) == ("submission_id", *ingest.HARMONISATION_COLUMNS)
     assert tuple(c for c, _ in cols["current_scenarios"]) == exports.SNAPSHOT_TABLES[2][2]
     assert [c for c, _ in cols["submission_versions"]] == ["submission_id", "model", "version"]
 
@@ -91,7 +104,7 @@ def test_migration_runs_forward_and_keeps_rows(tmp_path: Path) -> None:
     build(db)
     con = dbm.connect_memory()
     con.execute("ATTACH ? AS x", [str(db)])
-    con.execute("INSERT INTO x.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 7800.0)")
+    con.execute("INSERT INTO x.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 7800.0, 'raw')")
     con.close()
     extra = tmp_path / "migrations"
     extra.mkdir()
@@ -140,7 +153,7 @@ def test_failed_write_leaves_the_live_file_untouched(tmp_path: Path) -> None:
     con = dbm.connect_memory()
     with pytest.raises(duckdb.Error), dbm.Writer(db, con) as w:
         w.begin()
-        con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0)")
+        con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0, 'raw')")
         con.execute("INSERT INTO new.no_such_table VALUES (1)")
     assert db.read_bytes() == before
     assert sorted(p.name for p in tmp_path.iterdir()) == ["m.duckdb", "m.duckdb.lock"]
@@ -227,7 +240,7 @@ def test_reader_keeps_its_snapshot_and_refreshes_after_a_swap(tmp_path: Path) ->
     con = dbm.connect_memory()
     with dbm.Writer(db, con) as w:
         w.begin()
-        con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0)")
+        con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0, 'raw')")
     assert reader.changed()
     assert reader.con.execute("SELECT count(*) FROM data").fetchall() == [(0,)]  # the old file, whole
     assert reader.refresh() is True
@@ -254,7 +267,7 @@ def test_read_only_connection_of_another_process_does_not_block_a_write(tmp_path
         con = dbm.connect_memory()
         with dbm.Writer(db, con, timeout=0) as w:  # timeout=0: any wait for the reader would fail the write
             w.begin()
-            con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0)")
+            con.execute("INSERT INTO new.data VALUES (1, 'M', 'S', 'World', 'population', 'million', 2020, 1.0, 'raw')")
         con.close()
         with dbm.open_reader(db) as r:
             assert r.con.execute("SELECT count(*) FROM data").fetchall() == [(1,)]
@@ -280,7 +293,8 @@ def test_no_wal_is_left_next_to_the_live_file(tmp_path: Path) -> None:
     with dbm.Writer(db, con) as w:
         w.begin()
         con.execute(
-            "INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000 + i % 100, i FROM range(300000) t(i)"
+            "INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000 + i % 100, i, 'raw' "
+            "FROM range(300000) t(i)"
         )
     con.close()
     assert not os.path.exists(str(db) + ".wal")

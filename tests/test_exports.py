@@ -175,7 +175,7 @@ def test_xlsx_refuses_more_rows_than_a_sheet_holds(tmp_path: Path) -> None:
         )
         con.execute("INSERT INTO new.scenarios VALUES (1, 'M', 'S', NULL, '{}')")
         con.execute(
-            "INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000, i FROM range(?) t(i)",
+            "INSERT INTO new.data SELECT 1, 'M', 'S', 'World', 'v', 'u', 2000, i, 'raw' FROM range(?) t(i)",
             [XLSX_MAX_ROWS + 1],
         )
     con.close()
@@ -237,7 +237,7 @@ def test_snapshot_partition_names_survive_odd_model_names(tmp_path: Path) -> Non
                 [i, m],
             )
             con.execute("INSERT INTO new.scenarios VALUES (?, ?, 'S', NULL, '{}')", [i, m])
-            con.execute("INSERT INTO new.data VALUES (?, ?, 'S', 'World', 'v', 'u', 2020, ?)", [i, m, float(i)])
+            con.execute("INSERT INTO new.data VALUES (?, ?, 'S', 'World', 'v', 'u', 2020, ?, 'raw')", [i, m, float(i)])
     con.close()
     out = tmp_path / "snap"
     snapshot(path, out)

@@ -22,6 +22,10 @@ OLD_VIEW = """CREATE VIEW current_indicators AS
 SELECT i.submission_id, i.model, i.scenario, i.region, i.kind, i.variable, i.year_from, i.year_to, i.value, i.unit
 FROM indicators AS i
 JOIN current_versions AS c ON c.submission_id = i.submission_id AND c.model = i.model AND c.scenario = i.scenario;"""
+OLD_DATA_VIEW = """CREATE VIEW current_data AS
+SELECT d.submission_id, d.model, d.scenario, d.region, d.variable, d.unit, d.year, d.value
+FROM data AS d
+JOIN current_versions AS c ON c.submission_id = d.submission_id AND c.model = d.model AND c.scenario = d.scenario;"""
 
 
 @pytest.fixture(scope="module")
@@ -62,9 +66,16 @@ def age(db: Path) -> None:
     The values are shifted so that a recompute is visible; the catalog is checked against a real schema-1 file.
     """
     con = duckdb.connect(str(db))
+    # what schema 4 added (harmonised values beside the raw ones) goes first, then schema 3's and 2's
+    for view in ("current_harmonisation", "current_indicators_by_basis", "current_data_by_basis", "current_data"):
+        con.execute(f"DROP VIEW {view}")
+    con.execute("DROP TABLE harmonisation")
+    con.execute("ALTER TABLE data DROP COLUMN basis")
+    con.execute(OLD_DATA_VIEW)
     con.execute("DROP VIEW submission_versions")  # migration 3
     con.execute("ALTER TABLE findings DROP COLUMN column_name")
     con.execute("DROP VIEW current_indicators")
+    con.execute("ALTER TABLE indicators DROP COLUMN basis")
     con.execute("ALTER TABLE indicators DROP COLUMN note")
     con.execute(OLD_VIEW)
     con.execute("UPDATE indicators SET value = value + 1")

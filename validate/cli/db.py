@@ -28,6 +28,11 @@ class What(StrEnum):
     findings = "findings"
 
 
+class Basis(StrEnum):
+    raw = "raw"
+    harmonised = "harmonised"
+
+
 class ExportFormat(StrEnum):
     csv = "csv"
     parquet = "parquet"
@@ -62,6 +67,13 @@ def ingest_cmd(
     accept_warnings: Annotated[
         bool, typer.Option("--accept-warnings", help="Accept a submission whose findings are warnings only.")
     ] = False,
+    harmonise: Annotated[
+        bool,
+        typer.Option(
+            "--harmonise",
+            help="Also store values harmonised to the contract's base-year reference values (basis 'harmonised').",
+        ),
+    ] = False,
     wait: Annotated[
         float | None,
         typer.Option(
@@ -86,6 +98,7 @@ def ingest_cmd(
         note=note,
         accept_warnings=accept_warnings,
         progress=True,
+        harmonise=harmonise,
         lock_timeout=wait,
         on_wait=warn,
     )
@@ -114,6 +127,13 @@ def ingest_cmd(
             f"Accepted as submission {result.submission_id}: model {result.model}, {scen}, "
             f"{result.rows:,} rows stored in {result.db}."
         )
+        if result.harmonised:
+            h = result.harmonise_counts
+            typer.echo(
+                f"Harmonised: {result.harmonised_rows:,} rows stored beside the raw ones, "
+                f"{result.harmonised_series:,} series adjusted ({h.get('warning', 0)} warnings, "
+                f"{h.get('note', 0)} notes; `milepost harmonise` with the same files lists them)."
+            )
         if result.replaced:
             older = ", ".join(f"{r['scenario']} (submission {r['submission_id']})" for r in result.replaced)
             echo(f"New version of: {older}; the older versions are kept as history.")
@@ -188,12 +208,15 @@ def export_cmd(
     submission: Annotated[
         list[int] | None, typer.Option("--submission", help="Rows of this submission, current or not (repeatable).")
     ] = None,
+    basis: Annotated[
+        Basis, typer.Option("--basis", help="Data and indicators as submitted (raw) or harmonised.")
+    ] = Basis.raw,
 ) -> None:
     """Export data, indicators or findings as CSV, Parquet or XLSX."""
     from milepost.validate.store.database import default_db_path, warn
     from milepost.validate.store.exports import Filters, export
 
-    filters = Filters(model or (), scenario or (), region or (), variable or (), submission or ())
+    filters = Filters(model or (), scenario or (), region or (), variable or (), submission or (), basis.value)
     n = export(default_db_path(db), what.value, fmt.value, output, filters, on_warning=warn)
     echo(f"Wrote {n:,} rows to {output}.", err=True)
 

@@ -22,7 +22,13 @@ from milepost.validate.findings import FINDING_COLUMNS
 from milepost.validate.outputs import save_workbook, writing
 from milepost.validate.readers import sha256_of
 from milepost.validate.sql import literal
-from milepost.validate.store.database import reading, schema_version, select_columns, view_or_definition
+from milepost.validate.store.database import (
+    reading,
+    schema_version,
+    select_columns,
+    stored_columns,
+    view_or_definition,
+)
 from milepost.validate.store.recompute import outdated_reason
 
 XLSX_MAX_ROWS = 1_048_575  # an Excel sheet has 1,048,576 rows; one is the header
@@ -74,6 +80,7 @@ EXPORTS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     ),
 }
 FORMATS = ("csv", "parquet", "xlsx")
+BASES = ("raw", "harmonised")  # data and indicators: as submitted, or harmonised (`milepost ingest --harmonise`)
 SNAPSHOT_TABLES = (
     ("data", "current_data", DATA_COLUMNS, "scenario, region, variable, year"),
     ("indicators", "current_indicators", INDICATOR_COLUMNS, "scenario, region, kind, variable, year_from, year_to"),
@@ -90,11 +97,15 @@ class Filters:
     region: Sequence[str] = ()
     variable: Sequence[str] = ()
     submission: Sequence[int] = ()
+    basis: str = "raw"  # one of BASES; only data and indicators have one
 
-    def where(self) -> tuple[str, list[Any]]:
-        """A WHERE clause with `?` placeholders, and its parameters."""
+    def where(self, with_basis: bool = False) -> tuple[str, list[Any]]:
+        """A WHERE clause with `?` placeholders, and its parameters; `with_basis` adds the basis filter."""
         clauses: list[str] = []
         params: list[Any] = []
+        if with_basis:
+            clauses.append("basis = ?")
+            params.append(self.basis)
         for column, given in (
             ("model", self.model),
             ("scenario", self.scenario),
@@ -108,22 +119,36 @@ class Filters:
                 params += values
         return (" WHERE " + " AND ".join(clauses)) if clauses else "", params
 
-    def to_dict(self) -> dict[str, list[Any]]:
-        return {k: list(v) for k, v in self.__dict__.items() if v}
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {k: list(v) for k, v in self.__dict__.items() if v and k != "basis"}
+        return {**out, "basis": self.basis}
 
 
 def export_query(what: str, filters: Filters, con: duckdb.DuckDBPyConnection | None = None) -> tuple[str, list[Any]]:
     """The SELECT of an export: current rows (or, with a submission filter, that submission's stored rows).
 
     With `con`, a column that a database of an older schema does not have yet (not migrated: readers do not
-    migrate) is exported empty.
+    migrate) is exported empty. Data and indicators are those of `filters.basis`; a database of a schema before
+    harmonised values existed holds raw ones only.
     """
     if what not in EXPORTS:
         raise UsageError(f"--what must be one of {', '.join(EXPORTS)}, not {what!r}")
+    if filters.basis not in BASES:
+        raise UsageError(f"--basis must be one of {', '.join(BASES)}, not {filters.basis!r}")
     view, table, columns, order = EXPORTS[what]
+    with_basis = what in ("data", "indicators")
+    if with_basis and con is not None and "basis" not in stored_columns(con, "data"):
+        if filters.basis != "raw":
+            raise UsageError(
+                "the database holds no harmonised values: it was written before they existed "
+                "(`milepost ingest --harmonise` migrates it and stores them)"
+            )
+        with_basis = False
+    elif with_basis:
+        view = f"{view}_by_basis"  # current_data_by_basis, current_indicators_by_basis: every basis
     # A submission filter asks for history: read the table, not the current view.
     source = table if filters.submission else view
-    where, params = filters.where()
+    where, params = filters.where(with_basis=with_basis)
     select = select_columns(con, source, columns) if con is not None else ", ".join(columns)
     return f"SELECT {select} FROM {source}{where} ORDER BY {order}", params  # noqa: S608 - names from this module; filters bound as parameters
 
@@ -392,6 +417,9 @@ def diff(
             if common_only
             else ""
         )
+        # the values as submitted: harmonised rows (basis 'harmonised') are derived from them, not compared
+        raw = "basis = 'raw' AND " if "basis" in stored_columns(con, "data") else ""
+        stored = f"SELECT {key}, unit, value FROM data WHERE {raw}submission_id = ?"  # noqa: S608 - names from this module
         con.execute(
             f"""
             CREATE TEMP TABLE diff_rows AS
@@ -404,8 +432,8 @@ def diff(
                         WHEN x.unit IS DISTINCT FROM y.unit
                           OR abs(y.value - x.value) > greatest(? * abs(x.value), ?) THEN 'changed'
                         ELSE 'same' END AS change
-            FROM (SELECT {key}, unit, value FROM data WHERE submission_id = ? {common}) AS x
-            FULL OUTER JOIN (SELECT {key}, unit, value FROM data WHERE submission_id = ? {common}) AS y
+            FROM ({stored} {common}) AS x
+            FULL OUTER JOIN ({stored} {common}) AS y
               USING ({key})""",  # noqa: S608 - names from this module; filters bound as parameters
             [relative, absolute, a, b],
         )

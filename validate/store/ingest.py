@@ -27,6 +27,21 @@ from milepost.validate.store.database import NEW, Reader, Writer, connect_memory
 
 DATA_COLUMNS = ("model", "scenario", "region", "variable", "unit", "year", "value")
 INDICATOR_COLUMNS = ("model", "scenario", "region", "kind", "variable", "year_from", "year_to", "value", "unit", "note")
+HARMONISATION_COLUMNS = (
+    "model",
+    "scenario",
+    "region",
+    "variable",
+    "unit",
+    "method",
+    "requested",
+    "factor",
+    "offset_value",
+    "convergence_year",
+    "base_value",
+    "reference_value",
+    "note",
+)
 PROGRESS_ROWS = 1_000_000  # show a progress bar for the load stage above this many rows
 
 
@@ -53,6 +68,10 @@ class IngestResult:
     findings: list[Any] = field(default_factory=list)  # milepost.validate.findings.Finding (capped per rule)
     reason: str = ""
     timings: dict[str, float] = field(default_factory=dict)
+    harmonised: bool = False  # harmonised values were stored beside the raw ones
+    harmonised_rows: int = 0
+    harmonised_series: int = 0  # series adjusted (harmonised directly or rebuilt from harmonised parts)
+    harmonise_counts: dict[str, int] = field(default_factory=dict)  # harmonisation findings by severity
 
     @property
     def exit_code(self) -> int:
@@ -82,30 +101,47 @@ def submission_digest(digests: Sequence[str]) -> str:
 
 
 def _find_repeat(
-    con: duckdb.DuckDBPyConnection, catalog: str, sha: str, contract_hash: str, accept_warnings: bool
+    con: duckdb.DuckDBPyConnection,
+    catalog: str,
+    sha: str,
+    contract_hash: str,
+    accept_warnings: bool,
+    harmonise: bool = False,
 ) -> tuple[Any, ...] | None:
     """The earlier submission of the same files under the same contract whose outcome would not change."""
+    c = identifier(catalog)
+    # a database written before harmonised values existed (read before the writer migrates it) has no such table
+    has_table = con.execute(
+        "SELECT count(*) FROM duckdb_tables() WHERE database_name = ? AND table_name = 'harmonisation'", [catalog]
+    ).fetchall()[0][0]
+    harmonised = f"EXISTS (SELECT 1 FROM {c}.harmonisation AS h WHERE h.submission_id = s.id)" if has_table else "false"
     rows = con.execute(
-        f"SELECT id, status, errors, warnings FROM {identifier(catalog)}.submissions "  # noqa: S608 - names from the code; values bound as parameters
+        f"SELECT id, status, errors, warnings, {harmonised} AS harmonised FROM {c}.submissions AS s "
         "WHERE sha256 = ? AND contract_hash = ? ORDER BY id DESC",
         [sha, contract_hash],
     ).fetchall()
     for row in rows:
-        _, status, errors, _warnings = row
-        # A rejection for warnings alone is worth retrying with --accept-warnings; anything else would repeat.
-        if status != "rejected" or errors or not accept_warnings:
-            return row
+        _, status, errors, _warnings, harmonised = row
+        # A rejection for warnings alone is worth retrying with --accept-warnings, and an accepted submission
+        # stored without harmonised values is worth storing again with them; anything else would repeat.
+        if status == "rejected" and not errors and accept_warnings:
+            continue
+        if status != "rejected" and harmonise and not harmonised:
+            continue
+        return row[:4]
     return None
 
 
-def _check_repeat_before_lock(db: Path, sha: str, contract_hash: str, accept_warnings: bool) -> tuple[Any, ...] | None:
+def _check_repeat_before_lock(
+    db: Path, sha: str, contract_hash: str, accept_warnings: bool, harmonise: bool = False
+) -> tuple[Any, ...] | None:
     if not db.exists():
         return None
     # The version is not checked here: the writer migrates an older database, and refuses a newer or foreign one.
     with Reader(db, check_version=False) as reader:
         if reader.version == 0:
             return None
-        return _find_repeat(reader.con, "db", sha, contract_hash, accept_warnings)
+        return _find_repeat(reader.con, "db", sha, contract_hash, accept_warnings, harmonise)
 
 
 def _unchanged(db: Path, sha: str, row: tuple[Any, ...], files: list[dict[str, Any]]) -> IngestResult:
@@ -130,13 +166,17 @@ def ingest(
     accept_warnings: bool = False,
     progress: bool = False,
     *,
+    harmonise: bool = False,
     lock_timeout: float | None = None,
     on_wait: Callable[[str], None] | None = None,
 ) -> IngestResult:
     """Check `paths` as one submission against `contract` and store it in `db` (accepted) or record it (rejected).
 
-    `contract` is a Contract, a contract folder, or None for the core contract. Raises UsageError for missing
-    files, LoadError/LockTimeout when the database cannot be written; bad data never raises.
+    `contract` is a Contract, a contract folder, or None for the core contract. With `harmonise`, an accepted
+    submission is also harmonised to the contract's base-year reference values (`milepost.validate.harmonise`)
+    and stored a second time with basis 'harmonised', with its indicators and the method of every series.
+    Raises UsageError for missing files, LoadError/LockTimeout when the database cannot be written; bad data
+    never raises.
     """
     from milepost.schema.contract import Contract, load
     from milepost.validate.readers import sha256_of
@@ -165,7 +205,7 @@ def ingest(
         {"path": str(p), "name": p.name, "sha256": d, "rows": None, "kind": None}
         for p, d in zip(files, digests, strict=True)
     ]
-    repeat = _check_repeat_before_lock(db_path, sha, contract.hash, accept_warnings)
+    repeat = _check_repeat_before_lock(db_path, sha, contract.hash, accept_warnings, harmonise)
     if repeat is not None:
         out = _unchanged(db_path, sha, repeat, plain_files)
         # the same files again still bring the contract, so stored indicators that wait for it are recomputed
@@ -198,7 +238,7 @@ def ingest(
             t = time.perf_counter()
             with Writer(db_path, con, timeout=lock_timeout, on_wait=on_wait) as w:
                 timings["lock_and_copy"] = time.perf_counter() - t
-                repeat = _find_repeat(con, NEW, sha, contract.hash, accept_warnings)
+                repeat = _find_repeat(con, NEW, sha, contract.hash, accept_warnings, harmonise)
                 if repeat is not None:
                     raise _Unchanged(repeat)
                 out = _store(
@@ -214,6 +254,7 @@ def ingest(
                     note=note,
                     bar=bar,
                     timings=timings,
+                    harmonise=harmonise,
                 )
                 bar.step("writing the database file")
                 t = time.perf_counter()
@@ -264,13 +305,17 @@ def _register_scenarios(con: duckdb.DuckDBPyConnection, scenarios: Any) -> None:
         con.unregister("ingest_scenarios_frame")
 
 
-def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any) -> None:
-    """TEMP table ingest_indicators for the new scenarios and for stored ones whose reference is among them.
+def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any, harmonised: bool) -> None:
+    """TEMP tables ingest_indicators_raw and ingest_indicators_harmonised for the new scenarios and for stored ones
+    whose reference is among them.
 
     The data handed to the indicator code is the new rows plus the stored current rows of the same model that
     matter: the references of the new scenarios (so a policy scenario whose reference came earlier gets its
-    losses) and the stored scenarios that name a new scenario as reference (their losses change with it).
+    losses) and the stored scenarios that name a new scenario as reference (their losses change with it). Each
+    basis reads only rows of its own basis; without harmonised new rows (`harmonised` False) the harmonised
+    indicators of stored dependents are still recomputed, so none is left computed against a replaced reference.
     """
+    from milepost.validate.store.indicators import COLUMNS as INDICATOR_TYPES
     from milepost.validate.store.indicators import IndicatorDataError, IndicatorSpecError, compute_indicators
 
     con.execute(f"""
@@ -292,26 +337,37 @@ def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any) -> None:
                       WHERE n.model = o.model AND n.reference = o.scenario)
            OR EXISTS (SELECT 1 FROM temp.main.ingest_dependents AS d
                       WHERE d.model = o.model AND d.scenario = o.scenario)""")
-    cols = ", ".join(DATA_COLUMNS)
-    con.execute(f"""
-        CREATE OR REPLACE TEMP VIEW ingest_data AS
-        SELECT {cols} FROM temp.main.checked
-        UNION ALL
-        SELECT {", ".join("d." + c for c in DATA_COLUMNS)} FROM {NEW}.data AS d
-        JOIN temp.main.ingest_needed AS n
-          ON n.submission_id = d.submission_id AND n.model = d.model AND n.scenario = d.scenario""")  # noqa: S608 - names from the code; values bound as parameters
     con.execute("""
         CREATE OR REPLACE TEMP VIEW ingest_all_scenarios AS
         SELECT model, scenario, reference, attributes FROM temp.main.ingest_scenarios
         UNION ALL
         SELECT model, scenario, reference, attributes FROM temp.main.ingest_needed""")
-    con.execute("DROP TABLE IF EXISTS temp.main.ingest_indicators")
-    try:
-        compute_indicators(
-            con, contract, data="ingest_data", scenarios="ingest_all_scenarios", target="ingest_indicators"
-        )
-    except (IndicatorDataError, IndicatorSpecError) as e:
-        raise LoadError(f"the indicators could not be computed, nothing was stored: {e}") from None
+    cols = ", ".join(DATA_COLUMNS)
+    for basis, rows in (("raw", "checked"), ("harmonised", "harmonised" if harmonised else None)):
+        if rows is None and not _stored_harmonised(con):
+            # nothing harmonised, new or stored, to compute from: skip the indicator code altogether
+            columns = ", ".join(f"{name} {sql_type}" for name, sql_type in INDICATOR_TYPES)
+            con.execute(f"CREATE OR REPLACE TEMP TABLE ingest_indicators_{basis} ({columns})")
+            continue
+        new_rows = f"SELECT {cols} FROM temp.main.{rows} UNION ALL " if rows else ""
+        con.execute(f"""
+            CREATE OR REPLACE TEMP VIEW ingest_data_{basis} AS
+            {new_rows}
+            SELECT {", ".join("d." + c for c in DATA_COLUMNS)} FROM {NEW}.data AS d
+            JOIN temp.main.ingest_needed AS n
+              ON n.submission_id = d.submission_id AND n.model = d.model AND n.scenario = d.scenario
+            WHERE d.basis = '{basis}'""")
+        con.execute(f"DROP TABLE IF EXISTS temp.main.ingest_indicators_{basis}")
+        try:
+            compute_indicators(
+                con,
+                contract,
+                data=f"ingest_data_{basis}",
+                scenarios="ingest_all_scenarios",
+                target=f"ingest_indicators_{basis}",
+            )
+        except (IndicatorDataError, IndicatorSpecError) as e:
+            raise LoadError(f"the {basis} indicators could not be computed, nothing was stored: {e}") from None
 
 
 def _prepare_recompute(con: duckdb.DuckDBPyConnection, contract: Any) -> int | None:
@@ -324,6 +380,17 @@ def _prepare_recompute(con: duckdb.DuckDBPyConnection, contract: Any) -> int | N
         return recompute.prepare(con, contract, NEW)
     except (IndicatorDataError, IndicatorSpecError) as e:
         raise LoadError(f"the stored indicators could not be recomputed, nothing was stored: {e}") from None
+
+
+def _stored_harmonised(con: duckdb.DuckDBPyConnection) -> bool:
+    """Whether any stored scenario the indicators of this ingest read has harmonised values (the method table is
+    far smaller than `data`, and a harmonised series always has a row there)."""
+    return bool(
+        con.execute(f"""
+            SELECT EXISTS (SELECT 1 FROM {NEW}.harmonisation AS h JOIN temp.main.ingest_needed AS n
+                           ON n.submission_id = h.submission_id AND n.model = h.model AND n.scenario = h.scenario)
+        """).fetchall()[0][0]
+    )
 
 
 def _store(
@@ -340,6 +407,7 @@ def _store(
     note: str | None,
     bar: _Stages,
     timings: dict[str, float],
+    harmonise: bool = False,
 ) -> IngestResult:
     """Write the submission into the attached copy `new` (inside one transaction)."""
     # Row order carries no meaning in the stored tables; without it DuckDB writes row groups in parallel and
@@ -359,6 +427,7 @@ def _store(
             note=note,
             bar=bar,
             timings=timings,
+            harmonise=harmonise,
         )
     finally:
         con.execute("RESET preserve_insertion_order")
@@ -378,6 +447,7 @@ def _store_ordered_freely(
     note: str | None,
     bar: _Stages,
     timings: dict[str, float],
+    harmonise: bool = False,
 ) -> IngestResult:
     from milepost.validate import __version__
 
@@ -388,9 +458,17 @@ def _store_ordered_freely(
     t = time.perf_counter()
     rows = 0
     recomputed = _prepare_recompute(con, contract)
+    harmonised = None
     if accepted:
+        if harmonise:
+            from milepost.validate.harmonise import harmonise as harmonise_rows
+
+            bar.step("harmonising")
+            harmonised = harmonise_rows(con, contract)
+            timings["harmonise"] = time.perf_counter() - t
+            t = time.perf_counter()
         bar.step("computing indicators")
-        _prepare_indicators(con, contract)
+        _prepare_indicators(con, contract, harmonised is not None)
         timings["indicators"] = time.perf_counter() - t
         rows = int(con.execute("SELECT count(*) FROM temp.main.checked").fetchall()[0][0])
     t = time.perf_counter()
@@ -437,7 +515,28 @@ def _store_ordered_freely(
     ]
     if accepted:
         bar.step(f"storing {rows:,} rows")
-        con.execute(f"INSERT INTO {NEW}.data SELECT ?, {', '.join(DATA_COLUMNS)} FROM temp.main.checked", [sid])  # noqa: S608 - names from the code; values bound as parameters
+        data_cols = ", ".join(DATA_COLUMNS)
+        con.execute(
+            f"INSERT INTO {NEW}.data (submission_id, {data_cols}, basis) "
+            f"SELECT ?, {data_cols}, 'raw' FROM temp.main.checked",
+            [sid],
+        )
+        if harmonised is not None:
+            con.execute(
+                f"INSERT INTO {NEW}.data (submission_id, {data_cols}, basis) "
+                f"SELECT ?, {data_cols}, 'harmonised' FROM temp.main.harmonised",
+                [sid],
+            )
+            method_cols = ", ".join(HARMONISATION_COLUMNS)
+            con.execute(
+                f"INSERT INTO {NEW}.harmonisation (submission_id, {method_cols}) "
+                f"SELECT ?, {method_cols} FROM temp.main.harmonise_methods",
+                [sid],
+            )
+            out.harmonised = True
+            out.harmonised_rows = harmonised.rows
+            out.harmonised_series = harmonised.harmonised_series
+            out.harmonise_counts = dict(harmonised.severity_counts)
         con.execute(
             f"INSERT INTO {NEW}.scenarios SELECT ?, model, scenario, reference, attributes "  # noqa: S608 - names from the code; values bound as parameters
             "FROM temp.main.ingest_scenarios",
@@ -481,19 +580,24 @@ def _store_ordered_freely(
 
 def _store_indicators(con: duckdb.DuckDBPyConnection, sid: int) -> None:
     cols = ", ".join("i." + c for c in INDICATOR_COLUMNS)
-    con.execute(
-        f"""
-        INSERT INTO {NEW}.indicators SELECT ?, {cols} FROM temp.main.ingest_indicators AS i
-        SEMI JOIN temp.main.ingest_scenarios AS n ON n.model = i.model AND n.scenario = i.scenario""",  # noqa: S608 - names from the code; values bound as parameters
-        [sid],
-    )
+    names = ", ".join(INDICATOR_COLUMNS)
     # Stored scenarios whose reference was just replaced: their reference-based indicators are recomputed.
     con.execute(f"""
         DELETE FROM {NEW}.indicators AS x USING temp.main.ingest_dependents AS d
-        WHERE x.submission_id = d.submission_id AND x.model = d.model AND x.scenario = d.scenario""")  # noqa: S608 - names from the code; values bound as parameters
-    con.execute(f"""
-        INSERT INTO {NEW}.indicators SELECT d.submission_id, {cols} FROM temp.main.ingest_indicators AS i
-        JOIN temp.main.ingest_dependents AS d ON d.model = i.model AND d.scenario = i.scenario""")  # noqa: S608 - names from the code; values bound as parameters
+        WHERE x.submission_id = d.submission_id AND x.model = d.model AND x.scenario = d.scenario""")
+    for basis in ("raw", "harmonised"):
+        computed = f"temp.main.ingest_indicators_{basis}"
+        con.execute(
+            f"""
+            INSERT INTO {NEW}.indicators (submission_id, {names}, basis) SELECT ?, {cols}, '{basis}'
+            FROM {computed} AS i
+            SEMI JOIN temp.main.ingest_scenarios AS n ON n.model = i.model AND n.scenario = i.scenario""",
+            [sid],
+        )
+        con.execute(f"""
+            INSERT INTO {NEW}.indicators (submission_id, {names}, basis) SELECT d.submission_id, {cols}, '{basis}'
+            FROM {computed} AS i
+            JOIN temp.main.ingest_dependents AS d ON d.model = i.model AND d.scenario = i.scenario""")
 
 
 def _user() -> str | None:
@@ -506,7 +610,7 @@ def _user() -> str | None:
 class _Stages:
     """A small rich progress bar on stderr for the load stages of a large ingest (nothing when disabled)."""
 
-    STAGES = 3
+    STAGES = 4
 
     def __init__(self, enabled: bool, rows: int) -> None:
         self.progress = None

@@ -57,19 +57,44 @@ def is_outdated(con: duckdb.DuckDBPyConnection, catalog: str) -> bool:
     return bool(rows[0][0])
 
 
+def _bases(con: duckdb.DuckDBPyConnection, catalog: str) -> tuple[str, ...]:
+    """The bases with stored rows: raw always; harmonised once `milepost ingest --harmonise` stored some."""
+    c = identifier(catalog)
+    harmonised = con.execute(f"SELECT EXISTS (SELECT 1 FROM {c}.harmonisation)").fetchall()[0][0]
+    return ("raw", "harmonised") if harmonised else ("raw",)
+
+
 def prepare(
     con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, on_step: Callable[[str], None] | None = None
 ) -> int:
     """Compute every stored indicator anew into TEMP tables (before the write's transaction); returns the rows.
 
-    Raises IndicatorDataError or IndicatorSpecError as `compute_indicators` does.
+    Each basis (raw, harmonised) is computed from the rows of its own basis only. Raises IndicatorDataError or
+    IndicatorSpecError as `compute_indicators` does.
     """
-    from milepost.validate.store.indicators import COLUMNS, compute_indicators
+    from milepost.validate.store.indicators import COLUMNS
 
-    c = identifier(catalog)
     if on_step is not None:
         on_step("recomputing the stored indicators")
-    con.execute(f"CREATE OR REPLACE TEMP VIEW recompute_current_data AS SELECT {_DATA} FROM {c}.current_data")  # noqa: S608 - names from the code; values bound as parameters
+    columns = ", ".join(name for name, _ in COLUMNS)
+    typed = ", ".join(f"{name} {sql_type}" for name, sql_type in COLUMNS)
+    for table in _TABLES:
+        con.execute(f"CREATE OR REPLACE TEMP TABLE {table} (submission_id INTEGER, {typed}, basis VARCHAR)")
+    for basis in _bases(con, catalog):
+        _prepare_basis(con, contract, catalog, basis, columns)
+    for leftover in ("recompute_computed", "recompute_data", "recompute_scenarios"):
+        con.execute(f"DROP TABLE IF EXISTS temp.main.{leftover}")
+    counts = [con.execute(f"SELECT count(*) FROM temp.main.{t}").fetchall()[0][0] for t in _TABLES]
+    return int(sum(counts))
+
+
+def _prepare_basis(con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, basis: str, columns: str) -> None:
+    from milepost.validate.store.indicators import compute_indicators
+
+    c = identifier(catalog)
+    b = "'raw'" if basis == "raw" else "'harmonised'"
+    current = f"(SELECT * FROM {c}.current_data_by_basis WHERE basis = {b})"
+    con.execute(f"CREATE OR REPLACE TEMP VIEW recompute_current_data AS SELECT {_DATA} FROM {current}")
     con.execute(
         "CREATE OR REPLACE TEMP VIEW recompute_current_scenarios AS SELECT model, scenario, reference"  # noqa: S608 - names from the code; values bound as parameters
         f" FROM {c}.current_scenarios"
@@ -77,13 +102,9 @@ def prepare(
     compute_indicators(con, contract, "recompute_current_data", "recompute_current_scenarios", "recompute_computed")
     con.execute("DROP VIEW temp.main.recompute_current_data")
     con.execute("DROP VIEW temp.main.recompute_current_scenarios")
-    columns = ", ".join(name for name, _ in COLUMNS)
     con.execute(
-        f"CREATE OR REPLACE TEMP TABLE recompute_current AS SELECT v.submission_id, {columns}"  # noqa: S608 - names from the code; values bound as parameters
+        f"INSERT INTO temp.main.recompute_current SELECT v.submission_id, {columns}, {b}"
         f" FROM temp.main.recompute_computed JOIN {c}.current_versions v USING (model, scenario)"
-    )
-    con.execute(
-        "CREATE OR REPLACE TEMP TABLE recompute_history AS SELECT * FROM temp.main.recompute_current WHERE false"
     )
     # Older versions, one submission at a time: within one submission every (model, scenario) is unique.
     older = [
@@ -91,13 +112,16 @@ def prepare(
         for r in con.execute(
             f"SELECT DISTINCT s.submission_id FROM {c}.scenarios s JOIN {c}.submissions b ON b.id = s.submission_id"  # noqa: S608 - names from the code; values bound as parameters
             f" WHERE b.status <> 'rejected' AND NOT EXISTS (SELECT 1 FROM {c}.current_versions v"
-            " WHERE v.submission_id = s.submission_id AND v.model = s.model AND v.scenario = s.scenario) ORDER BY 1"
+            " WHERE v.submission_id = s.submission_id AND v.model = s.model AND v.scenario = s.scenario)"
+            f" AND EXISTS (SELECT 1 FROM {c}.data d WHERE d.submission_id = s.submission_id AND d.basis = {b})"
+            " ORDER BY 1"
         ).fetchall()
     ]
     for sid in older:
         con.execute(
-            f"CREATE OR REPLACE TEMP TABLE recompute_data AS SELECT {_DATA} FROM {c}.data WHERE submission_id = $sid"  # noqa: S608 - names from the code; values bound as parameters
-            f" UNION ALL SELECT {_DATA} FROM {c}.current_data d WHERE EXISTS (SELECT 1 FROM {c}.scenarios s"
+            f"CREATE OR REPLACE TEMP TABLE recompute_data AS SELECT {_DATA} FROM {c}.data"
+            f" WHERE submission_id = $sid AND basis = {b}"
+            f" UNION ALL SELECT {_DATA} FROM {current} d WHERE EXISTS (SELECT 1 FROM {c}.scenarios s"
             " WHERE s.submission_id = $sid AND s.model = d.model AND s.reference = d.scenario)"
             f" AND NOT EXISTS (SELECT 1 FROM {c}.scenarios s"
             " WHERE s.submission_id = $sid AND s.model = d.model AND s.scenario = d.scenario)",
@@ -110,16 +134,12 @@ def prepare(
         )
         compute_indicators(con, contract, "recompute_data", "recompute_scenarios", "recompute_computed")
         con.execute(
-            f"INSERT INTO temp.main.recompute_history SELECT $sid, {columns} FROM temp.main.recompute_computed i"  # noqa: S608 - names from the code; values bound as parameters
+            f"INSERT INTO temp.main.recompute_history SELECT $sid, {columns}, {b} FROM temp.main.recompute_computed i"
             f" WHERE EXISTS (SELECT 1 FROM {c}.scenarios s WHERE s.submission_id = $sid AND s.model = i.model"
             f" AND s.scenario = i.scenario) AND NOT EXISTS (SELECT 1 FROM {c}.current_versions v"
             " WHERE v.submission_id = $sid AND v.model = i.model AND v.scenario = i.scenario)",
             {"sid": sid},
         )
-    for leftover in ("recompute_computed", "recompute_data", "recompute_scenarios"):
-        con.execute(f"DROP TABLE IF EXISTS temp.main.{leftover}")
-    counts = [con.execute(f"SELECT count(*) FROM temp.main.{t}").fetchall()[0][0] for t in _TABLES]  # noqa: S608 - names from the code; values bound as parameters
-    return int(sum(counts))
 
 
 def apply(con: duckdb.DuckDBPyConnection, catalog: str) -> None:
@@ -127,8 +147,8 @@ def apply(con: duckdb.DuckDBPyConnection, catalog: str) -> None:
     from milepost.validate.store.indicators import COLUMNS
 
     c = identifier(catalog)
-    columns = ", ".join(["submission_id", *(name for name, _ in COLUMNS)])
-    con.execute(f"DELETE FROM {c}.indicators")  # noqa: S608 - names from the code; values bound as parameters
+    columns = ", ".join(["submission_id", *(name for name, _ in COLUMNS), "basis"])
+    con.execute(f"DELETE FROM {c}.indicators")
     for table in _TABLES:
         con.execute(f"INSERT INTO {c}.indicators ({columns}) SELECT {columns} FROM temp.main.{table}")  # noqa: S608 - names from the code; values bound as parameters
     con.execute(f"DELETE FROM {c}.meta WHERE key = ?", [OUTDATED_KEY])  # noqa: S608 - names from the code; values bound as parameters
