@@ -125,12 +125,16 @@ def pathway(
     unit: str,
     scenarios: pd.DataFrame | None = None,
     reference: pd.DataFrame | None = None,
+    y_domain: tuple[float, float] | None = None,
 ) -> Chart:
-    """Median line and 25-75 % / 5-95 % ranges per band over time, optional single scenarios and the reference."""
+    """Median line and 25-75 % / 5-95 % ranges per band over time, optional single scenarios and the reference.
+
+    `y_domain` fixes the value axis, so that two pathways drawn side by side (raw, harmonised) compare by eye."""
     colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band")
     x = alt.X("year:Q", axis=alt.Axis(format="d"), title=None)
     base = alt.Chart(bands).encode(x=x, color=colour)
-    outer = base.mark_area(opacity=0.12).encode(y=alt.Y("q05:Q", title=f"{title} [{unit}]"), y2="q95:Q")
+    scale = alt.Scale(domain=list(y_domain)) if y_domain is not None else alt.Undefined
+    outer = base.mark_area(opacity=0.12).encode(y=alt.Y("q05:Q", title=f"{title} [{unit}]", scale=scale), y2="q95:Q")
     inner = base.mark_area(opacity=0.28).encode(y="q25:Q", y2="q75:Q")
     line = base.mark_line(strokeWidth=2.5).encode(
         y="median:Q",

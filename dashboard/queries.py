@@ -47,6 +47,7 @@ class Selection:
     attribute: str = ""  # scenario attribute to filter on ("" = none)
     attribute_values: tuple[str, ...] = ()
     include_references: bool = False  # scenarios that others name as their reference (no-policy runs)
+    basis: str = "raw"  # "raw" values as submitted, or "harmonised" to the base-year reference values
 
     def params(self) -> dict[str, Any]:
         return {
@@ -58,6 +59,7 @@ class Selection:
             "attribute": self.attribute,
             "attribute_values": list(self.attribute_values),
             "include_references": bool(self.include_references),
+            "basis": self.basis,
         }
 
 
@@ -72,6 +74,7 @@ class Choices:
     models: list[str] = field(default_factory=list)
     attributes: list[str] = field(default_factory=list)
     data_variables: list[str] = field(default_factory=list)
+    bases: list[str] = field(default_factory=lambda: ["raw"])  # "harmonised" too once such values are stored
 
     @property
     def milestones(self) -> list[int]:
@@ -79,13 +82,13 @@ class Choices:
 
 
 # The selected ensemble at the milestone, its band edges (given, or terciles of the selection) and each scenario's
-# band number (how many edges its value reaches). Every results query starts from `banded`.
+# band number (how many edges its value reaches). Every results query starts from `banded` (see `_banded`).
 _BANDED = """
 sel AS (
   SELECT i.model, i.scenario, i.value AS band_value, s.attributes
-  FROM current_indicators i
+  FROM {indicators} i
   LEFT JOIN current_scenarios s ON s.model = i.model AND s.scenario = i.scenario
-  WHERE i.kind = 'value' AND i.variable = $variable AND i.region = $region
+  WHERE i.basis = $basis AND i.kind = 'value' AND i.variable = $variable AND i.region = $region
     AND i.year_from = $year AND i.year_to = $year AND i.value IS NOT NULL
     AND (len($models::VARCHAR[]) = 0 OR list_contains($models::VARCHAR[], i.model))
     AND ($attribute = '' OR len($attribute_values::VARCHAR[]) = 0
@@ -107,6 +110,25 @@ banded AS (
 
 def _df(con: duckdb.DuckDBPyConnection, sql: str, params: dict[str, Any] | list[Any] | None = None) -> pd.DataFrame:
     return con.execute(sql, params or {}).df()
+
+
+def _has_basis(con: duckdb.DuckDBPyConnection) -> bool:
+    """Whether stored rows carry a `basis` (schema 4 on); an older database, not migrated yet, holds raw values."""
+    return "basis" in stored_columns(con, "data")
+
+
+def _indicators(con: duckdb.DuckDBPyConnection) -> str:
+    """The current indicators of every basis (column `basis`), also in a database written before bases existed."""
+    return "current_indicators_by_basis" if _has_basis(con) else "(SELECT *, 'raw' AS basis FROM current_indicators)"
+
+
+def _data(con: duckdb.DuckDBPyConnection) -> str:
+    """The current data of every basis (column `basis`), also in a database written before bases existed."""
+    return "current_data_by_basis" if _has_basis(con) else "(SELECT *, 'raw' AS basis FROM current_data)"
+
+
+def _banded(con: duckdb.DuckDBPyConnection) -> str:
+    return _BANDED.format(indicators=_indicators(con))
 
 
 def _note(con: duckdb.DuckDBPyConnection) -> str:
@@ -161,8 +183,18 @@ def choices(con: duckdb.DuckDBPyConnection) -> Choices:
         f"(SELECT min(year_from) FROM indicators WHERE kind = 'value' AND {live}))"
     ).fetchall()[0]
     data_variables = column(f"SELECT DISTINCT variable FROM data WHERE {live} ORDER BY 1")  # noqa: S608 - fragments of this module; values bound as $parameters
+    bases = ["raw"]
+    if _has_basis(con):
+        bases = column(f"SELECT DISTINCT basis FROM data WHERE {live} ORDER BY basis <> 'raw', basis") or bases  # noqa: S608 - fragments of this module; values bound as $parameters
     return Choices(
-        variables, years, int(base) if base is not None else None, regions, models, attributes, data_variables
+        variables,
+        years,
+        int(base) if base is not None else None,
+        regions,
+        models,
+        attributes,
+        data_variables,
+        bases,
     )
 
 
@@ -176,14 +208,14 @@ def attribute_values(con: duckdb.DuckDBPyConnection, attribute: str) -> list[str
 
 def band_edges(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[float]:
     """The band edges in use: the given ones, or the terciles of the selected values."""
-    (edges,) = con.execute(f"WITH {_BANDED} SELECT list(e ORDER BY e) FROM edges", sel.params()).fetchall()[0]  # noqa: S608 - fragments of this module; values bound as $parameters
+    (edges,) = con.execute(f"WITH {_banded(con)} SELECT list(e ORDER BY e) FROM edges", sel.params()).fetchall()[0]  # noqa: S608 - fragments of this module; values bound as $parameters
     return [float(e) for e in edges or []]
 
 
 def selected(con: duckdb.DuckDBPyConnection, sel: Selection) -> pd.DataFrame:
     """The selected scenarios with their band number and value at the milestone."""
     sql = (
-        f"WITH {_BANDED} SELECT model, scenario, band, band_value FROM banded "  # noqa: S608 - fragments of this module; values bound as $parameters
+        f"WITH {_banded(con)} SELECT model, scenario, band, band_value FROM banded "  # noqa: S608 - fragments of this module; values bound as $parameters
         "ORDER BY band, band_value, model, scenario"
     )
     return _df(con, sql, sel.params())
@@ -210,7 +242,7 @@ def screen_table(
     params = {**sel.params(), "base": base_year, "next": next_year}
     attr_cols = "".join(f", b.attributes ->> $attr_{i} AS {identifier(a)}" for i, a in enumerate(attributes))
     params.update({f"attr_{i}": a for i, a in enumerate(attributes)})
-    sql = f"""WITH {_BANDED}
+    sql = f"""WITH {_banded(con)}
     SELECT b.model, b.scenario{attr_cols}, b.band, b.band_value AS value,
       max(i.value) FILTER (WHERE i.kind = 'value' AND i.year_from = $base) AS base_value,
       max(i.value) FILTER (WHERE i.kind = 'rate_cagr' AND i.year_from = $base AND i.year_to = $year) AS cagr_to,
@@ -222,8 +254,8 @@ def screen_table(
       max({_note(con)}) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_note,
       max(i.value) FILTER (WHERE i.kind = 'peak_year') AS peak_year
     FROM banded b
-    LEFT JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario
-         AND i.region = $region AND i.variable = $variable
+    LEFT JOIN {_indicators(con)} i ON i.model = b.model AND i.scenario = b.scenario
+         AND i.basis = $basis AND i.region = $region AND i.variable = $variable
     GROUP BY ALL
     ORDER BY b.band, value, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return _df(con, sql, params)
@@ -242,11 +274,11 @@ def rate_periods(con: duckdb.DuckDBPyConnection, variable: str, region: str) -> 
 def rates(con: duckdb.DuckDBPyConnection, sel: Selection, year_from: int, year_to: int) -> pd.DataFrame:
     """Every rate kind (CAGR, the linear rates, the absolute rate) of the band variable over one period, one row per
     scenario and kind (value may be null), with the unit of each."""
-    sql = f"""WITH {_BANDED}
+    sql = f"""WITH {_banded(con)}
     SELECT b.model, b.scenario, b.band, b.band_value, i.kind, i.value, i.unit
     FROM banded b
-    JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario
-         AND i.region = $region AND i.variable = $variable
+    JOIN {_indicators(con)} i ON i.model = b.model AND i.scenario = b.scenario
+         AND i.basis = $basis AND i.region = $region AND i.variable = $variable
          AND list_contains($kinds::VARCHAR[], i.kind) AND i.year_from = $yf AND i.year_to = $yt
     ORDER BY i.kind, b.band, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return _df(con, sql, {**sel.params(), "yf": int(year_from), "yt": int(year_to), "kinds": list(RATE_KINDS)})
@@ -265,7 +297,7 @@ def cagr_undefined(df: pd.DataFrame) -> pd.DataFrame:
 
 def reference_names(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[str]:
     """The reference scenarios (scenarios table, column `reference`) that the selected scenarios are compared with."""
-    sql = f"""WITH {_BANDED}
+    sql = f"""WITH {_banded(con)}
     SELECT DISTINCT s.reference FROM banded b JOIN current_scenarios s ON s.model = b.model AND s.scenario = b.scenario
     WHERE s.reference IS NOT NULL ORDER BY 1"""  # noqa: S608 - fragments of this module; values bound as $parameters
     return [r for (r,) in con.execute(sql, sel.params()).fetchall()]
@@ -273,10 +305,11 @@ def reference_names(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[str]
 
 def costs(con: duckdb.DuckDBPyConnection, sel: Selection, base_year: int | None) -> pd.DataFrame:
     """Cost indicators (losses, carbon price, NPV) of the selected scenarios in the band region, long format."""
-    sql = f"""WITH {_BANDED}
+    sql = f"""WITH {_banded(con)}
     SELECT b.model, b.scenario, b.band, i.kind, i.variable, i.year_from, i.year_to AS year, i.value, i.unit
     FROM banded b
-    JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario AND i.region = $region
+    JOIN {_indicators(con)} i ON i.model = b.model AND i.scenario = b.scenario AND i.region = $region
+         AND i.basis = $basis
     WHERE (i.kind = 'loss_pct' AND i.variable IN ('gdp.mer', 'gdp.ppp', 'consumption'))
        OR (i.kind = 'growth_reduction_pp' AND i.variable IN ('gdp.mer', 'gdp.ppp', 'consumption'))
        OR (i.kind = 'value' AND i.variable = 'price.carbon' AND i.year_from > coalesce($base, -1))
@@ -285,30 +318,54 @@ def costs(con: duckdb.DuckDBPyConnection, sel: Selection, base_year: int | None)
     return _df(con, sql, {**sel.params(), "base": base_year})
 
 
-def pathway_bands(con: duckdb.DuckDBPyConnection, sel: Selection, variable: str, region: str) -> pd.DataFrame:
-    """Per band and year: n, median and the 5/25/75/95 % quantiles of `variable` in `region`."""
-    sql = f"""WITH {_BANDED}, q AS (
+def pathway_bands(
+    con: duckdb.DuckDBPyConnection, sel: Selection, variable: str, region: str, basis: str | None = None
+) -> pd.DataFrame:
+    """Per band and year: n, median and the 5/25/75/95 % quantiles of `variable` in `region`.
+
+    The bands come from the selection (on its basis); the values shown from `basis` (default: the selection's),
+    so raw and harmonised pathways of the same scenarios can be drawn side by side."""
+    sql = f"""WITH {_banded(con)}, q AS (
       SELECT b.band, d.year, any_value(d.unit) AS unit, count(d.value) AS n,
              quantile_cont(d.value, [0.05, 0.25, 0.5, 0.75, 0.95]) AS q
       FROM banded b
-      JOIN current_data d ON d.model = b.model AND d.scenario = b.scenario
-           AND d.variable = $pv AND d.region = $pr
+      JOIN {_data(con)} d ON d.model = b.model AND d.scenario = b.scenario
+           AND d.basis = $shown_basis AND d.variable = $pv AND d.region = $pr
       WHERE d.value IS NOT NULL
       GROUP BY ALL)
     SELECT band, year, unit, n, q[1] AS q05, q[2] AS q25, q[3] AS median, q[4] AS q75, q[5] AS q95
     FROM q ORDER BY band, year"""  # noqa: S608 - fragments of this module; values bound as $parameters
-    return _df(con, sql, {**sel.params(), "pv": variable, "pr": region})
+    return _df(con, sql, {**sel.params(), "pv": variable, "pr": region, "shown_basis": basis or sel.basis})
 
 
 def scenario_series(
-    con: duckdb.DuckDBPyConnection, variable: str, region: str, keys: list[tuple[str, str]]
+    con: duckdb.DuckDBPyConnection, variable: str, region: str, keys: list[tuple[str, str]], basis: str = "raw"
 ) -> pd.DataFrame:
-    """The reported points of `variable` in `region` for the given (model, scenario) pairs."""
-    sql = """WITH k AS (SELECT unnest($m::VARCHAR[]) AS model, unnest($s::VARCHAR[]) AS scenario)
+    """The reported (or harmonised) points of `variable` in `region` for the given (model, scenario) pairs."""
+    sql = f"""WITH k AS (SELECT unnest($m::VARCHAR[]) AS model, unnest($s::VARCHAR[]) AS scenario)
     SELECT d.model, d.scenario, d.year, d.value, d.unit
-    FROM current_data d JOIN k USING (model, scenario)
-    WHERE d.variable = $v AND d.region = $r ORDER BY d.model, d.scenario, d.year"""
-    return _df(con, sql, {"m": [k[0] for k in keys], "s": [k[1] for k in keys], "v": variable, "r": region})
+    FROM {_data(con)} d JOIN k USING (model, scenario)
+    WHERE d.basis = $b AND d.variable = $v AND d.region = $r ORDER BY d.model, d.scenario, d.year"""  # noqa: S608 - fragments of this module; values bound as $parameters
+    params = {"m": [k[0] for k in keys], "s": [k[1] for k in keys], "v": variable, "r": region, "b": basis}
+    return _df(con, sql, params)
+
+
+def harmonisation_methods(con: duckdb.DuckDBPyConnection, sel: Selection, variable: str, region: str) -> pd.DataFrame:
+    """How each selected scenario's `variable` in `region` was harmonised: method, factor or offset, why
+    (no rows in a database without harmonised values)."""
+    names = ["model", "scenario", "band", "method", "factor", "offset", "convergence_year", "base_value"]
+    names += ["reference_value", "unit", "note"]
+    if not _has_basis(con):
+        return pd.DataFrame({n: pd.Series(dtype="float64" if n in ("factor", "offset") else "object") for n in names})
+    columns = "b.model, b.scenario, b.band, h.method, h.factor, h.offset_value AS offset, h.convergence_year, "
+    columns += "h.base_value, h.reference_value, h.unit, h.note"
+    sql = f"""WITH {_banded(con)}
+    SELECT {columns}
+    FROM banded b
+    JOIN current_harmonisation h ON h.model = b.model AND h.scenario = b.scenario
+         AND h.variable = $pv AND h.region = $pr
+    ORDER BY b.band, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
+    return _df(con, sql, {**sel.params(), "pv": variable, "pr": region})
 
 
 def data_regions(con: duckdb.DuckDBPyConnection, variable: str) -> list[str]:

@@ -21,6 +21,11 @@ CAUTION = (
     "Model projections, not forecasts: each number is what one model computes under one scenario's assumptions. "
     "Mitigation costs exclude avoided climate damages and co-benefits."
 )
+BASIS_LABELS = {"raw": "as submitted", "harmonised": "harmonised"}
+HARMONISED_NOTE = (
+    "Harmonised values are aligned with the contract's reference values in the base year and move back to each "
+    "model's own values by the convergence year; they are model projections too, not forecasts."
+)
 _URL = "_url_state"  # the query parameters this run wants in the address bar
 _KEEP = "_kept_values"  # widget values that survive visits to pages that do not show the widget
 
@@ -287,6 +292,7 @@ def band_sidebar(ch: queries.Choices) -> queries.Selection:
             dump=lambda v: "1" if v else "0",
             help="Scenarios that other scenarios name as their reference (usually no-policy runs).",
         )
+        basis = basis_switch(ch)
     return queries.Selection(
         variable=variable or "",
         year=int(year or 0),
@@ -296,6 +302,31 @@ def band_sidebar(ch: queries.Choices) -> queries.Selection:
         attribute=attribute or "",
         attribute_values=tuple(values),
         include_references=bool(include_refs),
+        basis=basis,
+    )
+
+
+def basis_switch(ch: queries.Choices) -> str:
+    """Raw or harmonised values for every results page (URL parameter `basis`); shown only when the database
+    holds harmonised values (`milepost ingest --harmonise`)."""
+    if "harmonised" not in ch.bases:
+        return "raw"
+    return str(
+        url_widget(
+            st.radio,
+            "Values",
+            key="band_basis",
+            param="basis",
+            default="raw",
+            parse=lambda raw: raw[0],
+            dump=str,
+            valid=lambda v: v in ch.bases,
+            options=ch.bases,
+            format_func=lambda b: BASIS_LABELS.get(b, b),
+            horizontal=True,
+            help="As submitted, or harmonised to the contract's base-year reference values. Bands, rates and "
+            "costs are computed from the values chosen here.",
+        )
     )
 
 

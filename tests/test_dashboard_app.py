@@ -230,6 +230,7 @@ def test_pathways_variable_change_and_reference(demo_db, sql):
     at = open_app(demo_db, "views/pathways.py")
     at.selectbox(key="path_variable").set_value("energy.primary").run()
     table = frame(at, "q95")
+    table = table[table["values"] == "as submitted"]
     sel = milestone_values(sql, "emissions.ghg", 2030)
     _, band = numpy_bands(sel["value"].to_numpy())
     pts = sql.execute("""SELECT model, scenario, year, value FROM current_data
@@ -390,7 +391,20 @@ def test_an_outdated_database_is_shown_with_a_warning(demo_db, tmp_path):
     db = tmp_path / "old.duckdb"
     shutil.copyfile(demo_db, db)
     con = duckdb.connect(str(db))
+    # without what schema 3 added (harmonised values beside the raw ones) and schema 2's note
+    con.execute("DELETE FROM data WHERE basis <> 'raw'")
+    con.execute("DELETE FROM indicators WHERE basis <> 'raw'")
+    for view in ("current_harmonisation", "current_indicators_by_basis", "current_data_by_basis", "current_data"):
+        con.execute(f"DROP VIEW {view}")
+    con.execute("DROP TABLE harmonisation")
+    con.execute("ALTER TABLE data DROP COLUMN basis")
+    con.execute(
+        "CREATE VIEW current_data AS SELECT d.submission_id, d.model, d.scenario, d.region, d.variable, d.unit,"
+        " d.year, d.value FROM data AS d JOIN current_versions AS c"
+        " ON c.submission_id = d.submission_id AND c.model = d.model AND c.scenario = d.scenario"
+    )
     con.execute("DROP VIEW current_indicators")
+    con.execute("ALTER TABLE indicators DROP COLUMN basis")
     con.execute("ALTER TABLE indicators DROP COLUMN note")
     con.execute(
         "CREATE VIEW current_indicators AS SELECT i.submission_id, i.model, i.scenario, i.region, i.kind, i.variable,"
@@ -399,8 +413,9 @@ def test_an_outdated_database_is_shown_with_a_warning(demo_db, tmp_path):
     )
     con.execute("UPDATE meta SET value = '1' WHERE key = 'schema_version'")
     con.close()
-    for page in (None, "views/rates.py"):
+    for page in (None, "views/rates.py", "views/pathways.py"):
         at = open_app(db, page)
         assert any("schema version 1" in w.value and "milepost ingest" in w.value for w in at.warning)
+        assert "band_basis" not in [r.key for r in at.radio]  # no raw/harmonised switch without harmonised values
     at = open_app(demo_db)
     assert not any("older conventions" in w.value for w in at.warning)
