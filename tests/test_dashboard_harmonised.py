@@ -8,22 +8,22 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from dashboard_fixtures import APP, demo, demo_db, sql  # noqa: F401
 from streamlit.testing.v1 import AppTest
 
-from milepost.dashboard import connection, queries
+from milepost.dashboard import queries
 from milepost.example_db.generate import CONTRACT_DIR
 from milepost.schema.contract import load
+from milepost.validate.store.database import Reader
+
+from dashboard_fixtures import APP
 
 REFERENCE = {(r.region, r.variable): r.value for r in load(CONTRACT_DIR).reference}
 
 
 @pytest.fixture
-def con(demo_db: Path):  # noqa: F811
-    c = connection.open_read_only(demo_db)
-    c.execute(f"USE {connection.CATALOG}")
-    yield c
-    c.close()
+def con(demo_db: Path):
+    with Reader(demo_db) as reader:
+        yield reader.con
 
 
 @pytest.fixture(autouse=True)
@@ -60,7 +60,7 @@ def test_choices_offer_both_bases(con):
     assert queries.choices(con).bases == ["raw", "harmonised"]
 
 
-def test_bands_on_the_harmonised_basis_use_the_harmonised_milestone_values(con, sql):  # noqa: F811
+def test_bands_on_the_harmonised_basis_use_the_harmonised_milestone_values(con, sql):
     sel = queries.Selection(basis="harmonised", year=2030)
     got = queries.selected(con, sel)
     want = sql.execute(
@@ -93,7 +93,7 @@ def test_harmonised_pathways_start_at_the_reference_and_raw_ones_do_not(con):
     assert np.allclose(methods["factor"], methods["reference_value"] / methods["base_value"])
 
 
-def test_pathways_page_draws_raw_and_harmonised_side_by_side(demo_db):  # noqa: F811
+def test_pathways_page_draws_raw_and_harmonised_side_by_side(demo_db):
     at = pathways(demo_db, "emissions.co2", "Ardena")
     assert [s.value for s in at.subheader][:2] == ["As submitted", "Harmonised"]
     specs = [json.loads(c.proto.spec) for c in at.get("vega_lite_chart")]
@@ -109,7 +109,7 @@ def test_pathways_page_draws_raw_and_harmonised_side_by_side(demo_db):  # noqa: 
     assert set(bands["values"]) == {"as submitted", "harmonised"}
 
 
-def test_a_variable_left_out_of_the_harmonisation_says_why(demo_db):  # noqa: F811
+def test_a_variable_left_out_of_the_harmonisation_says_why(demo_db):
     at = pathways(demo_db, "emissions.co2.land", "Ardena")
     assert len(at.get("vega_lite_chart")) == 1
     assert any("left it out" in i.value for i in at.info)
@@ -118,7 +118,7 @@ def test_a_variable_left_out_of_the_harmonisation_says_why(demo_db):  # noqa: F8
     assert table["note"].str.contains("below emissions.co2 in Ardena").all()
 
 
-def test_the_switch_lives_in_the_url_and_changes_every_results_page(demo_db, sql):  # noqa: F811
+def test_the_switch_lives_in_the_url_and_changes_every_results_page(demo_db, sql):
     at = open_app(demo_db, params={"year": "2030"})
     assert at.radio(key="band_basis").value == "raw"
     at.radio(key="band_basis").set_value("harmonised").run()

@@ -15,7 +15,6 @@ from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
-from dashboard_fixtures import demo  # noqa: F401
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -79,7 +78,9 @@ def with_totals(leaves: Leaves) -> dict[tuple[str, str], dict[int, float]]:
     return out
 
 
-def long_rows(series: dict[tuple[str, str], dict[int, float]], drop: set[tuple[str, str, int]] = frozenset()) -> list:
+def long_rows(
+    series: dict[tuple[str, str], dict[int, float]], drop: frozenset[tuple[str, str, int]] = frozenset()
+) -> list:
     return [
         {
             "model": "M1",
@@ -205,7 +206,7 @@ def test_the_harmonised_file_passes_the_contracts_checks(tmp_path, contract):
 
 
 def test_a_series_without_base_year_value_gets_a_finding_not_a_crash(tmp_path, contract):
-    rows = long_rows(with_totals(base_leaves()), drop={("North", "emissions.energy", 2020)})
+    rows = long_rows(with_totals(base_leaves()), drop=frozenset({("North", "emissions.energy", 2020)}))
     with run(tmp_path, rows, contract) as (_, h):
         (f,) = [f for f in h.findings if f.rule == "harmonise-no-base-year"]
         assert (f.region, f.variable, f.year, f.expected, f.severity) == (
@@ -257,7 +258,7 @@ def test_model_and_reference_of_different_sign_are_harmonised_by_offset(tmp_path
         assert methods(h)[("South", "emissions.land")]["method"] == "offset"
 
 
-def test_median_factor_in_the_report_matches_numpy(demo, demo_contract):  # noqa: F811
+def test_median_factor_in_the_report_matches_numpy(demo, demo_contract):
     """The report's median factor per variable and model against numpy.median of h / m(t0) from the raw file."""
     import numpy as np
 

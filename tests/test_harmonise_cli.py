@@ -7,7 +7,6 @@ import json
 
 import duckdb
 import pytest
-from dashboard_fixtures import demo  # noqa: F401
 from typer.testing import CliRunner
 
 from milepost.validate.cli import app
@@ -23,7 +22,7 @@ def _run(*args):
 
 
 @pytest.fixture(scope="module")
-def ferrow(demo):  # noqa: F811
+def ferrow(demo):
     return demo[1].submissions["Ferrow"]
 
 

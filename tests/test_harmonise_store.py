@@ -7,7 +7,6 @@ from pathlib import Path
 
 import duckdb
 import pytest
-from dashboard_fixtures import demo, demo_db  # noqa: F401
 from typer.testing import CliRunner
 
 from milepost.example_db.generate import CONTRACT_DIR
@@ -150,7 +149,7 @@ def test_a_database_of_schema_1_migrates_and_its_rows_become_raw(tmp_path):
     assert rows(db, "SELECT basis FROM current_data_by_basis") == [("raw",)]
 
 
-def test_the_demo_database_holds_both_bases(demo_db):  # noqa: F811
+def test_the_demo_database_holds_both_bases(demo_db):
     got = dict(rows(demo_db, "SELECT basis, count(DISTINCT submission_id) FROM current_data_by_basis GROUP BY 1"))
     assert got == {"raw": 5, "harmonised": 5}
     (n,) = rows(demo_db, "SELECT count(*) FROM current_harmonisation WHERE method = 'converging-ratio'")[0]

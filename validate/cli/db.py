@@ -129,7 +129,7 @@ def ingest_cmd(
         )
         if result.harmonised:
             h = result.harmonise_counts
-            typer.echo(
+            echo(
                 f"Harmonised: {result.harmonised_rows:,} rows stored beside the raw ones, "
                 f"{result.harmonised_series:,} series adjusted ({h.get('warning', 0)} warnings, "
                 f"{h.get('note', 0)} notes; `milepost harmonise` with the same files lists them)."

@@ -3,14 +3,21 @@
 from __future__ import annotations
 
 import json
-import sys
 from enum import StrEnum
 from pathlib import Path
 from typing import Annotated, Any
 
 import typer
 
-from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, ContractOption, TextJson, handle_errors, load_contract
+from milepost.validate.cli.common import (
+    EXIT_FINDINGS,
+    EXIT_OK,
+    ContractOption,
+    TextJson,
+    echo,
+    handle_errors,
+    load_contract,
+)
 
 VERIFIED_RULES = ("sum-of-parts", "sum-of-regions", "base-year-deviation")
 
@@ -68,7 +75,8 @@ def harmonise_cmd(
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Report format.")] = TextJson.text,
     limit: Annotated[int, typer.Option(help="Findings listed per rule in the text report.", min=0)] = 3,
 ) -> None:
-    """Harmonise a submission to the base year. Exit 0: written; 1: the input or the result has errors; 2: usage."""
+    """Harmonise a submission to the base year. Exit 0: written; 1: the input or the result has errors; 2: usage
+    error; 4: an output could not be written."""
     from milepost.validate.harmonise import check_overrides, harmonise, text_table
     from milepost.validate.harmonise.output import CAUTION, default_methods_path, file_format, write_table
     from milepost.validate.reports import finding_line
@@ -107,29 +115,29 @@ def harmonise_cmd(
             verification=recheck,
             caution=CAUTION,
         )
-        sys.stdout.write(json.dumps(payload, indent=2, default=str) + "\n")
+        echo(json.dumps(payload, indent=2, default=str))
         raise typer.Exit(code)
     ask = f"{chosen} for every series" if chosen else "the contract's methods"
     if convergence_year is not None:
         ask += f", converging by {convergence_year}"
-    typer.echo(
+    echo(
         f"Harmonised to the reference values of {c.base_year} ({ask}; contract {c.name}): "
         f"{result.harmonised_series:,} of {result.series:,} series adjusted."
     )
     for line in text_table(result.counts):
-        typer.echo("  " + line)
+        echo("  " + line)
     s = result.severity_counts
-    typer.echo(f"Findings: {s['error']} errors, {s['warning']} warnings, {s['note']} notes.")
+    echo(f"Findings: {s['error']} errors, {s['warning']} warnings, {s['note']} notes.")
     for rule, severity, n in result.rule_counts:
-        typer.echo(f"{severity} {rule}: {n:,} series")
+        echo(f"{severity} {rule}: {n:,} series")
         listed = [f for f in result.findings if f.rule == rule][:limit]
         for f in listed:
-            typer.echo("  " + finding_line(f))
+            echo("  " + finding_line(f))
         if n > len(listed):
-            typer.echo(f"  ... {n - len(listed):,} more (every series is in {methods_path})")
-    typer.echo(f"Wrote {rows:,} rows to {output} and the method of each of {result.series:,} series to {methods_path}.")
+            echo(f"  ... {n - len(listed):,} more (every series is in {methods_path})")
+    echo(f"Wrote {rows:,} rows to {output} and the method of each of {result.series:,} series to {methods_path}.")
     if input_errors:
-        typer.echo(
+        echo(
             f"The input has {input_errors:,} errors: those rows were left out before harmonising "
             f"(see `milepost check`)."
         )
@@ -137,11 +145,11 @@ def harmonise_cmd(
         counts = recheck["counts"]
         verdict = "passed" if recheck["passed"] else "failed"
         broken = ", ".join(f"{r} {recheck['rules'][r]}" for r in VERIFIED_RULES if r in recheck["rules"])
-        typer.echo(
+        echo(
             f"Check of {output} against the contract: {verdict} ({counts['error']} errors, "
             f"{counts['warning']} warnings, {counts['note']} notes)" + (f"; {broken}" if broken else "") + "."
         )
-    typer.echo(CAUTION)
+    echo(CAUTION)
     raise typer.Exit(code)
 
 

@@ -24,7 +24,7 @@ from typing import Any
 import duckdb
 
 from milepost.schema.contract import HARMONISE_METHODS, Contract
-from milepost.validate.findings import FINDING_COLUMNS, SEVERITIES, Finding
+from milepost.validate.findings import FINDING_COLUMNS, SEVERITIES, Finding, findings_from
 from milepost.validate.harmonise import notes, rebuild, series
 from milepost.validate.harmonise.settings import Choice, check_overrides, choices
 from milepost.validate.harmonise.summary import MethodCount, method_counts, text_table
@@ -114,7 +114,7 @@ def harmonise(
         CREATE OR REPLACE TEMP TABLE harmonised AS
         SELECT v.model, v.scenario, v.region, v.variable, s.unit, v.year, v.value
         FROM h_values v JOIN h_series s USING (model, scenario, region, variable)
-        WHERE s.status IN ({kept})""")
+        WHERE s.status IN ({kept})""")  # noqa: S608 - fragments of this package; numbers from the contract
     notes.findings_table(con, contract)
     notes.methods_table(con, contract)
     lap("report")
@@ -127,12 +127,14 @@ def harmonise(
     severity_counts = {s: 0 for s in SEVERITIES}
     for _, s, n in rule_counts:
         severity_counts[s] = severity_counts.get(s, 0) + n
-    rows = con.execute(
-        f"SELECT {', '.join(FINDING_COLUMNS)} FROM (SELECT *, row_number() OVER (PARTITION BY rule "
-        "ORDER BY path, line, model, scenario, region, variable) AS rn FROM harmonise_findings) "
-        f"WHERE rn <= {int(findings_per_rule)} ORDER BY path NULLS FIRST, line NULLS LAST, rule, model, scenario, "
-        "region, variable"
-    ).fetchall()
+    findings = findings_from(
+        con.execute(
+            f"SELECT {', '.join(FINDING_COLUMNS)} FROM (SELECT *, row_number() OVER (PARTITION BY rule "  # noqa: S608 - fragments of this package
+            "ORDER BY path, line, model, scenario, region, variable) AS rn FROM harmonise_findings) WHERE rn <= ? "
+            "ORDER BY path NULLS FIRST, line NULLS LAST, rule, model, scenario, region, variable",
+            [int(findings_per_rule)],
+        )
+    )
     n_rows, n_series = con.execute(
         "SELECT (SELECT count(*) FROM harmonised), (SELECT count(*) FROM harmonise_methods)"
     ).fetchall()[0]
@@ -143,7 +145,7 @@ def harmonise(
         rows=int(n_rows),
         series=int(n_series),
         counts=method_counts(con),
-        findings=[Finding.from_row(r) for r in rows],
+        findings=findings,
         severity_counts=severity_counts,
         rule_counts=rule_counts,
         con=con,

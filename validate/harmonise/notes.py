@@ -10,7 +10,7 @@ import duckdb
 
 from milepost.schema.contract import Contract
 from milepost.validate.checks.context import fmt
-from milepost.validate.findings import FINDING_COLUMNS
+from milepost.validate.findings import FINDING_COLUMNS, FINDING_TYPES
 from milepost.validate.runner import effective_severity
 
 METHOD_COLUMNS = (
@@ -38,7 +38,7 @@ def _findings_sql(contract: Contract) -> list[str]:
     row = "i.path, i.sheet, s.line, s.model, s.scenario, s.region, s.variable, s.unit"
     src = "FROM h_series s JOIN c_inputs i ON i.src = s.src"
     return [
-        f"SELECT 'harmonise-no-base-year' AS rule, '{sev['harmonise-no-base-year']}' AS severity, {row}, "
+        f"SELECT 'harmonise-no-base-year' AS rule, '{sev['harmonise-no-base-year']}' AS severity, {row}, "  # noqa: S608 - fragments of this package; numbers and severities from the contract
         f"{t0} AS year, NULL AS value, {fmt('s.h')} AS expected, "
         f"{_WHERE} || ' has a reference value for {t0} but no value in {t0}: it cannot be harmonised and is left "
         "out of the harmonised data' AS message, "
@@ -57,7 +57,7 @@ def _findings_sql(contract: Contract) -> list[str]:
         "': a ratio would turn the pathway upside down, so ' || s.method || ' was used instead of ' || "
         "s.requested AS message, NULL AS hint "
         f"{src} WHERE s.status = 'direct' AND s.fallback = 'sign-differs'",
-        f"SELECT 'harmonise-partial-total' AS rule, '{sev['harmonise-partial-total']}' AS severity, {row}, "
+        f"SELECT 'harmonise-partial-total' AS rule, '{sev['harmonise-partial-total']}' AS severity, {row}, "  # noqa: S608 - fragments of this package; numbers and severities from the contract
         f"NULL AS year, NULL AS value, NULL AS expected, "
         f"CASE WHEN s.status = 'rebuilt-partial' THEN {_WHERE} || ' was rebuilt from its ' || s.dim || "
         "', but not all of them were harmonised (' || s.not_harmonised || '): the total is harmonised in part' "
@@ -66,7 +66,7 @@ def _findings_sql(contract: Contract) -> list[str]:
         "'Parts without a reference value stay as reported; give them reference values to harmonise the whole "
         "total.' AS hint "
         f"{src} WHERE s.status IN ('rebuilt-partial', 'not-rebuilt')",
-        f"SELECT 'harmonise-parts-left-out' AS rule, '{sev['harmonise-parts-left-out']}' AS severity, {row}, "
+        f"SELECT 'harmonise-parts-left-out' AS rule, '{sev['harmonise-parts-left-out']}' AS severity, {row}, "  # noqa: S608 - fragments of this package; numbers and severities from the contract
         "NULL AS year, NULL AS value, NULL AS expected, "
         f"{_WHERE} || ' was harmonised (' || CASE WHEN s.status = 'direct' THEN s.method "
         "ELSE 'from its ' || s.dim END || '); these parts have no reference value of their own and are left out "
@@ -82,9 +82,7 @@ def _findings_sql(contract: Contract) -> list[str]:
 
 def findings_table(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
     """harmonise_findings: one row per thing the user should know, in the shape every report reads."""
-    columns = ", ".join(
-        f"{c} {'BIGINT' if c == 'line' else 'INTEGER' if c == 'year' else 'VARCHAR'}" for c in FINDING_COLUMNS
-    )
+    columns = ", ".join(f"{c} {FINDING_TYPES.get(c, 'VARCHAR')}" for c in FINDING_COLUMNS)
     con.execute(f"CREATE OR REPLACE TEMP TABLE harmonise_findings ({columns})")
     for sql in _findings_sql(contract):
         con.execute(f"INSERT INTO harmonise_findings BY NAME ({sql})")
@@ -122,4 +120,4 @@ def methods_table(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
                  WHEN 'not-rebuilt' THEN 'its parts cannot be summed again (' || s.not_harmonised || '): left out'
                END AS note,
                s.status
-        FROM h_series s""")
+        FROM h_series s""")  # noqa: S608 - fragments of this package; numbers and severities from the contract

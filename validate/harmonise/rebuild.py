@@ -62,7 +62,7 @@ def _rebuild_level(con: duckdb.DuckDBPyConnection, level: int) -> None:
                           OR s.status NOT IN {HARMONISED}) AS not_harmonised
         FROM e LEFT JOIN h_series s ON s.model = e.model AND s.scenario = e.scenario AND s.region = e.p_region
              AND s.variable = e.p_variable
-        GROUP BY e.model, e.scenario, e.region, e.variable, e.dim""")
+        GROUP BY e.model, e.scenario, e.region, e.variable, e.dim""")  # noqa: S608 - fragments of this package; levels are integers
     # Fully harmonised parts win over partly harmonised ones, and parts (variables) over regions: either way
     # gives the same sums when the data add up, and one must be chosen.
     con.execute("""
@@ -146,7 +146,7 @@ def leave_out_below(con: duckdb.DuckDBPyConnection) -> None:
                         ELSE p.variable::VARCHAR || ' in ' || p.region::VARCHAR END
             FROM up JOIN h_series p ON p.model = up.model AND p.scenario = up.scenario AND p.region = up.p_region
                  AND p.variable = up.p_variable
-            WHERE p.status IN ('direct', 'rebuilt', 'below-harmonised')""")
+            WHERE p.status IN ('direct', 'rebuilt', 'below-harmonised')""")  # noqa: S608 - fragments of this package; levels are integers
         con.execute(f"""
             UPDATE h_series s SET status = 'below-harmonised', above = x.above
             FROM (SELECT model, scenario, region, variable,
@@ -154,4 +154,4 @@ def leave_out_below(con: duckdb.DuckDBPyConnection) -> None:
                   FROM h_left GROUP BY ALL) x
             WHERE s.lvl = {int(level)} AND s.status IN ('unchanged', 'rebuilt-partial')
               AND s.model = x.model AND s.scenario = x.scenario AND s.region = x.region
-              AND s.variable = x.variable""")
+              AND s.variable = x.variable""")  # noqa: S608 - fragments of this package; levels are integers

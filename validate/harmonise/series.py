@@ -78,7 +78,7 @@ def series_table(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
                CASE WHEN method IN ('ratio', 'converging-ratio') THEN h / m0 END AS factor,
                CASE WHEN method IN ('offset', 'converging-offset') THEN h - m0 END AS offset_value,
                NULL::VARCHAR AS dim, NULL::VARCHAR AS not_harmonised, NULL::VARCHAR AS above
-        FROM m""")
+        FROM m""")  # noqa: S608 - fragments of this package; the base year is an integer
 
 
 def values_table(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
@@ -91,4 +91,4 @@ def values_table(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
         SELECT c.model, c.scenario, c.region, c.variable, c.year,
                CASE WHEN s.status = 'direct' THEN {formula} ELSE c.value END AS value
         FROM checked c JOIN h_series s USING (model, scenario, region, variable)
-        WHERE s.status IN ('direct', 'unchanged')""")
+        WHERE s.status IN ('direct', 'unchanged')""")  # noqa: S608 - fragments of this package; the base year is an integer

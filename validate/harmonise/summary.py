@@ -42,7 +42,7 @@ def method_counts(con: duckdb.DuckDBPyConnection) -> list[MethodCount]:
     rows = con.execute(f"""
         SELECT variable, model, method, count(*) AS n, median(factor), median(offset_value), any_value(unit)
         FROM harmonise_methods GROUP BY variable, model, method
-        ORDER BY variable, model, CASE method {order} ELSE {len(METHOD_ORDER)} END""").fetchall()
+        ORDER BY variable, model, CASE method {order} ELSE {len(METHOD_ORDER)} END""").fetchall()  # noqa: S608 - fragments of this package
     return [
         MethodCount(
             str(v), str(mo), str(m), int(n), None if f is None else float(f), None if o is None else float(o), str(u)

@@ -60,7 +60,7 @@ def is_outdated(con: duckdb.DuckDBPyConnection, catalog: str) -> bool:
 def _bases(con: duckdb.DuckDBPyConnection, catalog: str) -> tuple[str, ...]:
     """The bases with stored rows: raw always; harmonised once `milepost ingest --harmonise` stored some."""
     c = identifier(catalog)
-    harmonised = con.execute(f"SELECT EXISTS (SELECT 1 FROM {c}.harmonisation)").fetchall()[0][0]
+    harmonised = con.execute(f"SELECT EXISTS (SELECT 1 FROM {c}.harmonisation)").fetchall()[0][0]  # noqa: S608 - names from the code; values bound as parameters
     return ("raw", "harmonised") if harmonised else ("raw",)
 
 
@@ -84,7 +84,7 @@ def prepare(
         _prepare_basis(con, contract, catalog, basis, columns)
     for leftover in ("recompute_computed", "recompute_data", "recompute_scenarios"):
         con.execute(f"DROP TABLE IF EXISTS temp.main.{leftover}")
-    counts = [con.execute(f"SELECT count(*) FROM temp.main.{t}").fetchall()[0][0] for t in _TABLES]
+    counts = [con.execute(f"SELECT count(*) FROM temp.main.{t}").fetchall()[0][0] for t in _TABLES]  # noqa: S608 - names from the code; values bound as parameters
     return int(sum(counts))
 
 
@@ -93,8 +93,8 @@ def _prepare_basis(con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, 
 
     c = identifier(catalog)
     b = "'raw'" if basis == "raw" else "'harmonised'"
-    current = f"(SELECT * FROM {c}.current_data_by_basis WHERE basis = {b})"
-    con.execute(f"CREATE OR REPLACE TEMP VIEW recompute_current_data AS SELECT {_DATA} FROM {current}")
+    current = f"(SELECT * FROM {c}.current_data_by_basis WHERE basis = {b})"  # noqa: S608 - names from the code; values bound as parameters
+    con.execute(f"CREATE OR REPLACE TEMP VIEW recompute_current_data AS SELECT {_DATA} FROM {current}")  # noqa: S608 - names from the code; values bound as parameters
     con.execute(
         "CREATE OR REPLACE TEMP VIEW recompute_current_scenarios AS SELECT model, scenario, reference"  # noqa: S608 - names from the code; values bound as parameters
         f" FROM {c}.current_scenarios"
@@ -103,7 +103,7 @@ def _prepare_basis(con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, 
     con.execute("DROP VIEW temp.main.recompute_current_data")
     con.execute("DROP VIEW temp.main.recompute_current_scenarios")
     con.execute(
-        f"INSERT INTO temp.main.recompute_current SELECT v.submission_id, {columns}, {b}"
+        f"INSERT INTO temp.main.recompute_current SELECT v.submission_id, {columns}, {b}"  # noqa: S608 - names from the code; values bound as parameters
         f" FROM temp.main.recompute_computed JOIN {c}.current_versions v USING (model, scenario)"
     )
     # Older versions, one submission at a time: within one submission every (model, scenario) is unique.
@@ -119,7 +119,7 @@ def _prepare_basis(con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, 
     ]
     for sid in older:
         con.execute(
-            f"CREATE OR REPLACE TEMP TABLE recompute_data AS SELECT {_DATA} FROM {c}.data"
+            f"CREATE OR REPLACE TEMP TABLE recompute_data AS SELECT {_DATA} FROM {c}.data"  # noqa: S608 - names from the code; values bound as parameters
             f" WHERE submission_id = $sid AND basis = {b}"
             f" UNION ALL SELECT {_DATA} FROM {current} d WHERE EXISTS (SELECT 1 FROM {c}.scenarios s"
             " WHERE s.submission_id = $sid AND s.model = d.model AND s.reference = d.scenario)"
@@ -134,7 +134,7 @@ def _prepare_basis(con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, 
         )
         compute_indicators(con, contract, "recompute_data", "recompute_scenarios", "recompute_computed")
         con.execute(
-            f"INSERT INTO temp.main.recompute_history SELECT $sid, {columns}, {b} FROM temp.main.recompute_computed i"
+            f"INSERT INTO temp.main.recompute_history SELECT $sid, {columns}, {b} FROM temp.main.recompute_computed i"  # noqa: S608 - names from the code; values bound as parameters
             f" WHERE EXISTS (SELECT 1 FROM {c}.scenarios s WHERE s.submission_id = $sid AND s.model = i.model"
             f" AND s.scenario = i.scenario) AND NOT EXISTS (SELECT 1 FROM {c}.current_versions v"
             " WHERE v.submission_id = $sid AND v.model = i.model AND v.scenario = i.scenario)",
@@ -148,7 +148,7 @@ def apply(con: duckdb.DuckDBPyConnection, catalog: str) -> None:
 
     c = identifier(catalog)
     columns = ", ".join(["submission_id", *(name for name, _ in COLUMNS), "basis"])
-    con.execute(f"DELETE FROM {c}.indicators")
+    con.execute(f"DELETE FROM {c}.indicators")  # noqa: S608 - names from the code; values bound as parameters
     for table in _TABLES:
         con.execute(f"INSERT INTO {c}.indicators ({columns}) SELECT {columns} FROM temp.main.{table}")  # noqa: S608 - names from the code; values bound as parameters
     con.execute(f"DELETE FROM {c}.meta WHERE key = ?", [OUTDATED_KEY])  # noqa: S608 - names from the code; values bound as parameters
