@@ -1,6 +1,7 @@
 """The submission contract: plain TOML/CSV files in a folder, resolved (with `extends`) into one frozen object.
 
-A contract folder holds `contract.toml` (name, years, tolerances, GWP set, units), `variables.toml`,
+A contract folder holds `contract.toml` (name, years, tolerances, GWP set, units, carbon budgets, how scenarios
+pair for delay comparisons), `variables.toml`,
 `regions.toml`, and optionally `reference.csv` (base-year reference values) and `bounds.csv` (plausibility
 bounds). Only loading and resolving lives here; `milepost.validate.contract_lint` says whether it is sound.
 """
@@ -97,6 +98,43 @@ class Bound:
 
 
 @dataclass(frozen=True)
+class Budgets:
+    """Remaining carbon budgets by warming level and likelihood, and the TCRE (contract.toml `[budgets]`).
+
+    `remaining[i][j]` is the budget in Gt CO2 from 1 January of `from_year` for `levels[i]` (°C above
+    1850-1900) at `likelihoods[j]` (%, the likelihood of limiting warming to that level). Published budgets
+    already set aside the warming from non-CO2 emissions, so they are compared with CO2 only.
+    """
+
+    source: str
+    region: str
+    from_year: int
+    likelihoods: tuple[float, ...]
+    levels: tuple[float, ...]
+    remaining: tuple[tuple[float, ...], ...]
+    tcre: float  # °C per 1000 Gt CO2, central estimate
+    tcre_likely: tuple[float, float]  # likely range (low, high)
+
+    def budget(self, level: float, likelihood: float) -> float:
+        """The remaining budget (Gt CO2) of one warming level at one likelihood; KeyError if not in the table."""
+        if level not in self.levels or likelihood not in self.likelihoods:
+            raise KeyError(f"no budget for {level:g} °C at {likelihood:g} %")
+        return self.remaining[self.levels.index(level)][self.likelihoods.index(likelihood)]
+
+
+@dataclass(frozen=True)
+class Pairing:
+    """How scenarios pair for delay comparisons (contract.toml `[pairs]`).
+
+    Scenarios of one model whose attributes `match` are equal form a group; `order` (an attribute, compared as
+    a number where it is one) orders the group, and every later scenario pairs with the earliest.
+    """
+
+    match: tuple[str, ...]
+    order: str
+
+
+@dataclass(frozen=True)
 class Contract:
     name: str
     description: str
@@ -120,6 +158,8 @@ class Contract:
     reference: tuple[Reference, ...]
     bounds: tuple[Bound, ...]
     harmonise: Harmonise = Harmonise()
+    budgets: Budgets | None = None
+    pairs: Pairing | None = None
     problems: tuple[str, ...] = field(default=(), compare=False)
     hash: str = ""
     units: Any = field(default=None, compare=False, repr=False)
@@ -163,6 +203,8 @@ class Contract:
             "reference": [asdict(r) for r in self.reference],
             "bounds": [asdict(b) for b in self.bounds],
             "harmonise": {**asdict(self.harmonise), "variables": list(self.harmonise.variables)},
+            "budgets": asdict(self.budgets) if self.budgets else None,
+            "pairs": asdict(self.pairs) if self.pairs else None,
         }
 
     def references_in_contract_units(self) -> tuple[Reference, ...]:
@@ -306,6 +348,61 @@ def _gwp_values(metric: str) -> dict[str, float]:
         raise ContractError(f"gwp = {metric!r} is not a published set known to globalwarmingpotentials ({known})")
     table = gwp.data[metric]
     return {"CO2": 1.0, "CH4": float(table["CH4"]), "N2O": float(table["N2O"])}
+
+
+def _budgets(raw: Any, where: str) -> Budgets | None:
+    """`[budgets]` of contract.toml as a Budgets record (shape only; contract_lint checks that it is sound)."""
+    if raw is None:
+        return None
+    if not isinstance(raw, dict):
+        raise ContractError(f"{where}: [budgets] must be a table")
+    known = {"source", "region", "from_year", "likelihoods", "remaining", "tcre", "tcre_likely"}
+    unknown = sorted(set(raw) - known)
+    if unknown:
+        known_keys = ", ".join(sorted(known))
+        raise ContractError(f"{where}: [budgets] has unknown keys {', '.join(unknown)} (known: {known_keys})")
+    remaining = raw.get("remaining", {})
+    if not isinstance(remaining, dict) or not remaining:
+        raise ContractError(f'{where}: [budgets.remaining] must map warming levels ("1.5") to lists of Gt CO2')
+    likelihoods = tuple(_number(x, f"{where} [budgets] likelihoods") for x in raw.get("likelihoods", ()))
+    levels: list[tuple[float, tuple[float, ...]]] = []
+    for key, values in remaining.items():
+        try:
+            level = float(key)
+        except ValueError:
+            raise ContractError(f"{where}: [budgets.remaining] key {key!r} is not a warming level in °C") from None
+        if not isinstance(values, list):
+            raise ContractError(f"{where}: [budgets.remaining] {key} must be a list of Gt CO2, one per likelihood")
+        levels.append((level, tuple(_number(v, f"{where} [budgets.remaining] {key}") for v in values)))
+    levels.sort()
+    likely = raw.get("tcre_likely", ())
+    if not isinstance(likely, list) or len(likely) != 2:
+        raise ContractError(f"{where}: [budgets] tcre_likely must be [low, high] in °C per 1000 Gt CO2")
+    return Budgets(
+        source=str(raw.get("source", "")),
+        region=str(raw.get("region", "World")),
+        from_year=int(_number(raw.get("from_year"), f"{where} [budgets] from_year")),
+        likelihoods=likelihoods,
+        levels=tuple(lv for lv, _ in levels),
+        remaining=tuple(v for _, v in levels),
+        tcre=_number(raw.get("tcre"), f"{where} [budgets] tcre"),
+        tcre_likely=(_number(likely[0], f"{where} [budgets] tcre_likely"), _number(likely[1], f"{where} tcre_likely")),
+    )
+
+
+def _pairing(raw: Any, where: str) -> Pairing | None:
+    """`[pairs]` of contract.toml: `match` (attribute names) and `order` (one attribute name)."""
+    if raw is None:
+        return None
+    if not isinstance(raw, dict) or set(raw) - {"match", "order"}:
+        raise ContractError(f"{where}: [pairs] takes `match` (a list of scenario attributes) and `order` (one)")
+    match = raw.get("match", [])
+    order = raw.get("order")
+    if not isinstance(match, list) or not all(isinstance(m, str) and m for m in match):
+        raise ContractError(f"{where}: [pairs] match must be a list of scenario attribute names")
+    if not isinstance(order, str) or not order:
+        raise ContractError(f"{where}: [pairs] needs `order`, the scenario attribute that orders a group")
+    return Pairing(tuple(match), order)
 
 
 def load(path: str | Path | None = None) -> Contract:
@@ -480,6 +577,8 @@ def _resolve(
         reference=tuple(reference.values()),
         bounds=tuple(bounds),
         harmonise=_harmonise_settings(head.get("harmonise", {}), where),
+        budgets=_budgets(head.get("budgets"), where),
+        pairs=_pairing(head.get("pairs"), where),
         problems=tuple(problems),
         units=units,
     )

@@ -189,3 +189,45 @@ def test_lint_once_remembers_only_a_passing_contract(tmp_path, monkeypatch, basi
     assert [f.rule for f in lint_once(bad)] == ["contract-unit"]
     assert [f.rule for f in lint_once(bad)] == ["contract-unit"]  # failures are looked at again every time
     assert len(list((tmp_path / "cache" / "milepost").iterdir())) == 1
+
+
+def _budget_contract(tmp_path, budgets: str):
+    (tmp_path / "contract.toml").write_text(f'name = "b"\nextends = "core"\n{budgets}', encoding="utf-8")
+    return lint(load(tmp_path))
+
+
+def test_budgets_and_pairs_in_the_json_shape(demo_contract):
+    d = json.loads(json.dumps(demo_contract.to_dict()))
+    assert d["budgets"]["levels"] == [1.5, 1.7, 2.0] and d["budgets"]["likelihoods"] == [17, 33, 50, 67, 83]
+    assert d["pairs"] == {"match": ["ambition"], "order": "policy_start"}
+    assert load().pairs is None
+
+
+@pytest.mark.parametrize(
+    ("budgets", "message"),
+    [
+        ("[budgets]\nfrom_year = 2015\n", "1 January 2015"),
+        ('[budgets]\nregion = "Mars"\n', "'Mars'"),
+        ('[budgets.remaining]\n"1.5" = [900, 650, 500, 400, 300]\n"2.0" = [800, 1700, 1350, 1150, 900]\n', "rise"),
+        ('[budgets.remaining]\n"1.5" = [900, 650, 500, 400]\n', "4 budgets for 5 likelihoods"),
+        ('[budgets.remaining]\n"1.5" = [300, 400, 500, 650, 900]\n', "grow with the likelihood"),
+        ("[budgets]\ntcre = 0.9\n", "likely range"),
+        ("[budgets]\nlikelihoods = [83, 67, 50, 33, 17]\n", "rise strictly"),
+    ],
+)
+def test_lint_finds_inconsistent_budgets(tmp_path, budgets, message):
+    found = _budget_contract(tmp_path, budgets)
+    assert [f.rule for f in found] and {f.rule for f in found} == {"contract-budget"}
+    assert any(message in f.message for f in found), [f.message for f in found]
+
+
+def test_bad_budget_and_pairs_shapes_are_contract_errors(tmp_path):
+    for text, match in (
+        ('[budgets.remaining]\n"warm" = [1, 2, 3, 4, 5]\n', "not a warming level"),
+        ("[budgets]\nspeed = 3\n", "unknown keys speed"),
+        ('[pairs]\nmatch = ["ambition"]\n', "needs `order`"),
+        ('[pairs]\nmatch = "ambition"\norder = "start"\n', "list of scenario attribute"),
+    ):
+        (tmp_path / "contract.toml").write_text(f'name = "b"\nextends = "core"\n{text}', encoding="utf-8")
+        with pytest.raises(ContractError, match=match):
+            load(tmp_path)

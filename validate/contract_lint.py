@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import fnmatch
+import itertools
 import os
 from pathlib import Path
 from typing import Any
@@ -187,6 +188,7 @@ def lint(contract: Contract) -> list[Finding]:
     for name in c.required_regions:
         if not c.is_region(name):
             out.append(_f("contract-reference", f"required region {name!r} is not a region of the contract", path=src))
+    out.extend(_budget_problems(c, src))
     for rule, sev in c.severity.items():
         if rule not in RULES or sev not in SEVERITIES:
             out.append(
@@ -242,6 +244,41 @@ def _harmonise_problems(c: Contract, src: str | None) -> list[Finding]:
             out.append(_f("contract-harmonise", message, hint, path=src))
             default_told = True
     return out
+
+
+def _budget_problems(c: Contract, src: str | None) -> list[Finding]:
+    """The carbon-budget table must be readable as budget_p(W), increasing in W, for the budget indicators."""
+    b = c.budgets
+    if b is None:
+        return []
+    out: list[str] = []
+    if b.from_year != c.base_year:
+        out.append(
+            f"[budgets] count from 1 January {b.from_year}, but cumulative emissions start at the base year "
+            f"{c.base_year}: give budgets from {c.base_year} (and from_year = {c.base_year})"
+        )
+    if not c.is_region(b.region):
+        out.append(f"[budgets] region {b.region!r} is not a region of the contract")
+    p = b.likelihoods
+    if not p or any(not 0 < x < 100 for x in p) or any(x >= y for x, y in itertools.pairwise(p)):
+        out.append(f"[budgets] likelihoods must rise strictly between 0 and 100 %, not {list(p)}")
+    for level, row in zip(b.levels, b.remaining, strict=True):
+        if len(row) != len(p):
+            out.append(f"[budgets.remaining] {level:g} °C has {len(row)} budgets for {len(p)} likelihoods")
+        elif any(x < y for x, y in itertools.pairwise(row)):
+            out.append(f"[budgets.remaining] {level:g} °C: budgets must not grow with the likelihood, not {list(row)}")
+    if all(len(row) == len(p) for row in b.remaining):
+        for j, likelihood in enumerate(p):
+            column = [row[j] for row in b.remaining]
+            if any(x >= y for x, y in itertools.pairwise(column)):
+                out.append(
+                    f"[budgets.remaining] at {likelihood:g} %: budgets must rise strictly with the warming level, "
+                    f"not {column}"
+                )
+    low, high = b.tcre_likely
+    if not 0 < low <= b.tcre <= high:
+        out.append(f"[budgets] tcre {b.tcre:g} must be positive and inside its likely range {low:g}-{high:g}")
+    return [_f("contract-budget", m, "See schema/core/contract.toml for the shape.", path=src) for m in out]
 
 
 def _cache_dir() -> Path:

@@ -129,6 +129,12 @@ RULES: dict[str, Rule] = {
             "contract",
             "A harmonisation method, convergence year or variable pattern is unknown or out of range.",
         ),
+        Rule(
+            "contract-budget",
+            "error",
+            "contract",
+            "The carbon-budget table is inconsistent: its year, region, likelihoods, budgets or TCRE.",
+        ),
     )
 }
 

@@ -1,6 +1,6 @@
 """Time `compute_indicators` on invented intercomparison-sized data: `python -m milepost.validate.bench.indicators`.
 
-The data are made up in SQL (models M0.., scenarios S1.. each referring to scenario "ref", regions R0..), one
+The data are made up in SQL (models M0.., scenarios S1.. each referring to scenario "ref", regions World, R1..), one
 row per contract variable, region and year; values are smooth invented paths, some crossing zero.
 """
 
@@ -29,7 +29,9 @@ def make_data(
     per_model = max(1, scenarios // models)
     con.execute(
         "CREATE OR REPLACE TEMP TABLE checked AS"
-        " SELECT 'M' || m AS model, CASE WHEN s = 0 THEN 'ref' ELSE 'S' || s END AS scenario, 'R' || r AS region,"
+        " SELECT 'M' || m AS model, CASE WHEN s = 0 THEN 'ref' ELSE 'S' || s END AS scenario,"
+        # region 0 is World, so the kinds written for the carbon-budget region only are measured too
+        " CASE WHEN r = 0 THEN 'World' ELSE 'R' || r END AS region,"
         " v.variable, v.unit, y::INTEGER AS year,"
         " (50 + (hash(m, s, r, v.variable) % 100)::DOUBLE) * (1 - (y - $base) / 60.0 * (s % 7) / 4.0) AS value"
         " FROM range($models) a(m), range($per_model) b(s), range($regions) c(r),"

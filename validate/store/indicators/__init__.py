@@ -20,13 +20,14 @@ These numbers are model projections, not forecasts; costs exclude avoided damage
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 import duckdb
 
 from milepost.schema.contract import Contract
 from milepost.validate.sql import qualified
-from milepost.validate.store.indicators import costs, cumulative, levels, rates, timing
+from milepost.validate.store.indicators import budgets, costs, cumulative, levels, rates, timing
 from milepost.validate.store.indicators.base import Kind
 from milepost.validate.store.indicators.definitions import IndicatorSpecError, Plan, load_definitions, resolve
 from milepost.validate.store.indicators.interpolation import IndicatorDataError, drop_helpers, prepare
@@ -42,7 +43,7 @@ __all__ = [
     "plan",
 ]
 
-FAMILIES = (levels, rates, cumulative, timing, costs)
+FAMILIES = (levels, rates, cumulative, timing, costs, budgets)
 KINDS: dict[str, Kind] = {k.name: k for family in FAMILIES for k in family.KINDS}
 COLUMNS = (
     ("model", "VARCHAR"),
@@ -84,6 +85,8 @@ def compute_indicators(
         tables = prepare(
             con, data, scenarios, resolved.selection, resolved.periods, contract.base_year, contract.discount_rate
         )
+        levels_table, pieces_table = budgets.prepare_budgets(con, contract.budgets)
+        tables = replace(tables, budget_levels=levels_table, budget_pieces=pieces_table)
         parts = [KINDS[kind].sql(tables) for kind in resolved.kinds()]
         if parts:
             # BY NAME: a kind without notes leaves out the `note` column and gets nulls there
@@ -96,3 +99,4 @@ def compute_indicators(
         return int(con.execute(f"SELECT count(*) FROM {out}").fetchall()[0][0])
     finally:
         drop_helpers(con)
+        budgets.drop_budgets(con)

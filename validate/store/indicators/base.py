@@ -22,7 +22,10 @@ from milepost.validate.sql import literal
 #   level     the value is in the variable's unit and is converted into the indicator unit (value, peak_value)
 #   integral  the value is a sum of annual values, converted from the variable's unit into indicator unit + "/yr"
 #   label     the value has its own dimension (%/yr, %, year): the unit is written as given, never converted
-SCALINGS = ("level", "integral", "label")
+#   budget    the kind compares a sum of annual values with the contract's carbon budgets: the factor converts the
+#             variable's unit into "Gt CO2/yr" (the budgets' unit per year); the unit is written as given
+SCALINGS = ("level", "integral", "label", "budget")
+BUDGET_UNIT = "Gt CO2"
 
 
 @dataclass(frozen=True)
@@ -43,6 +46,9 @@ class Tables:
                their years in `years` (none for kinds over the reported range)
     years      every period endpoint year and the base year, sorted: the positions of `series.ends`
     base_index the 1-based position of the base year in `years` (s.ends[base_index] is the base-year value)
+    budget_levels  region, likelihood, label, warming, budget: the contract's carbon-budget table, one row per
+               warming level and likelihood (empty without budgets; see `budgets`)
+    budget_pieces  region, likelihood, label, lo, hi, anchor, warming, slope: budget_p(W) inverted piece by piece
     """
 
     series: str
@@ -53,6 +59,8 @@ class Tables:
     years: tuple[int, ...]
     base_year: int
     discount_rate: float
+    budget_levels: str = ""
+    budget_pieces: str = ""
 
     @property
     def base_index(self) -> int:

@@ -19,10 +19,10 @@ from typing import Any
 import milepost.schema
 from milepost.schema.contract import Contract
 from milepost.validate.errors import IndicatorSpecError as IndicatorSpecError  # re-exported
-from milepost.validate.store.indicators.base import SCALINGS, Kind
+from milepost.validate.store.indicators.base import BUDGET_UNIT, SCALINGS, Kind
 
 DEFAULT_PATH = Path(milepost.schema.__file__).parent / "indicators.toml"
-PERIOD_SHAPES = ("points", "milestones", "pairs", "from_base", "reported")
+PERIOD_SHAPES = ("points", "milestones", "pairs", "from_base", "reported", "net_zero")
 KEYS = ("variables", "exclude", "periods", "unit")
 _GAS_UNIT = re.compile(r"^[kMGT]?t (\S+)/yr$")
 
@@ -117,7 +117,7 @@ def periods_for(shape: str, base_year: int, milestones: tuple[int, ...]) -> tupl
         chain = [base_year, *later]
         pairs = {(base_year, m) for m in later} | set(itertools.pairwise(chain))
         return tuple(sorted(pairs))
-    if shape == "reported":
+    if shape in ("reported", "net_zero"):  # each series has its own period
         return ()
     raise IndicatorSpecError(f"unknown period shape {shape!r} (known: {', '.join(PERIOD_SHAPES)})")
 
@@ -169,6 +169,8 @@ def resolve(contract: Contract, definitions: tuple[Definition, ...], kinds: Mapp
                     factor = 1.0
                 elif kind.scaling == "level":
                     factor = units.factor(var.unit, unit)
+                elif kind.scaling == "budget":
+                    factor = units.factor(var.unit, f"{BUDGET_UNIT}/yr")
                 else:
                     factor = units.factor(var.unit, f"{unit}/yr")
             except (KeyError, UnitError) as e:
