@@ -26,6 +26,7 @@ class What(StrEnum):
     data = "data"
     indicators = "indicators"
     findings = "findings"
+    pairs = "pairs"
 
 
 class Basis(StrEnum):
@@ -194,7 +195,8 @@ def export_cmd(
         What,
         typer.Option(
             "--what",
-            help="Which rows: current data, current indicators, or the findings of every submission.",
+            help="Which rows: current data, current indicators, the findings of every submission, or pairs "
+            "(each delayed scenario's indicators beside its earliest sibling's).",
             show_default=False,
         ),
     ],
@@ -211,14 +213,46 @@ def export_cmd(
     basis: Annotated[
         Basis, typer.Option("--basis", help="Data and indicators as submitted (raw) or harmonised.")
     ] = Basis.raw,
+    contract: Annotated[
+        Path | None,
+        typer.Option(
+            "--contract",
+            "-c",
+            help="Pairs: the contract whose [pairs] says how scenarios pair (default: the bundled contract the "
+            "database names; without [pairs], scenarios of one model in one outcome class pair).",
+            file_okay=False,
+        ),
+    ] = None,
+    likelihood: Annotated[
+        str, typer.Option("--likelihood", help="Pairs without [pairs]: the budget likelihood of the outcome classes.")
+    ] = "67%",
 ) -> None:
-    """Export data, indicators or findings as CSV, Parquet or XLSX."""
+    """Export data, indicators, findings or delay pairs as CSV, Parquet or XLSX."""
     from milepost.validate.store.database import default_db_path, warn
     from milepost.validate.store.exports import Filters, export
 
     filters = Filters(model or (), scenario or (), region or (), variable or (), submission or (), basis.value)
-    n = export(default_db_path(db), what.value, fmt.value, output, filters, on_warning=warn)
+    path = default_db_path(db)
+    rule = _pair_rule(path, contract, likelihood) if what is What.pairs else None
+    n = export(path, what.value, fmt.value, output, filters, on_warning=warn, pairing=rule)
+    if rule is not None:
+        echo(rule.describe(), err=True)
     echo(f"Wrote {n:,} rows to {output}.", err=True)
+
+
+def _pair_rule(db: Path, contract: Path | None, likelihood: str) -> Any:
+    """The pairing rule of the given contract, else of the bundled contract the database names, else the default."""
+    from milepost.validate.store.contracts import find_bundled, stored_contract_name
+    from milepost.validate.store.database import reading
+    from milepost.validate.store.pairs import rule_for
+
+    if not likelihood.endswith("%"):
+        fail(f"--likelihood is a percentage such as 67%, not {likelihood!r}")
+    if contract is not None:
+        return rule_for(load_contract(contract, strict=False), likelihood)
+    with reading(db) as con:
+        name = stored_contract_name(con)
+    return rule_for(find_bundled(name) if name else None, likelihood)
 
 
 @handle_errors

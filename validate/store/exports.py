@@ -29,6 +29,7 @@ from milepost.validate.store.database import (
     stored_columns,
     view_or_definition,
 )
+from milepost.validate.store.pairs import PairRule, pair_rows_sql
 from milepost.validate.store.recompute import outdated_reason
 
 XLSX_MAX_ROWS = 1_048_575  # an Excel sheet has 1,048,576 rows; one is the header
@@ -132,7 +133,7 @@ def export_query(what: str, filters: Filters, con: duckdb.DuckDBPyConnection | N
     harmonised values existed holds raw ones only.
     """
     if what not in EXPORTS:
-        raise UsageError(f"--what must be one of {', '.join(EXPORTS)}, not {what!r}")
+        raise UsageError(f"--what must be one of {', '.join([*EXPORTS, 'pairs'])}, not {what!r}")
     if filters.basis not in BASES:
         raise UsageError(f"--basis must be one of {', '.join(BASES)}, not {filters.basis!r}")
     view, table, columns, order = EXPORTS[what]
@@ -160,8 +161,10 @@ def export(
     output: str | Path,
     filters: Filters | None = None,
     on_warning: Callable[[str], None] | None = None,
+    pairing: PairRule | None = None,
 ) -> int:
-    """Write the rows of `what` (data | indicators | findings) matching `filters` to `output`; returns the count.
+    """Write the rows of `what` (data | indicators | findings | pairs) matching `filters` to `output`; returns the
+    count. Pairs follow `pairing` (default: the outcome-class rule, see milepost.validate.store.pairs).
 
     `on_warning` hears (once) when the stored indicators follow older conventions (see `recompute`).
     """
@@ -171,9 +174,18 @@ def export(
     output = Path(output)
     if not output.parent.is_dir():
         raise UsageError(f"the folder of {output} does not exist")
+    if what == "pairs" and filters.submission:
+        raise UsageError("--submission does not apply to pairs: pairs are read from the current scenarios")
+    sql: str
+    params: list[Any] | dict[str, Any]
     with reading(db) as con:
-        sql, params = export_query(what, filters, con)
-        if what == "indicators":
+        if what == "pairs":
+            sql, params = pair_rows_sql(
+                pairing or PairRule(), filters.model, filters.scenario, filters.region, filters.variable
+            )
+        else:
+            sql, params = export_query(what, filters, con)
+        if what in ("indicators", "pairs"):
             reason = outdated_reason(con)
             if reason is not None and on_warning is not None:
                 on_warning(f"Warning: {reason}.")
@@ -193,8 +205,9 @@ def export(
                 f"{n:,} rows do not fit in an Excel sheet (at most {XLSX_MAX_ROWS:,}); "
                 "use --format csv or parquet, or filter with --model/--scenario/--region/--variable"
             )
+        note = (pairing or PairRule()).describe() if what == "pairs" else None
         with writing(output):  # openpyxl's write-only sheets stream into temporary files
-            _write_xlsx(con, sql, params, output, what, filters, db)
+            _write_xlsx(con, sql, params, output, what, filters, db, note)
     return n
 
 
@@ -211,11 +224,12 @@ def _in_place(output: Path) -> bool:
 def _write_xlsx(
     con: duckdb.DuckDBPyConnection,
     sql: str,
-    params: list[Any],
+    params: list[Any] | dict[str, Any],
     output: Path,
     what: str,
     filters: Filters,
     db: str | Path,
+    note: str | None = None,
 ) -> None:
     from openpyxl import Workbook
 
@@ -234,6 +248,8 @@ def _write_xlsx(
     about.append(["milepost export", what])
     about.append(["database", str(db)])
     about.append(["filters", json.dumps(filters.to_dict())])
+    if note:
+        about.append(["rule", note])
     about.append(["exported at (UTC)", time.strftime("%Y-%m-%d %H:%M:%S", time.gmtime())])
     for line in CAUTIONS:
         about.append(["caution", line])

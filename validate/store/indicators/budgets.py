@@ -106,13 +106,11 @@ def to_net_zero(t: Tables, kind: str, budget_region_only: bool) -> str:
     """
     base = int(t.base_year)
     ends = (
-        f"SELECT n.sid, {base} AS year_from, coalesce(n.year, n.year_to) AS year_to"
-        f" FROM ({net_zero_years(t, kind)}) n"
+        f"SELECT n.sid, {base} AS year_from, coalesce(n.year, n.year_to) AS year_to FROM ({net_zero_years(t, kind)}) n"
     )
     if budget_region_only:
         ends += (
-            f" WHERE n.sid IN (SELECT s.sid FROM {t.series} s"
-            f" WHERE s.region IN (SELECT region FROM {t.budget_levels}))"
+            f" WHERE n.sid IN (SELECT s.sid FROM {t.series} s WHERE s.region IN (SELECT region FROM {t.budget_levels}))"
         )
     spans = f"({ends})"
     return (
