@@ -3,8 +3,10 @@
 Everything here is invented: models, scenarios, regions and numbers. The numbers come from a small stylised
 model (reference growth; abatement embodied in capital that turns over slowly, is built at the abatement that is
 cost-effective at the carbon price of its day and can be scrapped early at a convex cost; costs fall with
-experience) so that the ensemble behaves plausibly, not from any real model or data set. Delayed scenarios
-pursue the same goal as their immediate sibling, so they must cut faster after 2030 and pay more for it.
+experience; GDP losses that grow with the depth of abatement) so that the ensemble behaves plausibly, not from
+any real model or data set. Delayed scenarios reach the same long-term outcome as their immediate sibling (the
+same cumulative CO2 to net zero, so the same carbon-budget class, and the same 2100 level), so they must cut
+faster after 2030 and pay more for it. See example_db/README.md.
 Run `python -m milepost.example_db.generate OUT_DIR` to write the files.
 """
 
@@ -108,29 +110,34 @@ GROUP_TURNOVER = np.array([0.2, 0.4, 0.3, 0.2, 0.2, 0.7, 0.4, 0.2, 0.55, 0.4, 0.
 SCRAP_COST = 20.0
 # Learning by doing: a group's cost scale falls as (1 + E / EXPERIENCE0)^-LEARNING with its experience E (abated
 # fraction x years, per region); 0.36 is a cost fall of 1 - 2^-0.36 = 22 % per doubling of experience.
-LEARNING = 0.36
+LEARNING = 0.2
 EXPERIENCE0 = 1.0
+# GDP loss (fraction of GDP) = the model's factor x LOSS_AT_FULL_DEPTH x depth^LOSS_POWER, depth = abated share.
+LOSS_AT_FULL_DEPTH = 0.04
+LOSS_POWER = 2.0
 
 # The scenario protocol: name, family, ambition and carbon price in 2025 (USD_2015/t CO2, before the model's own
 # scaling). Prices grow 5 %/yr to 2050 and 2 %/yr after. A delayed scenario follows the reference to 2030 and then
-# pursues the goal of its immediate sibling (same model and ambition): from 2035 it pays a multiple of the
-# sibling's price, solved per run so that World GHG in 2050 matches the sibling's; after 2050 the premium fades,
-# at a pace solved per run so that 2100 ends at the sibling's level too. Delayed variants exist for a weak, a
-# strong and the strongest goal.
+# pursues the outcome of its immediate sibling (same model and ambition): from 2035 it pays a multiple of the
+# sibling's price, solved per run so that World CO2 summed to net zero equals the sibling's (the same budget
+# class); after 2050 the premium fades, at a pace solved per run so that 2100 ends at the sibling's GHG level.
+# Delayed variants exist for the three goals a start in 2035 can still reach (the strongest cannot: the no-policy
+# emissions to 2035 alone exceed its budget).
 PROTOCOL = (
     (REFERENCE_NAME, "reference", "", 0.0),
     ("act-mild", "immediate", "mild", 14.0),
     ("act-modest", "immediate", "modest", 20.0),
-    ("act-firm", "immediate", "firm", 30.0),
-    ("act-bold", "immediate", "bold", 55.0),
+    ("act-firm", "immediate", "firm", 40.0),
+    ("act-bold", "immediate", "bold", 60.0),
     ("act-deep", "immediate", "deep", 90.0),
     ("act-max", "immediate", "max", 140.0),
-    ("wait-firm", "delayed", "firm", 30.0),
+    ("wait-firm", "delayed", "firm", 40.0),
+    ("wait-bold", "delayed", "bold", 60.0),
     ("wait-deep", "delayed", "deep", 90.0),
-    ("wait-max", "delayed", "max", 140.0),
 )
 DELAY_PREMIUM_MAX = 10.0  # search range of the delay premium (price multiple, from 1)
-DELAY_FADE_RANGE = (0.5, 50.0)  # search range of the e-folding time (years) of the premium after 2050
+DELAY_ROUNDS = 4  # premium and fade are solved in turn this many times (each moves the other's target a little)
+DELAY_FADE_RANGE = (0.5, 500.0)  # search range of the e-folding time (years) of the premium after 2050
 PRICE_GROWTH = (0.05, 0.02)
 PRICE_CAP = 4000.0
 # Reference-component indices for the per-model calibration noise.
@@ -306,34 +313,54 @@ def _regional_ghg(leaves: dict[str, np.ndarray], ghg_factor: dict[str, float]) -
     )
 
 
-def _match_siblings(models: Models, runs: Runs, ghg_factor: dict[str, float], iterations: int = 40) -> Runs:
-    """Solve each delayed run's price premium and its fading so that World GHG in 2050 and in 2100 equals that of the
-    immediate run of the same model and ambition; runs without such a sibling are kept as they are.
+def _world_co2_to_net_zero(leaves: dict[str, np.ndarray]) -> np.ndarray:
+    """World CO2 summed over the whole years from 2020 to its net-zero year, both included (or to 2100), in Gt:
+    the `cumulative_net_zero` indicator, computed here on the annual linear interpolation of the five-year points."""
+    co2 = (sum(leaves[f"emissions.co2.fossil.{s}"] for s in SECTORS) + leaves["emissions.co2.land"]).sum(axis=1)
+    years = np.arange(BASE_YEAR, int(YEARS[-1]) + 1)
+    step = np.searchsorted(YEARS, years, side="right").clip(1, len(YEARS) - 1)
+    w = (years - YEARS[step - 1]) / (YEARS[step] - YEARS[step - 1])
+    annual = co2[:, step - 1] * (1.0 - w) + co2[:, step] * w
+    below = annual <= 0
+    end = np.where(below.any(axis=1), below.argmax(axis=1), len(years) - 1)
+    return np.where(np.arange(len(years))[None, :] <= end[:, None], annual, 0.0).sum(axis=1) / 1000.0
 
-    Both are bisections on a logarithm, all runs at once: the premium first (later prices cannot change 2050),
-    then the e-folding time of its fading after 2050 (a slower fade abates more by 2100).
+
+def _match_siblings(models: Models, runs: Runs, ghg_factor: dict[str, float], iterations: int = 30) -> Runs:
+    """Solve each delayed run's price premium and its fading so that it reaches the same long-term outcome as the
+    immediate run of the same model and ambition: the same World CO2 summed to net zero (so the same carbon-budget
+    class) and the same World GHG in 2100. Runs without such a sibling are kept as they are.
+
+    Two bisections on a logarithm, all runs at once, taken in turn a few times: the premium (from the delayed start
+    to 2050) for the cumulative CO2, then the e-folding time of its fading after 2050 for the 2100 level. Starting
+    later with the same budget means emitting less afterwards: the premium is what makes the catch-up steep.
     """
     key = list(zip(runs.model.tolist(), runs.ambition, strict=True))
     sibling = {k: i for i, (k, f) in enumerate(zip(key, runs.family, strict=True)) if f == "immediate"}
     delayed = np.array([i for i, f in enumerate(runs.family) if f == "delayed" and key[i] in sibling], dtype=int)
     if not len(delayed):
         return runs
-    years = [int(np.searchsorted(YEARS, y)) for y in (2050, 2100)]
-    world = lambda r: _regional_ghg(_simulate(models, r, ghg_factor), ghg_factor).sum(axis=1)[:, years]  # noqa: E731 - a one-line helper used only here
-    goal = world(_subset(runs, np.array([sibling[key[i]] for i in delayed])))
+    y2100 = int(np.searchsorted(YEARS, 2100))
+
+    def outcome(r: Runs) -> tuple[np.ndarray, np.ndarray]:
+        leaves = _simulate(models, r, ghg_factor)
+        return _world_co2_to_net_zero(leaves), _regional_ghg(leaves, ghg_factor).sum(axis=1)[:, y2100]
+
+    goal = outcome(_subset(runs, np.array([sibling[key[i]] for i in delayed])))
     sub = _subset(runs, delayed)
-    premium, fade = np.ones(len(delayed)), np.full(len(delayed), DELAY_FADE_RANGE[0])
-    for j, (low, high) in enumerate(((1.0, DELAY_PREMIUM_MAX), DELAY_FADE_RANGE)):
-        lo, hi = np.full(len(delayed), np.log(low)), np.full(len(delayed), np.log(high))
-        for _ in range(iterations):
-            mid = 0.5 * (lo + hi)
-            trial = (np.exp(mid), fade) if j == 0 else (premium, np.exp(mid))
-            above = world(replace(sub, price=_delay_price(sub.price, *trial)))[:, j] > goal[:, j]
-            lo, hi = np.where(above, mid, lo), np.where(above, hi, mid)
-        if j == 0:
-            premium = np.exp(hi)
-        else:
-            fade = np.exp(0.5 * (lo + hi))
+    premium, fade = np.full(len(delayed), 2.0), np.full(len(delayed), 20.0)
+    for _ in range(DELAY_ROUNDS):
+        for j, (low, high) in enumerate(((1.0, DELAY_PREMIUM_MAX), DELAY_FADE_RANGE)):
+            lo, hi = np.full(len(delayed), np.log(low)), np.full(len(delayed), np.log(high))
+            for _ in range(iterations):
+                mid = 0.5 * (lo + hi)
+                trial = (np.exp(mid), fade) if j == 0 else (premium, np.exp(mid))
+                above = outcome(replace(sub, price=_delay_price(sub.price, *trial)))[j] > goal[j]
+                lo, hi = np.where(above, mid, lo), np.where(above, hi, mid)
+            if j == 0:
+                premium = np.exp(0.5 * (lo + hi))
+            else:
+                fade = np.exp(0.5 * (lo + hi))
     price = runs.price.copy()
     price[delayed] = _delay_price(sub.price, premium, fade)
     return replace(runs, price=price)
@@ -449,7 +476,12 @@ def _simulate(
     cost = sum(bases[k] * unit_cost[i] for i, k in enumerate(GROUPS)) / 1000.0  # Mt x USD/t -> billion USD
     out["cost.abatement"] = cost
 
-    loss = np.minimum(models.gdp_loss[mi][:, None, None] * cost / ref["gdp.mer"], 0.2)
+    # GDP loss grows with the depth of abatement (abated Mt CO2e over the no-policy emissions it acts on), not with
+    # the abatement bill alone: a transformed economy loses more than the direct cost, and deeper and later cuts
+    # weigh more, so losses rise with stringency and through the century.
+    emitted = sum(bases[k] for k in ("coal", "oil", "gas", "process", "land", "ch4", "n2o"))
+    depth = sum(bases[k] * a[k] for k in GROUPS) / emitted
+    loss = np.minimum(models.gdp_loss[mi][:, None, None] * LOSS_AT_FULL_DEPTH * depth**LOSS_POWER, 0.2)
     out["population"] = ref["population"]
     out["gdp.mer"] = ref["gdp.mer"] * (1.0 - loss)
     out["gdp.ppp"] = ref["gdp.mer"] * ref["ppp_ratio"] * (1.0 - loss)

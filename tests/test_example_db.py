@@ -295,7 +295,31 @@ def story(frame: pd.DataFrame) -> pd.DataFrame:
         ref = w.xs(gen.REFERENCE_NAME, level="scenario")
         out[col] = 1.0 - w / ref.reindex(w.index.get_level_values("model")).to_numpy()
     out["price_max"] = price.max(axis=1)
+    out["co2_to_net_zero"] = co2_to_net_zero(world(frame, "emissions.co2"))
     return out
+
+
+def co2_to_net_zero(five_yearly: pd.DataFrame) -> pd.Series:
+    """Gt CO2 summed over the whole years 2020..net-zero year (first annual value <= 0), both included, or to 2100;
+    the annual values by numpy.interp between the five-yearly points."""
+    years = np.arange(2020, 2101)
+    points = five_yearly.columns.to_numpy(dtype=float)
+    out = []
+    for row in five_yearly.to_numpy():
+        annual = np.interp(years, points, row)
+        below = np.flatnonzero(annual <= 0)
+        end = below[0] if len(below) else len(years) - 1
+        out.append(annual[: end + 1].sum() / 1000.0)
+    return pd.Series(out, index=five_yearly.index)
+
+
+# IPCC AR6 WG1 SPM Table SPM.2, budgets from 2020 at 67 % (Gt CO2): 1.5 °C 400, 1.7 °C 700, 2.0 °C 1150.
+BUDGETS_67 = {1.5: 400.0, 1.7: 700.0, 2.0: 1150.0}
+
+
+def budget_class(gt: float) -> float | None:
+    """The lowest warming level whose 67 % budget holds `gt` (None: above every budget)."""
+    return next((level for level, budget in BUDGETS_67.items() if gt <= budget), None)
 
 
 def pairs() -> list[tuple[str, str]]:
@@ -305,17 +329,61 @@ def pairs() -> list[tuple[str, str]]:
 
 
 def test_protocol_pairs_every_delayed_scenario_with_an_immediate_one() -> None:
-    assert [d for d, _ in pairs()] == ["wait-firm", "wait-deep", "wait-max"]
+    assert [d for d, _ in pairs()] == ["wait-firm", "wait-bold", "wait-deep"]
     assert all(d.removeprefix("wait-") == i.removeprefix("act-") for d, i in pairs())
 
 
-@pytest.mark.parametrize("year", [2050, 2100])
-def test_delayed_reach_the_level_of_their_immediate_sibling(story: pd.DataFrame, year: int) -> None:
-    col = f"ghg{year}"
+def test_delayed_reach_the_outcome_of_their_immediate_sibling(story: pd.DataFrame) -> None:
+    """The same cumulative CO2 to net zero (so the same budget class) and the same GHG level in 2100."""
+    base = story["ghg2030"].xs(gen.REFERENCE_NAME, level="scenario").mean()
     for model in gen.MODELS:
         for delayed, immediate in pairs():
-            d, i = story.loc[(model, delayed), col], story.loc[(model, immediate), col]
-            assert abs(d - i) <= 0.03 * abs(i), (model, delayed, year, d, i)
+            d, i = story.loc[(model, delayed)], story.loc[(model, immediate)]
+            where = (model, delayed, d["co2_to_net_zero"], i["co2_to_net_zero"])
+            assert d["co2_to_net_zero"] == pytest.approx(i["co2_to_net_zero"], rel=0.005), where
+            assert budget_class(d["co2_to_net_zero"]) == budget_class(i["co2_to_net_zero"]), where
+            assert abs(d["ghg2100"] - i["ghg2100"]) <= 0.01 * base, (model, delayed, d["ghg2100"], i["ghg2100"])
+            # same budget, later start: lower emissions in 2050 than the sibling that acted early
+            assert d["ghg2050"] < i["ghg2050"], where
+
+
+def test_the_ensemble_spans_the_budget_classes(story: pd.DataFrame) -> None:
+    policy = story.drop(gen.REFERENCE_NAME, level="scenario")
+    classes = policy["co2_to_net_zero"].map(budget_class)
+    counts = classes.value_counts(dropna=False)
+    assert counts.get(1.7, 0) >= 6 and counts.get(2.0, 0) >= 10 and classes.isna().sum() >= 6, counts
+    # every model has scenarios in the 2 °C (67 %) class, immediate and delayed
+    two = policy[classes == 2.0].reset_index()
+    assert set(two["model"]) == set(gen.MODELS)
+    assert set(two["scenario"].str.split("-").str[0]) == {"act", "wait"}
+
+
+def test_gdp_losses_in_2050_are_shaped_like_the_assessed_ranges(story: pd.DataFrame) -> None:
+    # AR6 WGIII SPM C.12.2 (from memory): global GDP in 2050 1.3-2.7 % below the reference for pathways likely
+    # below 2 °C, 2.6-4.2 % for 1.5 °C with no or limited overshoot. The demo's numbers are invented; only their
+    # medians per class are held to those ranges (with half a point of slack), and the order of the two.
+    policy = story.drop(gen.REFERENCE_NAME, level="scenario")
+    two = policy[policy["co2_to_net_zero"].map(budget_class) == 2.0]["gdp_loss"] * 100
+    low = policy[policy["co2_to_net_zero"] <= 500.0]["gdp_loss"] * 100  # within 1.5 °C at 50 % (Table SPM.2)
+    assert len(low) >= 2
+    assert 1.3 - 0.5 <= two.median() <= 2.7 and 2.6 - 0.5 <= low.median() <= 4.2 + 0.5
+    assert low.median() > two.median()
+
+
+def test_costs_rise_with_stringency_and_through_the_century(frame: pd.DataFrame, story: pd.DataFrame) -> None:
+    gdp = world(frame, "gdp.mer")
+    for model in gen.MODELS:
+        ref = gdp.loc[(model, gen.REFERENCE_NAME)]
+        for name, family, *_ in gen.PROTOCOL:
+            if family == "reference":
+                continue
+            loss = 1.0 - gdp.loc[(model, name)] / ref
+            assert loss[2050] < loss[2100], (model, name)  # losses keep rising after 2050
+            if family == "immediate":
+                assert 0 < loss[2030] < loss[2050], (model, name)
+    order = [name for name, fam, *_ in gen.PROTOCOL if fam == "immediate"]
+    for model in gen.MODELS:
+        assert story.loc[model].loc[order, "npv"].is_monotonic_increasing, model
 
 
 def test_delay_means_faster_cuts_higher_prices_and_higher_costs(story: pd.DataFrame, frame: pd.DataFrame) -> None:
@@ -331,24 +399,24 @@ def test_delay_means_faster_cuts_higher_prices_and_higher_costs(story: pd.DataFr
             # the catch-up needs a higher carbon price (from 2035, the first delayed policy year)
             dp, ip = price.loc[(model, delayed), 2035:], price.loc[(model, immediate), 2035:]
             assert (dp >= ip).all() and (dp.loc[:2050] > ip.loc[:2050]).all(), where
-    delayed = story.xs("wait-max", level="scenario")
+    delayed = story.xs("wait-deep", level="scenario")
     # realistic magnitudes even for the deepest delayed goal: a few % of GDP in 2050, a few thousand USD/t
     assert (delayed["gdp_loss"] < 0.05).all() and (delayed["price_max"] < 3000).all()
 
 
-def test_tercile_bands_of_2030_emissions_tell_the_delay_story(story: pd.DataFrame) -> None:
-    """Policy scenarios in terciles of World GHG in 2030: the high band cuts faster after 2030 and costs more."""
+def test_within_one_budget_class_higher_2030_emissions_cut_faster_and_cost_more(story: pd.DataFrame) -> None:
+    """Policy scenarios within the 2 °C budget at 67 %, in terciles of World GHG in 2030: the high band cuts faster
+    after 2030 and costs more. Holding the outcome fixed is what makes the comparison like with like."""
     policy = story.drop(gen.REFERENCE_NAME, level="scenario")
-    values = policy["ghg2030"].to_numpy()
+    same = policy[policy["co2_to_net_zero"].map(budget_class) == 2.0]
+    values = same["ghg2030"].to_numpy()
     edges = np.quantile(values, [1 / 3, 2 / 3])  # numpy's default 'linear' method
     band = (values[:, None] >= edges[None, :]).sum(axis=1)
-    high, low = policy[band == 2], policy[band == 0]
-    assert len(high) >= 10 and len(low) >= 10
-    # every delayed scenario starts from the no-policy level, so the high band is where they land
-    assert set(high.index.get_level_values("scenario")) == {d for d, _ in pairs()}
+    high, low = same[band == 2], same[band == 0]
+    assert len(high) >= 4 and len(low) >= 4
     assert high["cagr"].median() < low["cagr"].median() - 0.01
-    assert high["npv"].median() > 1.1 * low["npv"].median()
-    assert high["gdp_loss"].median() > 1.2 * low["gdp_loss"].median()
+    assert high["npv"].median() > 1.2 * low["npv"].median()
+    assert high["gdp_loss"].median() > low["gdp_loss"].median()
 
 
 def test_wide_spread_in_2030(frame: pd.DataFrame) -> None:
