@@ -10,8 +10,10 @@ st.set_page_config(page_title="Milepost", page_icon=":material/flag:", layout="w
 
 PAGES = [
     st.Page("views/screen.py", title="Screen", icon=":material/filter_alt:", default=True),
+    st.Page("views/budgets.py", title="Budgets", icon=":material/thermostat:"),
     st.Page("views/rates.py", title="Rates", icon=":material/trending_down:"),
     st.Page("views/costs.py", title="Costs", icon=":material/payments:"),
+    st.Page("views/delay.py", title="Delay", icon=":material/schedule:"),
     st.Page("views/pathways.py", title="Pathways", icon=":material/timeline:"),
     st.Page("views/submissions.py", title="Submissions", icon=":material/inventory_2:"),
     st.Page("views/selfcheck.py", title="Self-check", icon=":material/fact_check:"),

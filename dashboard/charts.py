@@ -188,6 +188,65 @@ def pathway(
     return alt.layer(*layers).properties(height=380)
 
 
+def budgets(df: pd.DataFrame, lines: pd.DataFrame, labels: list[str], x_title: str, y_title: str) -> alt.LayerChart:
+    """Each scenario's CO2 to net zero (y) against its milestone value (x), coloured by band, hollow where net zero
+    is not reached; the carbon budgets as horizontal rules with their warming level."""
+    colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band")
+    points = (
+        alt.Chart(df)
+        .mark_point(size=70, strokeWidth=2)
+        .encode(
+            x=alt.X("band_value:Q", title=x_title, scale=alt.Scale(zero=False)),
+            y=alt.Y("cumulative:Q", title=y_title),
+            color=colour,
+            fill=alt.condition("datum.reached", colour, alt.value("transparent")),
+            tooltip=[
+                alt.Tooltip("model:N"),
+                alt.Tooltip("scenario:N"),
+                alt.Tooltip("band_label:N", title="band"),
+                alt.Tooltip("cumulative:Q", format=",.0f", title=y_title),
+                alt.Tooltip("until:Q", format="d", title="summed to"),
+                alt.Tooltip("outcome:N", title="outcome class"),
+                alt.Tooltip("warming:Q", format=".2f", title="indicative warming (°C, 50 %)"),
+            ],
+        )
+    )
+    rules = (
+        alt.Chart(lines)
+        .mark_rule(color="#444444", strokeDash=[6, 3])
+        .encode(y="budget:Q", tooltip=[alt.Tooltip("label:N", title="budget"), alt.Tooltip("budget:Q", title="Gt CO2")])
+    )
+    text = (
+        alt.Chart(lines)
+        .mark_text(align="left", dx=4, dy=-6, fontSize=11, color="#444444")
+        .encode(x=alt.value(2), y="budget:Q", text="label:N")
+    )
+    return alt.layer(points, rules, text).properties(height=380)
+
+
+def pairs(df: pd.DataFrame, x: str, y: str, x_title: str, y_title: str) -> alt.Chart:
+    """One point per pair: the difference in milestone emissions (x) against a difference afterwards (y)."""
+    return (
+        alt.Chart(df)
+        .mark_circle(size=90, opacity=0.8)
+        .encode(
+            x=alt.X(f"{x}:Q", title=x_title),
+            y=alt.Y(f"{y}:Q", title=y_title, scale=alt.Scale(zero=False)),
+            color=alt.Color("group:N", title="group", scale=alt.Scale(range=PALETTE)),
+            shape=alt.Shape("model:N", title="model"),
+            tooltip=[
+                alt.Tooltip("model:N"),
+                alt.Tooltip("group:N"),
+                alt.Tooltip("scenario_first:N", title="first"),
+                alt.Tooltip("scenario_later:N", title="later"),
+                alt.Tooltip(f"{x}:Q", format=",.4~g", title=x_title),
+                alt.Tooltip(f"{y}:Q", format=",.4~g", title=y_title),
+            ],
+        )
+        .properties(height=300)
+    )
+
+
 def to_png(chart: alt.TopLevelMixin, scale: float = 2.0) -> bytes:
     """The chart as a PNG image (rendered offline by vl-convert)."""
     return vl_convert.vegalite_to_png(chart.to_json(), scale=scale)

@@ -8,7 +8,8 @@ from pathlib import Path
 
 import streamlit as st
 
-from milepost.schema.contract import CORE_DIR, Contract, ContractError, load
+from milepost.schema.contract import Contract, ContractError, load
+from milepost.validate.store.contracts import bundled_dirs
 
 ENV_CONTRACT = "MILEPOST_CONTRACT"
 
@@ -19,12 +20,6 @@ class Found:
 
     contract: Contract | None
     source: str
-
-
-def _demo_dir() -> Path:
-    import milepost.example_db
-
-    return Path(milepost.example_db.__file__).parent / "contract"
 
 
 @st.cache_resource(max_entries=8, show_spinner=False)
@@ -46,7 +41,7 @@ def find(name: str | None) -> Found:
             return Found(None, f"{ENV_CONTRACT}={env} could not be read: {e}")
         note = "" if name in (None, c.name) else f" (the database names contract {name!r})"
         return Found(c, f"contract {c.name!r} from {ENV_CONTRACT}{note}")
-    for folder in (_demo_dir(), CORE_DIR):
+    for folder in bundled_dirs():
         if not (folder / "contract.toml").exists():
             continue
         try:

@@ -1,4 +1,7 @@
-"""The one-sentence answers at the top of the Rates and Costs pages, built from the band summaries."""
+"""The one-sentence answers at the top of the Rates, Costs and Delay pages, built from band or pair summaries.
+
+Each sentence starts with the outcome it speaks of when one is selected ("Within the 2 °C budget (67 %): ...").
+"""
 
 from __future__ import annotations
 
@@ -24,6 +27,11 @@ def _band(summary: pd.DataFrame, band: int) -> pd.Series | None:
 ONE_BAND = "Only one band has scenarios: set band edges inside the range of values to compare bands."
 
 
+def _lead(outcome: str, text: str) -> str:
+    """`text` after the outcome it speaks of, if any."""
+    return f"{outcome[0].upper()}{outcome[1:]}: {text}" if outcome else text
+
+
 def rates(
     summary: pd.DataFrame,
     labels: list[str],
@@ -34,13 +42,28 @@ def rates(
     region: str,
     linear: str = "rate_linear",
     linear_unit: str = "%/yr",
+    outcome: str = "",
 ) -> str:
     """'Median CAGR 2030–2050 of emissions.ghg (World): high band −6.1 %/yr vs low band −2.0 %/yr (n = 40 vs 40); linear
     rate (% of the base-year value) −2.9 vs −1.4 %/yr ...'
 
     `top` and `bottom` are the highest and lowest bands that hold scenarios; `linear` is the rate kind shown beside
-    CAGR, in `linear_unit`.
+    CAGR, in `linear_unit`; `outcome` the selected outcome.
     """
+    return _lead(outcome, _rates(summary, labels, top, bottom, period, variable, region, linear, linear_unit))
+
+
+def _rates(
+    summary: pd.DataFrame,
+    labels: list[str],
+    top: int,
+    bottom: int,
+    period: tuple[int, int],
+    variable: str,
+    region: str,
+    linear: str,
+    linear_unit: str,
+) -> str:
     if top == bottom:
         return ONE_BAND
     cagr = summary[summary["kind"] == "rate_cagr"]
@@ -63,11 +86,16 @@ def rates(
     return text + "."
 
 
-def costs(ratios: pd.DataFrame, labels: list[str], top: int, bottom: int, year: int) -> str:
-    """'What delay costs (median, high vs low band): NPV of abatement cost ... (×1.4, n = 12 vs 11); GDP loss ...'
+def costs(ratios: pd.DataFrame, labels: list[str], top: int, bottom: int, year: int, outcome: str = "") -> str:
+    """'Median costs, high vs low band: NPV of abatement cost ... (×1.4, n = 12 vs 11); GDP loss ...'
 
-    `ratios` compares band `top` with band `bottom` (the highest and lowest bands that hold scenarios).
+    `ratios` compares band `top` with band `bottom` (the highest and lowest bands that hold scenarios). What delay
+    costs is read pair by pair on the Delay page (`delay`), not from bands.
     """
+    return _lead(outcome, _costs(ratios, labels, top, bottom, year))
+
+
+def _costs(ratios: pd.DataFrame, labels: list[str], top: int, bottom: int, year: int) -> str:
     if top == bottom:
         return ONE_BAND
     parts = []
@@ -84,7 +112,7 @@ def costs(ratios: pd.DataFrame, labels: list[str], top: int, bottom: int, year: 
             break
     if not parts:
         return "No cost indicators (losses, NPV of abatement cost) for the selected scenarios."
-    return f"What delay costs (median, {labels[top]} vs {labels[bottom]} band): " + "; ".join(parts) + "."
+    return f"Median costs, {labels[top]} vs {labels[bottom]} band: " + "; ".join(parts) + "."
 
 
 def _clause(r: pd.Series, what: str) -> str:
@@ -92,3 +120,32 @@ def _clause(r: pd.Series, what: str) -> str:
     top = f"{sig(r['median_top'])} {unit}" if unit == "%" else sig(r["median_top"])
     ratio = f"×{fmt(r['ratio'], 2)}, " if pd.notna(r["ratio"]) else ""
     return f"{what} {top} vs {sig(r['median_bottom'])} {unit} ({ratio}n = {int(r['n_top'])} vs {int(r['n_bottom'])})"
+
+
+def delay(summary: pd.DataFrame, names: dict[str, str], outcome: str = "") -> str:
+    """'What delay costs, pair by pair: across 12 pairs from 4 models, the later start ... (model-balanced medians).'
+
+    `summary` holds the all-pairs row of each metric (group == ALL): metric, n, models, balanced, low, high;
+    `names` maps a metric to the words that describe it.
+    """
+    rows = {r["metric"]: r for _, r in summary.iterrows()}
+    if not rows or all(int(r["n"]) == 0 for r in rows.values()):
+        return _lead(outcome, "No pairs of scenarios for these filters: nothing to say about delay.")
+    n = max(int(r["n"]) for r in rows.values())
+    models = max(int(r["models"]) for r in rows.values())
+    parts = []
+    for metric, words in names.items():
+        r = rows.get(metric)
+        if r is None or int(r["n"]) == 0:
+            continue
+        if metric == "npv_ratio":
+            parts.append(f"{words} ×{fmt(r['balanced'], 2)} (range ×{fmt(r['low'], 2)}–×{fmt(r['high'], 2)})")
+        else:
+            sign = "+" if r["balanced"] > 0 else ""
+            parts.append(f"{words} {sign}{sig(r['balanced'])} (range {sig(r['low'])} to {sig(r['high'])})")
+    thin = " Thin evidence: fewer than three models." if models < 3 else ""
+    text = (
+        f"What delay costs, pair by pair (later start vs the earliest of the same model and goal), across {n} "
+        f"pair{'s' if n != 1 else ''} from {models} model{'s' if models != 1 else ''}: " + "; ".join(parts)
+    )
+    return _lead(outcome, text + " (model-balanced medians)." + thin)

@@ -8,6 +8,7 @@ from typing import Any
 import duckdb
 import pandas as pd
 
+from milepost.dashboard import stats
 from milepost.validate.findings import FINDING_COLUMNS
 from milepost.validate.sql import identifier
 from milepost.validate.store.database import select_columns, stored_columns, view_or_definition
@@ -48,9 +49,21 @@ class Selection:
     attribute_values: tuple[str, ...] = ()
     include_references: bool = False  # scenarios that others name as their reference (no-policy runs)
     basis: str = "raw"  # "raw" values as submitted, or "harmonised" to the base-year reference values
+    outcome: tuple[tuple[str, str], ...] | None = None  # (model, scenario) of the selected outcome; None = all
+    outcome_label: str = ""  # says which outcome, for headlines ("within the 2 °C budget (67 %)")
+    weighting: str = "scenario"  # "model": band statistics weight each model equally
+    likelihood: str = "67%"  # the carbon-budget likelihood of outcome classes, budget lines and default pairs
+
+    @property
+    def model_weighted(self) -> bool:
+        return self.weighting == "model"
 
     def params(self) -> dict[str, Any]:
+        keys = self.outcome or ()
         return {
+            "outcome_on": self.outcome is not None,
+            "outcome_models": [k[0] for k in keys],
+            "outcome_scenarios": [k[1] for k in keys],
             "variable": self.variable,
             "year": int(self.year),
             "region": self.region,
@@ -81,8 +94,9 @@ class Choices:
         return [y for y in self.years if self.base_year is None or y > self.base_year]
 
 
-# The selected ensemble at the milestone, its band edges (given, or terciles of the selection) and each scenario's
-# band number (how many edges its value reaches). Every results query starts from `banded` (see `_banded`).
+# The selected ensemble at the milestone (filters, then the outcome: every result speaks of the selected outcome
+# only), its band edges (given, or terciles of the selection) and each scenario's band number (how many edges its
+# value reaches). Every results query starts from `banded` (see `_banded`).
 _BANDED = """
 sel AS (
   SELECT i.model, i.scenario, i.value AS band_value, s.attributes
@@ -96,6 +110,9 @@ sel AS (
     AND ($include_references OR NOT EXISTS (
          SELECT 1 FROM current_scenarios r
          WHERE r.model = i.model AND r.reference = i.scenario AND r.scenario <> i.scenario))
+    AND (NOT $outcome_on OR EXISTS (
+         SELECT 1 FROM (SELECT unnest($outcome_models::VARCHAR[]) AS m, unnest($outcome_scenarios::VARCHAR[]) AS s) o
+         WHERE o.m = i.model AND o.s = i.scenario))
 ),
 edges AS (
   SELECT unnest(CASE WHEN len($edges::DOUBLE[]) = 0
@@ -324,7 +341,27 @@ def pathway_bands(
     """Per band and year: n, median and the 5/25/75/95 % quantiles of `variable` in `region`.
 
     The bands come from the selection (on its basis); the values shown from `basis` (default: the selection's),
-    so raw and harmonised pathways of the same scenarios can be drawn side by side."""
+    so raw and harmonised pathways of the same scenarios can be drawn side by side. With `sel.weighting` =
+    "model" each model weighs the same: the quantiles are then computed from the scenario points in pandas."""
+    if sel.model_weighted:
+        points = _df(
+            con,
+            f"""WITH {_banded(con)}
+            SELECT b.band, b.model, d.year, d.unit, d.value FROM banded b
+            JOIN {_data(con)} d ON d.model = b.model AND d.scenario = b.scenario
+                 AND d.basis = $shown_basis AND d.variable = $pv AND d.region = $pr
+            WHERE d.value IS NOT NULL""",  # noqa: S608 - fragments of this module; values bound as $parameters
+            {**sel.params(), "pv": variable, "pr": region, "shown_basis": basis or sel.basis},
+        )
+        cols = ["band", "year", "unit", "n", "q05", "q25", "median", "q75", "q95"]
+        if points.empty:
+            return pd.DataFrame(columns=cols)
+        by = ["band", "year"]
+        w = points.assign(w=stats.model_weights(points, by))
+        qs = {"q05": 0.05, "q25": 0.25, "median": 0.5, "q75": 0.75, "q95": 0.95}
+        out = stats.weighted_quantiles(w, by, "value", "w", qs)
+        size = points.groupby(by, as_index=False).agg(unit=("unit", "first"), n=("value", "count"))
+        return size.merge(out, on=by).sort_values(by).reset_index(drop=True)[cols]
     sql = f"""WITH {_banded(con)}, q AS (
       SELECT b.band, d.year, any_value(d.unit) AS unit, count(d.value) AS n,
              quantile_cont(d.value, [0.05, 0.25, 0.5, 0.75, 0.95]) AS q
@@ -421,20 +458,9 @@ def findings(
     return _df(con, sql, {"id": int(submission_id), "rules": list(rules), "sev": list(severities), "limit": limit})
 
 
-def summarise(df: pd.DataFrame, by: list[str], value: str = "value") -> pd.DataFrame:
-    """n (non-null), n_missing, median and interquartile range of `value` per group (linear quantiles)."""
-    g = df.groupby(by, sort=True, observed=True)[value]
-    out = pd.DataFrame(
-        {
-            "n": g.count(),
-            "n_missing": g.size() - g.count(),
-            "median": g.median(),
-            "q25": g.quantile(0.25),
-            "q75": g.quantile(0.75),
-        }
-    ).reset_index()
-    out["iqr"] = out["q75"] - out["q25"]
-    return out
+def summarise(df: pd.DataFrame, by: list[str], value: str = "value", model_weighted: bool = False) -> pd.DataFrame:
+    """n (non-null), n_missing, models, median and interquartile range of `value` per group (see dashboard.stats)."""
+    return stats.summarise(df, by, value, model_weighted)
 
 
 def band_ratio(summary: pd.DataFrame, by: list[str], top: int, bottom: int) -> pd.DataFrame:
@@ -452,3 +478,258 @@ def full_scan(con: duckdb.DuckDBPyConnection) -> tuple[int, float]:
     """Count and sum over the whole indicators table: the floor the bench compares the page queries with."""
     n, s = con.execute("SELECT count(*), sum(value) FROM indicators").fetchall()[0]
     return int(n), float(s or 0.0)
+
+
+# ---------------------------------------------------------------- outcomes (carbon-budget classes, ranges)
+
+# kinds whose period is each scenario's own (to its net-zero year, its reported range): a range filter on them
+# does not name years
+OWN_PERIOD_KINDS = (
+    "budget_level",
+    "cumulative_net_zero",
+    "net_zero_year",
+    "peak_value",
+    "peak_year",
+    "warming_peak",
+    "warming_peak_high",
+    "warming_peak_low",
+)
+FIRST_INDICATORS = ("cumulative_net_zero", "warming_peak", "warming_peak_low", "warming_peak_high", "net_zero_year")
+
+
+@dataclass(frozen=True)
+class OutcomeSpec:
+    """Which long-term outcome the results speak of: all scenarios, budget classes, or a range of an indicator."""
+
+    mode: str = "all"  # all | class | range
+    likelihood: str = "67%"
+    levels: tuple[float | None, ...] = ()  # warming levels of budget_level; None = above every budget
+    indicator: str = ""  # range: an `indicator_key`
+    low: float | None = None
+    high: float | None = None
+    region: str = "World"
+
+
+@dataclass(frozen=True)
+class OutcomeOptions:
+    """What the database offers for the outcome filter."""
+
+    region: str = "World"
+    likelihoods: list[str] = field(default_factory=list)
+    levels: dict[str, list[float]] = field(default_factory=dict)  # likelihood -> warming levels present
+    above: dict[str, bool] = field(default_factory=dict)  # likelihood -> some scenario is above every budget
+    indicators: list[tuple[str, str]] = field(default_factory=list)  # (indicator_key, label)
+
+
+def indicator_key(kind: str, variable: str, year_from: int | None = None, year_to: int | None = None) -> str:
+    """'kind|variable|year_from|year_to' (years empty for kinds over each scenario's own period)."""
+    yf = "" if year_from is None else str(int(year_from))
+    yt = "" if year_to is None else str(int(year_to))
+    return f"{kind}|{variable}|{yf}|{yt}"
+
+
+def parse_indicator_key(key: str) -> tuple[str, str, int | None, int | None]:
+    """The parts of an indicator_key; ValueError if it is not one."""
+    kind, variable, yf, yt = key.split("|")
+    return kind, variable, int(yf) if yf else None, int(yt) if yt else None
+
+
+def level_text(level: float | None) -> str:
+    """'2', '1.5', or 'above' for the class above every budget."""
+    return "above" if level is None else f"{level:g}"
+
+
+def class_label(level: float | None, likelihood: str) -> str:
+    """'within the 1.5 °C budget (67 %)' or 'above every budget (67 %)'."""
+    lik = likelihood.replace("%", " %")
+    if level is None:
+        return f"above every budget ({lik})"
+    return f"within the {level:g} °C budget ({lik})"
+
+
+def budget_region(con: duckdb.DuckDBPyConnection) -> str | None:
+    """The region the carbon-budget indicators are written for (None without them)."""
+    rows = con.execute("SELECT DISTINCT region FROM current_indicators WHERE kind = 'budget_level' LIMIT 1").fetchall()
+    return rows[0][0] if rows else None
+
+
+def outcome_options(con: duckdb.DuckDBPyConnection, region: str) -> OutcomeOptions:
+    """Likelihoods and warming levels of the budget classes, and the scenario-level indicators of `region`."""
+    rows = con.execute(
+        """SELECT variable, list(DISTINCT value ORDER BY value) FILTER (WHERE value IS NOT NULL),
+                  bool_or(value IS NULL)
+           FROM current_indicators WHERE kind = 'budget_level' AND region = $r GROUP BY variable""",
+        {"r": region},
+    ).fetchall()
+    rows.sort(key=lambda r: float(str(r[0]).rstrip("%") or 0))
+    found = con.execute(
+        """SELECT kind, variable,
+                  CASE WHEN list_contains($own::VARCHAR[], kind) THEN NULL ELSE year_from END AS yf,
+                  CASE WHEN list_contains($own::VARCHAR[], kind) THEN NULL ELSE year_to END AS yt,
+                  any_value(unit) AS unit
+           FROM current_indicators WHERE region = $r AND kind <> 'budget_level' GROUP BY ALL""",
+        {"r": region, "own": list(OWN_PERIOD_KINDS)},
+    ).fetchall()
+
+    def order(row: tuple[Any, ...]) -> tuple[int, str, str, int, int]:
+        kind, variable, yf, yt, _ = row
+        first = FIRST_INDICATORS.index(kind) if kind in FIRST_INDICATORS else len(FIRST_INDICATORS)
+        return (first, kind, variable, yf or 0, yt or 0)
+
+    indicators = []
+    for kind, variable, yf, yt, unit in sorted(found, key=order):
+        years = "" if yf is None else f" {yf}" if yf == yt else f" {yf}–{yt}"
+        indicators.append((indicator_key(kind, variable, yf, yt), f"{kind} · {variable}{years} [{unit}]"))
+    return OutcomeOptions(
+        region=region,
+        likelihoods=[r[0] for r in rows],
+        levels={r[0]: [float(x) for x in (r[1] or [])] for r in rows},
+        above={r[0]: bool(r[2]) for r in rows},
+        indicators=indicators,
+    )
+
+
+def outcome_keys(con: duckdb.DuckDBPyConnection, spec: OutcomeSpec) -> tuple[tuple[str, str], ...] | None:
+    """(model, scenario) of every current scenario with the outcome; None when the spec selects all scenarios."""
+    if spec.mode == "class":
+        if not spec.levels:
+            return None
+        rows = con.execute(
+            """SELECT model, scenario FROM current_indicators
+               WHERE kind = 'budget_level' AND variable = $lik AND region = $r
+                 AND (list_contains($levels::DOUBLE[], value) OR ($above AND value IS NULL))""",
+            {
+                "lik": spec.likelihood,
+                "r": spec.region,
+                "levels": [float(x) for x in spec.levels if x is not None],
+                "above": any(x is None for x in spec.levels),
+            },
+        ).fetchall()
+    elif spec.mode == "range":
+        if not spec.indicator or (spec.low is None and spec.high is None):
+            return None
+        kind, variable, yf, yt = parse_indicator_key(spec.indicator)
+        rows = con.execute(
+            """SELECT model, scenario FROM current_indicators
+               WHERE kind = $k AND variable = $v AND region = $r AND value IS NOT NULL
+                 AND ($yf IS NULL OR (year_from = $yf AND year_to = $yt))
+                 AND ($lo IS NULL OR value >= $lo) AND ($hi IS NULL OR value <= $hi)""",
+            {"k": kind, "v": variable, "r": spec.region, "yf": yf, "yt": yt, "lo": spec.low, "hi": spec.high},
+        ).fetchall()
+    else:
+        return None
+    return tuple(sorted({(m, sc) for m, sc in rows}))
+
+
+# ---------------------------------------------------------------- budgets and delay pairs
+
+
+def budget_scenarios(con: duckdb.DuckDBPyConnection, sel: Selection, region: str) -> pd.DataFrame:
+    """Per selected scenario: band, milestone value, CO2 to net zero (and its end year), whether net zero is
+    reached, the budget class at `sel.likelihood` and the indicative warming (central, low, high)."""
+    sql = f"""WITH {_banded(con)}
+    SELECT b.model, b.scenario, b.band, b.band_value,
+      max(i.value) FILTER (WHERE i.kind = 'cumulative_net_zero') AS cumulative,
+      max(i.unit) FILTER (WHERE i.kind = 'cumulative_net_zero') AS unit,
+      max(i.year_to) FILTER (WHERE i.kind = 'cumulative_net_zero') AS until,
+      max(i.value) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_year,
+      bool_or(i.kind = 'budget_level') AS has_level,
+      max(i.value) FILTER (WHERE i.kind = 'budget_level') AS level,
+      max(i.value) FILTER (WHERE i.kind = 'warming_peak') AS warming,
+      max(i.value) FILTER (WHERE i.kind = 'warming_peak_low') AS warming_low,
+      max(i.value) FILTER (WHERE i.kind = 'warming_peak_high') AS warming_high
+    FROM banded b
+    JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario AND i.region = $budget_region
+     AND ((i.kind = 'budget_level' AND i.variable = $lik)
+          OR (i.variable = 'emissions.co2' AND i.kind IN ('cumulative_net_zero', 'net_zero_year', 'warming_peak',
+                                                          'warming_peak_low', 'warming_peak_high')))
+    GROUP BY ALL
+    ORDER BY b.band, b.band_value, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
+    return _df(con, sql, {**sel.params(), "budget_region": region, "lik": sel.likelihood})
+
+
+def pair_rows(con: duckdb.DuckDBPyConnection, sel: Selection, rule: Any, variables: list[str]) -> pd.DataFrame:
+    """Pair rows (see milepost.validate.store.pairs) of the pairs whose two scenarios are both selected by `sel`
+    (filters and outcome), for `variables` in the band region."""
+    from milepost.validate.store.pairs import pair_rows_sql
+
+    pair_sql, params = pair_rows_sql(rule, models=sel.models, regions=[sel.region], variables=variables)
+    sql = f"""WITH {_banded(con)}, rows AS ({pair_sql})
+    SELECT r.* FROM rows r
+    WHERE EXISTS (SELECT 1 FROM banded b WHERE b.model = r.model AND b.scenario = r.scenario_first)
+      AND EXISTS (SELECT 1 FROM banded b WHERE b.model = r.model AND b.scenario = r.scenario_later)"""  # noqa: S608 - fragments of this module; values bound as $parameters
+    return _df(con, sql, {**sel.params(), **params})
+
+
+DELAY_METRICS = ("d_milestone", "d_rate", "npv_ratio", "d_npv", "d_loss")
+
+
+def delay_table(rows: pd.DataFrame, sel: Selection, next_year: int | None, loss_year: int | None) -> pd.DataFrame:
+    """One row per pair from `pair_rows`: the band variable at the milestone, its CAGR from the milestone to
+    `next_year`, NPV of abatement cost over its longest stored period and GDP (MER) loss in `loss_year`, each for
+    the first and the later scenario, with the differences (later - first) and the NPV ratio."""
+    keys = ["model", "group", "scenario_first", "scenario_later"]
+    out = rows[keys].drop_duplicates().reset_index(drop=True)
+
+    def pick(mask: pd.Series, name: str) -> None:
+        nonlocal out
+        part = rows.loc[mask, [*keys, "value_first", "value_later", "delta", "ratio"]]
+        part = part.drop_duplicates(keys).rename(
+            columns={
+                "value_first": f"{name}_first",
+                "value_later": f"{name}_later",
+                "delta": f"d_{name}",
+                "ratio": f"{name}_ratio",
+            }
+        )
+        out = out.merge(part, on=keys, how="left")
+
+    var = rows["variable"] == sel.variable
+    pick(var & (rows["kind"] == "value") & (rows["year_from"] == sel.year), "milestone")
+    pick(
+        var & (rows["kind"] == "rate_cagr") & (rows["year_from"] == sel.year) & (rows["year_to"] == next_year),
+        "rate",
+    )
+    npv = rows[(rows["kind"] == "npv") & (rows["variable"] == "cost.abatement")]
+    longest = npv["year_to"].max() if len(npv) else None
+    pick((rows["kind"] == "npv") & (rows["variable"] == "cost.abatement") & (rows["year_to"] == longest), "npv")
+    loss = (rows["kind"] == "loss_pct") & (rows["variable"] == "gdp.mer") & (rows["year_to"] == loss_year)
+    pick(loss, "loss")
+    wanted = [f"{n}_{s}" for n in ("milestone", "rate", "npv", "loss") for s in ("first", "later")]
+    wanted += [f"d_{n}" for n in ("milestone", "rate", "npv", "loss")] + ["npv_ratio"]
+    for c in wanted:
+        if c not in out:
+            out[c] = float("nan")
+    out.attrs["npv_period"] = (int(npv["year_from"].min()), int(longest)) if longest is not None else None
+    return out[[*keys, *wanted]].sort_values(keys).reset_index(drop=True)
+
+
+ALL_PAIRS = "all pairs"
+
+
+def delay_summary(pairs: pd.DataFrame, thin_below: int = 3) -> pd.DataFrame:
+    """Per group (and over all pairs, group ALL_PAIRS) and metric: pairs with a value, models, median, the
+    model-balanced median (each pair 1/n of its model's pairs in the group), minimum, maximum, and whether the
+    figure rests on fewer than `thin_below` models (thin evidence)."""
+    cols = ["group", "metric", "n", "models", "median", "balanced", "low", "high", "thin"]
+    if pairs.empty:
+        return pd.DataFrame(columns=cols)
+    long = pairs.melt(id_vars=["model", "group"], value_vars=list(DELAY_METRICS), var_name="metric")
+    long = pd.concat([long, long.assign(group=ALL_PAIRS)], ignore_index=True)
+    by = ["group", "metric"]
+    have = long.dropna(subset=["value"])
+    g = have.groupby(by, sort=False)["value"]
+    out = pd.DataFrame(
+        {"n": g.count(), "models": have.groupby(by, sort=False)["model"].nunique(), "median": g.median()}
+    )
+    out["low"], out["high"] = g.min(), g.max()
+    w = have.assign(w=stats.model_weights(have, by))
+    balanced = stats.weighted_quantiles(w, by, "value", "w", {"balanced": 0.5}).set_index(by)
+    out = out.join(balanced).reset_index()
+    out["thin"] = out["models"] < thin_below
+    groups = [*sorted(set(out["group"]) - {ALL_PAIRS}), ALL_PAIRS]
+    out["group"] = pd.Categorical(out["group"], groups, ordered=True)
+    out["metric"] = pd.Categorical(out["metric"], list(DELAY_METRICS), ordered=True)
+    out = out.sort_values(["group", "metric"]).reset_index(drop=True)
+    out["group"], out["metric"] = out["group"].astype(str), out["metric"].astype(str)
+    return out[cols]

@@ -7,6 +7,7 @@ import itertools
 import math
 import re
 from collections.abc import Callable
+from dataclasses import dataclass, replace
 from typing import Any, NoReturn, TypeVar
 
 import pandas as pd
@@ -292,6 +293,17 @@ def band_sidebar(ch: queries.Choices) -> queries.Selection:
             dump=lambda v: "1" if v else "0",
             help="Scenarios that other scenarios name as their reference (usually no-policy runs).",
         )
+        by_model = url_widget(
+            st.checkbox,
+            "Weight each model equally",
+            key="band_weight",
+            param="weight",
+            default=False,
+            parse=lambda raw: raw[0] == "model",
+            dump=lambda v: "model" if v else "scenario",
+            help="Band medians and quartiles weigh each scenario 1/n, n = its model's scenarios in the band, so a "
+            "model with many scenarios does not set the median.",
+        )
         basis = basis_switch(ch)
     return queries.Selection(
         variable=variable or "",
@@ -303,6 +315,7 @@ def band_sidebar(ch: queries.Choices) -> queries.Selection:
         attribute_values=tuple(values),
         include_references=bool(include_refs),
         basis=basis,
+        weighting="model" if by_model else "scenario",
     )
 
 
@@ -345,10 +358,141 @@ def band_ranges(edges: list[float]) -> list[str]:
     return [f"< {fmt(edges[0], 0)}", *inner, f"≥ {fmt(edges[-1], 0)}"]
 
 
-def bands_note(variable: str, year: int, region: str, labels: list[str], edges: list[float]) -> str:
+def bands_note(
+    variable: str, year: int, region: str, labels: list[str], edges: list[float], model_weighted: bool = False
+) -> str:
     """'Bands by X in Y (R): low < a; middle a to < b; high ≥ b' for a page's caption."""
     ranges = "; ".join(f"{lab} {rng}" for lab, rng in zip(labels, band_ranges(edges), strict=True))
-    return f"Bands by {variable} in {year} ({region}): {ranges}"
+    weights = "; statistics weight each model equally" if model_weighted else ""
+    return f"Bands by {variable} in {year} ({region}): {ranges}{weights}"
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """The outcome the results speak of: the selected scenarios (None = all) and words for captions and headlines."""
+
+    keys: tuple[tuple[str, str], ...] | None
+    caption: str
+    label: str  # short, for headlines: "within the 2 °C budget (67 %)"; "" for all scenarios
+    likelihood: str
+
+
+@st.cache_data(max_entries=8, show_spinner=False)
+def _outcome_options(version: tuple[str, int, int], region: str) -> queries.OutcomeOptions:
+    return query(queries.outcome_options, region)
+
+
+def _range_value(raw: list[str]) -> float | None:
+    return float(raw[0].replace(",", "")) if raw and raw[0].strip() else None
+
+
+def outcome_filter(ch: queries.Choices) -> Outcome:
+    """The outcome control every results page shows before the bands are cut, in the sidebar and in the URL.
+
+    All scenarios; one or more carbon-budget classes at a likelihood (budget_level); or a range of a
+    scenario-level indicator of the budget region (e.g. cumulative CO2 to net zero, GHG in 2100). Returns the
+    selected scenario set and the caption that says which outcome the page speaks of.
+    """
+    region = query(queries.budget_region) or ("World" if "World" in ch.regions else (ch.regions or [""])[0])
+    opts = _outcome_options(connection.file_key(connection.db_path()), region)
+    modes = ["all", *(["class"] if opts.likelihoods else []), "range"]
+    names = {"all": "all scenarios", "class": "carbon-budget classes", "range": "a range of an indicator"}
+    with st.sidebar:
+        st.header("Outcome")
+        mode = url_selectbox(
+            "Compare",
+            modes,
+            key="outcome_mode",
+            param="outcome",
+            default="all",
+            format_func=lambda m: names[m],
+            help="Hold the long-term outcome fixed: bands, medians, headlines and downloads then speak of the "
+            "selected scenarios only.",
+        )
+        likelihood = "67%"
+        if opts.likelihoods:
+            likelihood = url_selectbox(
+                "Budget likelihood",
+                opts.likelihoods,
+                key="outcome_lik",
+                param="lik",
+                default="67%",
+                help="The likelihood of staying below the warming level at which the carbon budgets are read.",
+            )
+        spec = queries.OutcomeSpec(region=region, likelihood=likelihood)
+        if mode == "class":
+            classes = [queries.level_text(x) for x in opts.levels.get(likelihood, [])]
+            classes += ["above"] if opts.above.get(likelihood) else []
+            picked = url_multiselect(
+                "Outcome classes",
+                classes,
+                key="outcome_classes",
+                param="class",
+                placeholder="pick one or more",
+                format_func=lambda c: queries.class_label(None if c == "above" else float(c), likelihood),
+                help="A scenario's class is the lowest warming level whose remaining carbon budget holds its CO2 "
+                "summed to net zero (indicator budget_level).",
+            )
+            spec = replace(spec, mode="class", levels=tuple(None if c == "above" else float(c) for c in picked))
+        elif mode == "range":
+            keys = [k for k, _ in opts.indicators]
+            labels = dict(opts.indicators)
+            indicator = url_selectbox(
+                "Indicator",
+                keys,
+                key="outcome_ind",
+                param="ind",
+                default=queries.indicator_key("cumulative_net_zero", "emissions.co2"),
+                format_func=lambda k: labels.get(k, k),
+            )
+            c1, c2 = st.columns(2)
+            with c1:
+                low = url_widget(
+                    st.number_input, "from", key="outcome_lo", param="lo", default=None, parse=_range_value,
+                    dump=lambda v: "" if v is None else repr(float(v)), valid=lambda v: v is None or math.isfinite(v),
+                    placeholder="any",
+                )  # fmt: skip
+            with c2:
+                high = url_widget(
+                    st.number_input, "to", key="outcome_hi", param="hi", default=None, parse=_range_value,
+                    dump=lambda v: "" if v is None else repr(float(v)), valid=lambda v: v is None or math.isfinite(v),
+                    placeholder="any",
+                )  # fmt: skip
+            spec = replace(spec, mode="range", indicator=indicator or "", low=low, high=high)
+    keys = query(queries.outcome_keys, spec)
+    return _describe_outcome(spec, keys, dict(opts.indicators))
+
+
+def _describe_outcome(
+    spec: queries.OutcomeSpec, keys: tuple[tuple[str, str], ...] | None, labels: dict[str, str]
+) -> Outcome:
+    if keys is None:
+        hint = ""
+        if spec.mode == "class":
+            hint = " (no class picked yet)"
+        elif spec.mode == "range":
+            hint = " (no bound given yet)"
+        caption = (
+            f"Outcome: all scenarios{hint}. Their long-term outcomes differ, so bands can mix weak and strong goals: "
+            "pick a carbon-budget class in the sidebar to compare like with like."
+        )
+        return Outcome(None, caption, "", spec.likelihood)
+    if spec.mode == "class":
+        label = " or ".join(queries.class_label(x, spec.likelihood) for x in spec.levels)
+        what = f"{label}: cumulative CO2 to net zero ({spec.region}) against the carbon budgets"
+    else:
+        bounds = (
+            f"{fmt(spec.low, 1)} to {fmt(spec.high, 1)}"
+            if spec.low is not None and spec.high is not None
+            else f"at least {fmt(spec.low, 1)}"
+            if spec.low is not None
+            else f"at most {fmt(spec.high, 1)}"
+        )
+        label = f"{labels.get(spec.indicator, spec.indicator)} {bounds}"
+        what = f"{label} ({spec.region})"
+    models = len({m for m, _ in keys})
+    caption = f"Outcome: {what} — {len(keys)} scenarios of {models} models before the other filters."
+    return Outcome(keys, caption, label, spec.likelihood)
 
 
 def net_zero_text(years: pd.Series, searched_to: pd.Series, notes: pd.Series) -> pd.Series:
@@ -372,7 +516,8 @@ def outdated_warning() -> None:
 
 
 def results_page(title: str) -> tuple[queries.Choices, queries.Selection]:
-    """The opening every results page shares: the database check, the title, and the band sidebar."""
+    """The opening every results page shares: the database check, the title, the outcome control and the band
+    sidebar. The returned selection carries the outcome: every query built on it speaks of that outcome only."""
     require_database()
     ch = choices()
     st.title(title)
@@ -380,4 +525,7 @@ def results_page(title: str) -> tuple[queries.Choices, queries.Selection]:
     if not ch.variables:
         st.info("The database holds no accepted scenarios yet.")
         stop()
-    return ch, band_sidebar(ch)
+    outcome = outcome_filter(ch)
+    sel = band_sidebar(ch)
+    st.caption(outcome.caption)
+    return ch, replace(sel, outcome=outcome.keys, outcome_label=outcome.label, likelihood=outcome.likelihood)

@@ -166,3 +166,43 @@ def test_selfcheck_upload_and_json_report_in_a_real_browser(server, browser, dem
     with page.expect_download(timeout=60_000) as dl:
         page.get_by_test_id("stDownloadButton").filter(has_text="XLSX report").click()
     assert Path(dl.value.path()).read_bytes()[:2] == b"PK"  # XLSX is a ZIP container (ECMA-376 Part 2)
+
+
+def test_outcome_class_in_a_real_browser(server, browser, demo_db):
+    """A new user picks the 2 °C (67 %) class on Rates: the sentence speaks of that class and its numbers are SQL's."""
+    from playwright.sync_api import expect
+
+    page = browser.new_page(viewport={"width": 1400, "height": 1000})
+    errors: list[str] = []
+    page.on("pageerror", lambda e: errors.append(str(e)))
+    page.goto(f"{server}/rates")
+    _settle(page)
+    page.get_by_test_id("stSelectbox").filter(has_text="Compare").click()
+    page.get_by_role("option", name="carbon-budget classes").click()
+    page.wait_for_function(RENDERED, timeout=30_000)
+    page.get_by_test_id("stMultiSelect").filter(has_text="Outcome classes").click()
+    page.get_by_role("option", name="within the 2 °C budget (67 %)").click()
+    headline = page.get_by_test_id("stAlert").filter(has_text="Within the 2 °C budget (67 %): Median CAGR 2030–2050")
+    expect(headline).to_be_visible(timeout=30_000)
+    _settle(page)
+    assert "outcome=class" in page.url and "class=2" in page.url
+
+    with duckdb.connect(str(demo_db), read_only=True) as con:
+        keys = set(
+            con.execute(
+                "SELECT model, scenario FROM current_indicators WHERE kind = 'budget_level' AND variable = '67%'"
+                " AND value = 2.0"
+            ).fetchall()
+        )
+        sel = milestone_values(con, "emissions.ghg", 2030)
+        sel = sel[[(m, s) in keys for m, s in zip(sel["model"], sel["scenario"], strict=True)]]
+        rates = con.execute(
+            "SELECT model, scenario, value AS rate FROM current_indicators WHERE kind = 'rate_cagr'"
+            " AND variable = 'emissions.ghg' AND region = 'World' AND year_from = 2030 AND year_to = 2050"
+        ).df()
+    edges = np.quantile(sel["value"], [1 / 3, 2 / 3])
+    sel = sel.assign(band=np.searchsorted(edges, sel["value"], side="right")).merge(rates)
+    hi, lo = (float(np.median(sel.loc[sel["band"] == b, "rate"])) for b in (2, 0))
+    expect(headline).to_contain_text(f"high band {fmt(hi)} %/yr vs low band {fmt(lo)} %/yr")
+    assert hi < lo
+    assert not errors, errors

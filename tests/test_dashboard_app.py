@@ -25,7 +25,14 @@ from milepost.validate.store.ingest import ingest
 
 from dashboard_fixtures import APP, milestone_values, numpy_bands
 
-RESULT_PAGES = ("views/screen.py", "views/rates.py", "views/costs.py", "views/pathways.py")
+RESULT_PAGES = (
+    "views/screen.py",
+    "views/budgets.py",
+    "views/rates.py",
+    "views/costs.py",
+    "views/delay.py",
+    "views/pathways.py",
+)
 
 
 def open_app(db: Path, page: str | None = None, params: dict | None = None) -> AppTest:

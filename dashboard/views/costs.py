@@ -1,4 +1,7 @@
-"""Costs: per band, GDP and consumption losses, carbon price and NPV of abatement cost, and what delay costs."""
+"""Costs: per band, GDP and consumption losses, carbon price and NPV of abatement cost, and the band ratios.
+
+What delay costs is read pair by pair on the Delay page, not from bands.
+"""
 
 from __future__ import annotations
 
@@ -14,20 +17,21 @@ df = ui.query(queries.costs, sel, ch.base_year)
 keys = df["kind"] + "|" + df["variable"]
 df["metric"] = keys.map({f"{k}|{v}": label for (k, v), label in queries.COST_METRICS.items()})
 by = ["kind", "variable", "metric", "unit", "year_from", "year"]
-summary = queries.summarise(df, [*by, "band"])
+summary = queries.summarise(df, [*by, "band"], model_weighted=sel.model_weighted)
 present = sorted(df["band"].unique().tolist()) or [0]
 top, bottom = present[-1], present[0]
 ratios = queries.band_ratio(summary, by, top=top, bottom=bottom)
 
-st.info(headlines.costs(ratios, labels, top, bottom, sel.year), icon=":material/payments:")
+st.info(headlines.costs(ratios, labels, top, bottom, sel.year, sel.outcome_label), icon=":material/payments:")
 ui.caution()
 references = ui.query(queries.reference_names, sel)
 named = f" (here: {', '.join(references)})" if references else ""
 st.caption(
-    ui.bands_note(sel.variable, sel.year, sel.region, labels, edges)
+    ui.bands_note(sel.variable, sel.year, sel.region, labels, edges, sel.model_weighted)
     + ". Losses and growth reductions are measured against each model's own reference scenario named in the "
     f"scenarios table{named}, which may differ from a current-policies pathway. Growth reduction = CAGR of the "
-    "reference − CAGR of the scenario from the base year, in percentage points per year. NPV at the base year."
+    "reference − CAGR of the scenario from the base year, in percentage points per year. NPV at the base year. "
+    "What delay costs, pair by pair within one model and goal: see the Delay page."
 )
 
 if df.empty:
@@ -50,7 +54,7 @@ ui.chart(charts.cost_ranges(summary, labels), f"costs_{sel.variable}_{sel.year}"
 st.caption("Point: median; bar: 25–75 % range of the scenarios in the band.")
 
 if top != bottom:
-    st.subheader(f"What delay costs: {labels[top]} band over {labels[bottom]} band")
+    st.subheader(f"{labels[top].capitalize()} band over {labels[bottom]} band: ratio of medians")
     ratios["order"] = ratios["metric"].map({m: i for i, m in enumerate(order)})
     shown = ratios.sort_values(["order", "year"]).rename(
         columns={
@@ -65,7 +69,7 @@ if top != bottom:
 
 with st.expander("Per band: n, median and interquartile range"):
     ui.table(
-        summary[["metric", "unit", "year", "band_label", "n", "n_missing", "median", "q25", "q75"]].rename(
+        summary[["metric", "unit", "year", "band_label", "n", "n_missing", "models", "median", "q25", "q75"]].rename(
             columns={"band_label": "band"}
         ),
         f"costs_bands_{sel.year}",

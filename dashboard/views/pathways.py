@@ -83,7 +83,8 @@ for panel, b in zip(panels, shown, strict=True):
             f"path_chart_{b}" if both else "path_chart",
         )
 
-notes = [ui.bands_note(sel.variable, sel.year, sel.region, labels, edges) + f" ({ui.BASIS_LABELS[sel.basis]})."]
+note = ui.bands_note(sel.variable, sel.year, sel.region, labels, edges, sel.model_weighted)
+notes = [note + f" ({ui.BASIS_LABELS[sel.basis]})."]
 if ref is not None:
     given = "" if ref.given_unit == ref.unit else f", given as {ui.fmt(ref.given_value, 2)} {ref.given_unit}"
     notes.append(f"◆ reference value {ui.fmt(ref.value, 0)} {ref.unit} in {ch.base_year} ({found.source}{given}).")

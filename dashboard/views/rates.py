@@ -49,11 +49,22 @@ df = ui.label_bands(ui.query(queries.rates, sel, *period), labels)
 units = df.groupby("kind")["unit"].first().to_dict() if not df.empty else {}
 linear_unit = str(units.get(linear, "%/yr"))
 df["rate"] = df["kind"].map(queries.RATE_LABELS) + " [" + df["unit"].fillna("") + "]"
-summary = queries.summarise(df, ["kind", "band"])
+summary = queries.summarise(df, ["kind", "band"], model_weighted=sel.model_weighted)
 present = sorted(df["band"].unique().tolist()) or [0]
 
 st.info(
-    headlines.rates(summary, labels, present[-1], present[0], period, sel.variable, sel.region, linear, linear_unit),
+    headlines.rates(
+        summary,
+        labels,
+        present[-1],
+        present[0],
+        period,
+        sel.variable,
+        sel.region,
+        linear,
+        linear_unit,
+        sel.outcome_label,
+    ),
     icon=":material/speed:",
 )
 ui.caution()
@@ -63,7 +74,7 @@ formulas = {
     "rate_absolute": f"absolute = (v1 − v0)/(y1−y0) in {linear_unit}",
 }
 st.caption(
-    ui.bands_note(sel.variable, sel.year, sel.region, labels, edges)
+    ui.bands_note(sel.variable, sel.year, sel.region, labels, edges, sel.model_weighted)
     + f". Shown beside CAGR: {queries.RATE_LABELS[linear]}. CAGR = (v1/v0)^(1/(y1−y0)) − 1; {formulas[linear]};"
     " negative = falling."
 )
@@ -99,7 +110,7 @@ table = table.assign(
     band=[labels[b] for b in table["band"]],
 )
 ui.table(
-    table[["rate", "unit", "band", "n", "n_missing", "median", "q25", "q75", "iqr"]],
+    table[["rate", "unit", "band", "n", "n_missing", "models", "median", "q25", "q75", "iqr"]],
     f"rates_summary_{period[0]}_{period[1]}",
     "rates_summary",
 )

@@ -39,7 +39,7 @@ st.caption(
     + f" {unit}."
 )
 
-summary = queries.summarise(df, ["band"])
+summary = queries.summarise(df, ["band"], model_weighted=sel.model_weighted)
 summary.insert(1, "range", [ranges[b] for b in summary["band"]])
 summary["band"] = [labels[b] for b in summary["band"]]
 ui.table(summary, "screen_bands", "screen_bands")
