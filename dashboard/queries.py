@@ -12,6 +12,7 @@ from milepost.dashboard import stats
 from milepost.validate.findings import FINDING_COLUMNS
 from milepost.validate.sql import identifier
 from milepost.validate.store.database import select_columns, stored_columns, view_or_definition
+from milepost.validate.store.pairs import OWN_PERIOD_KINDS as PAIR_OWN_PERIOD_KINDS
 
 RATE_KINDS = ("rate_cagr", "rate_linear", "rate_linear_base", "rate_absolute")
 # The rates the Rates page offers beside CAGR, and how each is named there (definitions: schema/indicators.toml).
@@ -484,16 +485,7 @@ def full_scan(con: duckdb.DuckDBPyConnection) -> tuple[int, float]:
 
 # kinds whose period is each scenario's own (to its net-zero year, its reported range): a range filter on them
 # does not name years
-OWN_PERIOD_KINDS = (
-    "budget_level",
-    "cumulative_net_zero",
-    "net_zero_year",
-    "peak_value",
-    "peak_year",
-    "warming_peak",
-    "warming_peak_high",
-    "warming_peak_low",
-)
+OWN_PERIOD_KINDS = PAIR_OWN_PERIOD_KINDS
 FIRST_INDICATORS = ("cumulative_net_zero", "warming_peak", "warming_peak_low", "warming_peak_high", "net_zero_year")
 
 

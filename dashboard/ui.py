@@ -378,8 +378,9 @@ class Outcome:
 
 
 @st.cache_data(max_entries=8, show_spinner=False)
-def _outcome_options(version: tuple[str, int, int], region: str) -> queries.OutcomeOptions:
-    return query(queries.outcome_options, region)
+def _outcome_options(version: tuple[str, int, int], fallback: str) -> queries.OutcomeOptions:
+    """Computed once per version of the database file; the region is the budget region, else `fallback`."""
+    return query(queries.outcome_options, query(queries.budget_region) or fallback)
 
 
 def _range_value(raw: list[str]) -> float | None:
@@ -393,8 +394,9 @@ def outcome_filter(ch: queries.Choices) -> Outcome:
     scenario-level indicator of the budget region (e.g. cumulative CO2 to net zero, GHG in 2100). Returns the
     selected scenario set and the caption that says which outcome the page speaks of.
     """
-    region = query(queries.budget_region) or ("World" if "World" in ch.regions else (ch.regions or [""])[0])
-    opts = _outcome_options(connection.file_key(connection.db_path()), region)
+    fallback = "World" if "World" in ch.regions else (ch.regions or [""])[0]
+    opts = _outcome_options(connection.file_key(connection.db_path()), fallback)
+    region = opts.region
     modes = ["all", *(["class"] if opts.likelihoods else []), "range"]
     names = {"all": "all scenarios", "class": "carbon-budget classes", "range": "a range of an indicator"}
     with st.sidebar:

@@ -186,3 +186,26 @@ def test_delay_page_pairs_and_model_counts(demo_db, sql, tmp_path: Path):  # noq
     headline = at.info[0].value
     assert headline.startswith("Within the 2 °C budget (67 %): What delay costs, pair by pair")
     assert f"across {len(npv)} pairs from {npv['model'].nunique()} models" in headline
+
+
+def test_pathway_medians_with_model_weighting(demo_db, sql):  # noqa: F811
+    at = open_app(demo_db, "views/pathways.py", params={**CLASS_2C, "weight": "model"})
+    table = frame(at, "q95")
+    sel = selection(sql, in_class(sql, 2.0))
+    pts = sql.execute(
+        "SELECT model, scenario, year, value FROM current_data WHERE variable = 'emissions.ghg' AND region = 'World'"
+    ).df()
+    pts = sel[["model", "scenario", "band"]].merge(pts, on=["model", "scenario"])
+    names = ["low", "middle", "high"]
+    for (band, year), part in pts[pts["year"].isin([2030, 2050, 2100])].groupby(["band", "year"]):
+        row = table[(table["band"] == names[band]) & (table["year"] == year)].iloc[0]
+        assert row["median"] == pytest.approx(_weighted_median_by_repetition(part["value"], part["model"]))
+        assert row["n"] == len(part)
+
+
+def test_outcome_modes_without_a_choice_yet_speak_of_all_scenarios(demo_db, sql):  # noqa: F811
+    n = len(milestone_values(sql, "emissions.ghg", 2030))
+    for params in ({"outcome": "class"}, {"outcome": "range"}):
+        at = open_app(demo_db, params=params)
+        assert len(frame(at, "2030 [")) == n
+        assert any("Outcome: all scenarios (no" in c.value for c in at.caption)

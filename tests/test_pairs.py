@@ -81,7 +81,7 @@ def test_pairs_by_the_contract_rule(demo_db: Path, tmp_path: Path, indicators, a
     keys = keys[keys["policy_start"] > keys["policy_start_first"]]
     keys = keys.rename(columns={"ambition": "group", "scenario": "scenario_later"})
     keys = keys[["model", "group", "scenario_first", "scenario_later"]]
-    assert len(keys) == 12 and set(keys["scenario_later"]) == {"wait-firm", "wait-deep", "wait-max"}
+    assert len(keys) == 12 and set(keys["scenario_later"]) == {"wait-firm", "wait-bold", "wait-deep"}
     compare(got, expected_pairs(indicators, keys))
 
 
@@ -118,10 +118,10 @@ def test_pair_filters_and_refusals(demo_db: Path, tmp_path: Path) -> None:  # no
     out = tmp_path / "p.csv"
     milepost(
         "export", "--db", demo_db, "--what", "pairs", "-f", "csv", "-o", out,
-        "--model", "Ferrow", "--scenario", "wait-max", "--variable", "cost.abatement",
+        "--model", "Ferrow", "--scenario", "wait-bold", "--variable", "cost.abatement",
     )  # fmt: skip
     got = pd.read_csv(out)
-    assert set(got["model"]) == {"Ferrow"} and set(got["scenario_later"]) == {"wait-max"}
+    assert set(got["model"]) == {"Ferrow"} and set(got["scenario_later"]) == {"wait-bold"}
     assert set(got["variable"]) == {"cost.abatement"} and len(got) > 0
     bad = CliRunner().invoke(
         app, ["export", "--db", str(demo_db), "--what", "pairs", "-f", "csv", "-o", str(out), "--submission", "1"]
