@@ -656,10 +656,12 @@ def pair_rows(con: duckdb.DuckDBPyConnection, sel: Selection, rule: Any, variabl
 DELAY_METRICS = ("d_milestone", "d_rate", "npv_ratio", "d_npv", "d_loss")
 
 
-def delay_table(rows: pd.DataFrame, sel: Selection, next_year: int | None, loss_year: int | None) -> pd.DataFrame:
+def delay_table(
+    rows: pd.DataFrame, sel: Selection, next_year: int | None, loss_year: int | None
+) -> tuple[pd.DataFrame, tuple[int, int] | None]:
     """One row per pair from `pair_rows`: the band variable at the milestone, its CAGR from the milestone to
     `next_year`, NPV of abatement cost over its longest stored period and GDP (MER) loss in `loss_year`, each for
-    the first and the later scenario, with the differences (later - first) and the NPV ratio."""
+    the first and the later scenario, with the differences (later - first) and the NPV ratio; and that NPV period."""
     keys = ["model", "group", "scenario_first", "scenario_later"]
     out = rows[keys].drop_duplicates().reset_index(drop=True)
 
@@ -684,7 +686,9 @@ def delay_table(rows: pd.DataFrame, sel: Selection, next_year: int | None, loss_
     )
     npv = rows[(rows["kind"] == "npv") & (rows["variable"] == "cost.abatement")]
     longest = npv["year_to"].max() if len(npv) else None
-    pick((rows["kind"] == "npv") & (rows["variable"] == "cost.abatement") & (rows["year_to"] == longest), "npv")
+    start = npv.loc[npv["year_to"] == longest, "year_from"].min() if len(npv) else None
+    at = (rows["year_to"] == longest) & (rows["year_from"] == start)
+    pick((rows["kind"] == "npv") & (rows["variable"] == "cost.abatement") & at, "npv")
     loss = (rows["kind"] == "loss_pct") & (rows["variable"] == "gdp.mer") & (rows["year_to"] == loss_year)
     pick(loss, "loss")
     wanted = [f"{n}_{s}" for n in ("milestone", "rate", "npv", "loss") for s in ("first", "later")]
@@ -692,8 +696,8 @@ def delay_table(rows: pd.DataFrame, sel: Selection, next_year: int | None, loss_
     for c in wanted:
         if c not in out:
             out[c] = float("nan")
-    out.attrs["npv_period"] = (int(npv["year_from"].min()), int(longest)) if longest is not None else None
-    return out[[*keys, *wanted]].sort_values(keys).reset_index(drop=True)
+    period = (int(start), int(longest)) if longest is not None else None
+    return out[[*keys, *wanted]].sort_values(keys).reset_index(drop=True), period
 
 
 ALL_PAIRS = "all pairs"

@@ -16,10 +16,9 @@ later = [y for y in ch.milestones if y > sel.year]
 next_year = later[0] if later else None
 loss_year = 2050 if 2050 in ch.milestones else next_year
 rows = ui.query(queries.pair_rows, sel, rule, [sel.variable, "cost.abatement", "gdp.mer"])
-pairs = queries.delay_table(rows, sel, next_year, loss_year)
+pairs, npv_period = queries.delay_table(rows, sel, next_year, loss_year)
 summary = queries.delay_summary(pairs)
 unit = ui.query(queries.variable_unit, sel.variable)
-npv_period = pairs.attrs.get("npv_period")
 npv_words = f"NPV of abatement cost {npv_period[0]}–{npv_period[1]}" if npv_period else "NPV of abatement cost"
 names = {
     "d_milestone": f"{sel.variable} in {sel.year} ({unit})",
