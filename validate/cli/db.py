@@ -5,11 +5,14 @@ from __future__ import annotations
 import json
 from enum import StrEnum
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
 
 from milepost.validate.cli.common import EXIT_OK, ContractOption, TextJson, echo, fail, handle_errors, load_contract
+
+if TYPE_CHECKING:
+    from milepost.validate.store.pairs import PairRule  # imported lazily at run time, like the other store modules
 
 DbOption = Annotated[
     Path | None,
@@ -240,7 +243,7 @@ def export_cmd(
     echo(f"Wrote {n:,} rows to {output}.", err=True)
 
 
-def _pair_rule(db: Path, contract: Path | None, likelihood: str) -> Any:
+def _pair_rule(db: Path, contract: Path | None, likelihood: str) -> PairRule:
     """The pairing rule of the given contract, else of the bundled contract the database names, else the default."""
     from milepost.validate.store.contracts import find_bundled, stored_contract_name
     from milepost.validate.store.database import reading
