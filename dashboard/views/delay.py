@@ -59,7 +59,8 @@ with right:
     ui.chart(chart, f"delay_npv_{sel.year}", "delay_npv")
 
 st.subheader("Across models, per group")
-shown = summary.assign(metric=summary["metric"].map({**names, "d_npv": f"Δ {npv_words}"}))
+labels = {**names, "npv_ratio": f"{npv_words} (ratio later/first)", "d_npv": f"Δ {npv_words}"}
+shown = summary.assign(metric=summary["metric"].map(labels))
 shown = shown.rename(columns={"n": "pairs", "balanced": "model-balanced median", "low": "min", "high": "max"})
 shown["thin"] = shown["thin"].map({True: "thin evidence", False: ""})
 ui.table(shown, f"delay_summary_{sel.year}", "delay_summary")
