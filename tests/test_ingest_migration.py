@@ -191,3 +191,32 @@ def test_the_commands_say_what_happened(tmp_path: Path, aged: Path, submissions)
     assert lines[1].startswith("Accepted as submission 3")
     res = runner.invoke(app, ["export", "--db", str(aged), "--what", "indicators", "--format", "csv", "-o", str(out)])
     assert res.exit_code == 0 and "Warning" not in res.stderr
+
+
+def test_a_schema_2_database_gets_the_budget_indicators_on_the_next_ingest(tmp_path: Path, submissions, contract):
+    db = tmp_path / "v2.duckdb"
+    ingest(submissions[0], db, contract)
+    budget_kinds = ("cumulative_net_zero", "budget_level", "warming_peak", "warming_peak_low", "warming_peak_high")
+    # what schema 2 wrote: the same tables, no carbon-budget indicator rows
+    con = duckdb.connect(str(db))
+    con.execute(f"DELETE FROM indicators WHERE kind IN {budget_kinds}")
+    con.execute("UPDATE meta SET value = '2' WHERE key = 'schema_version'")
+    con.execute("CHECKPOINT")
+    con.close()
+    dbm.ensure_database(db)  # any writer migrates; only an ingest (it has the contract) recomputes
+    with dbm.open_reader(db) as r:
+        marker = r.con.execute("SELECT value FROM db.meta WHERE key = ?", [OUTDATED_KEY]).fetchall()
+        assert marker == [("computed before the carbon-budget indicators existed",)]
+        assert dbm.schema_version(r.con, "db") == dbm.latest_version()
+    result = ingest(submissions[2], db, contract)
+    assert result.recomputed > 0
+    with dbm.open_reader(db) as r:
+        kinds = dict(
+            r.con.execute(
+                f"SELECT scenario, count(*) FROM db.indicators WHERE kind IN {budget_kinds} AND model = 'Halvik'"
+                " GROUP BY scenario"
+            ).fetchall()
+        )
+        assert not r.con.execute("SELECT count(*) FROM db.meta WHERE key = ?", [OUTDATED_KEY]).fetchall()[0][0]
+    # every stored Halvik scenario has its sums to net zero (6 regions), 5 budget classes and 3 warmings again
+    assert kinds == {"drift": 6 + 5 + 3, "act-firm": 6 + 5 + 3, "wait-firm": 6 + 5 + 3}
