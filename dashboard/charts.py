@@ -188,7 +188,7 @@ def pathway(
     return alt.layer(*layers).properties(height=380)
 
 
-def budgets(df: pd.DataFrame, lines: pd.DataFrame, labels: list[str], x_title: str, y_title: str) -> alt.LayerChart:
+def budgets(df: pd.DataFrame, lines: pd.DataFrame, labels: list[str], x_title: str, y_title: str) -> Chart:
     """Each scenario's CO2 to net zero (y) against its milestone value (x), coloured by band, hollow where net zero
     is not reached; the carbon budgets as horizontal rules with their warming level."""
     colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band")
@@ -224,7 +224,7 @@ def budgets(df: pd.DataFrame, lines: pd.DataFrame, labels: list[str], x_title: s
     return alt.layer(points, rules, text).properties(height=380)
 
 
-def pairs(df: pd.DataFrame, x: str, y: str, x_title: str, y_title: str) -> alt.Chart:
+def pairs(df: pd.DataFrame, x: str, y: str, x_title: str, y_title: str) -> Chart:
     """One point per pair: the difference in milestone emissions (x) against a difference afterwards (y)."""
     return (
         alt.Chart(df)

@@ -696,7 +696,7 @@ def delay_table(
     for c in wanted:
         if c not in out:
             out[c] = float("nan")
-    period = (int(start), int(longest)) if longest is not None else None
+    period = (int(start), int(longest)) if longest is not None and start is not None else None
     return out[[*keys, *wanted]].sort_values(keys).reset_index(drop=True), period
 
 

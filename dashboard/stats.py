@@ -39,7 +39,7 @@ def weighted_quantiles(
     g = d.groupby(by, sort=True, observed=True)
     share = g[weight].cumsum() / g[weight].transform("sum")
     following = g[value].shift(-1)
-    out = None
+    out = d[by].drop_duplicates().reset_index(drop=True)
     for name, q in quantiles.items():
         reached = share >= q - _TOL
         first = d[reached].groupby(by, sort=True, observed=True).head(1).index
@@ -47,7 +47,7 @@ def weighted_quantiles(
         nxt = following.loc[first]
         v = np.where(exact & nxt.notna(), (d.loc[first, value] + nxt) / 2.0, d.loc[first, value])
         part = d.loc[first, by].assign(**{name: v}).reset_index(drop=True)
-        out = part if out is None else out.merge(part, on=by, how="outer")
+        out = out.merge(part, on=by, how="left")
     return out
 
 

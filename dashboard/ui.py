@@ -437,15 +437,14 @@ def outcome_filter(ch: queries.Choices) -> Outcome:
             )
             spec = replace(spec, mode="class", levels=tuple(None if c == "above" else float(c) for c in picked))
         elif mode == "range":
-            keys = [k for k, _ in opts.indicators]
-            labels = dict(opts.indicators)
+            names_of = dict(opts.indicators)
             indicator = url_selectbox(
                 "Indicator",
-                keys,
+                list(names_of),
                 key="outcome_ind",
                 param="ind",
                 default=queries.indicator_key("cumulative_net_zero", "emissions.co2"),
-                format_func=lambda k: labels.get(k, k),
+                format_func=lambda k: names_of.get(k, k),
             )
             c1, c2 = st.columns(2)
             with c1:

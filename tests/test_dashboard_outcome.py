@@ -9,17 +9,17 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pytest
-from test_dashboard_app import _restore_env, frame, open_app  # noqa: F401
+from test_dashboard_app import _restore_env, frame, open_app  # noqa: F401 - _restore_env: the autouse fixture that restores MILEPOST_DB
 
 from milepost.dashboard.headlines import sig
 from milepost.dashboard.ui import fmt
 
-from dashboard_fixtures import demo, demo_db, milestone_values, numpy_bands, sql  # noqa: F401
+from dashboard_fixtures import milestone_values, numpy_bands
 
 CLASS_2C = {"outcome": "class", "class": "2", "lik": "67%"}
 
 
-def in_class(sql, level: float | None, likelihood: str = "67%") -> set[tuple[str, str]]:  # noqa: F811
+def in_class(sql, level: float | None, likelihood: str = "67%") -> set[tuple[str, str]]:
     """(model, scenario) whose budget_level at the likelihood is `level` (None: above every budget), by SQL."""
     rows = sql.execute(
         "SELECT model, scenario, value FROM current_indicators WHERE kind = 'budget_level' AND variable = ?",
@@ -28,7 +28,7 @@ def in_class(sql, level: float | None, likelihood: str = "67%") -> set[tuple[str
     return {(m, s) for m, s, v in rows if (v is None if level is None else v == level)}
 
 
-def selection(sql, keys: set[tuple[str, str]], year: int = 2030) -> pd.DataFrame:  # noqa: F811
+def selection(sql, keys: set[tuple[str, str]], year: int = 2030) -> pd.DataFrame:
     """The band selection restricted to `keys`, with numpy tercile bands."""
     sel = milestone_values(sql, "emissions.ghg", year)
     sel = sel[[(m, s) in keys for m, s in zip(sel["model"], sel["scenario"], strict=True)]].reset_index(drop=True)
@@ -40,7 +40,7 @@ def keys_of(df: pd.DataFrame) -> set[tuple[str, str]]:
     return set(zip(df["model"], df["scenario"], strict=True))
 
 
-def indicator(sql, kind: str, variable: str, year_from: int, year_to: int) -> pd.DataFrame:  # noqa: F811
+def indicator(sql, kind: str, variable: str, year_from: int, year_to: int) -> pd.DataFrame:
     return sql.execute(
         """SELECT model, scenario, value AS x FROM current_indicators
            WHERE kind = ? AND variable = ? AND region = 'World' AND year_from = ? AND year_to = ?""",
@@ -48,7 +48,7 @@ def indicator(sql, kind: str, variable: str, year_from: int, year_to: int) -> pd
     ).df()
 
 
-def test_outcome_class_on_rates_and_costs_matches_sql(demo_db, sql):  # noqa: F811
+def test_outcome_class_on_rates_and_costs_matches_sql(demo_db, sql):
     at = open_app(demo_db, "views/rates.py")
     at.selectbox(key="outcome_mode").set_value("class").run()
     at.multiselect(key="outcome_classes").set_value(["2"]).run()
@@ -76,7 +76,7 @@ def test_outcome_class_on_rates_and_costs_matches_sql(demo_db, sql):  # noqa: F8
     assert "What delay costs" not in text  # that is read pair by pair on the Delay page
 
 
-def test_outcome_from_the_url_and_all_scenarios_by_default(demo_db, sql):  # noqa: F811
+def test_outcome_from_the_url_and_all_scenarios_by_default(demo_db, sql):
     at = open_app(demo_db, params={**CLASS_2C, "class": ["1.7", "above"]})
     keys = in_class(sql, 1.7) | in_class(sql, None)
     shown = frame(at, "2030 [")
@@ -89,7 +89,7 @@ def test_outcome_from_the_url_and_all_scenarios_by_default(demo_db, sql):  # noq
     assert any("Outcome: all scenarios" in c.value for c in plain.caption)
 
 
-def test_outcome_range_of_an_indicator(demo_db, sql):  # noqa: F811
+def test_outcome_range_of_an_indicator(demo_db, sql):
     at = open_app(
         demo_db, params={"outcome": "range", "ind": "cumulative_net_zero|emissions.co2||", "lo": "700", "hi": "1150"}
     )
@@ -114,7 +114,7 @@ def _weighted_median_by_repetition(values: pd.Series, models: pd.Series) -> floa
     )
 
 
-def test_model_weighting_of_band_medians(demo_db, sql):  # noqa: F811
+def test_model_weighting_of_band_medians(demo_db, sql):
     at = open_app(demo_db, "views/rates.py", params={"weight": "model"})
     assert at.checkbox(key="band_weight").value is True
     sel = milestone_values(sql, "emissions.ghg", 2030)
@@ -129,7 +129,7 @@ def test_model_weighting_of_band_medians(demo_db, sql):  # noqa: F811
     assert any("statistics weight each model equally" in c.value for c in at.caption)
 
 
-def test_budgets_page_matches_sql(demo_db, sql):  # noqa: F811
+def test_budgets_page_matches_sql(demo_db, sql):
     at = open_app(demo_db, "views/budgets.py", params=CLASS_2C)
     captions = " ".join(c.value for c in at.caption)
     assert "indicative" in captions and "not a climate-model assessment" in captions
@@ -151,7 +151,7 @@ def test_budgets_page_matches_sql(demo_db, sql):  # noqa: F811
     assert sorted(lines["budget"]) == [400, 700, 1150]
 
 
-def test_delay_page_pairs_and_model_counts(demo_db, sql, tmp_path: Path):  # noqa: F811
+def test_delay_page_pairs_and_model_counts(demo_db, sql, tmp_path: Path):
     from typer.testing import CliRunner
 
     from milepost.validate.cli import app
@@ -188,7 +188,7 @@ def test_delay_page_pairs_and_model_counts(demo_db, sql, tmp_path: Path):  # noq
     assert f"across {len(npv)} pairs from {npv['model'].nunique()} models" in headline
 
 
-def test_pathway_medians_with_model_weighting(demo_db, sql):  # noqa: F811
+def test_pathway_medians_with_model_weighting(demo_db, sql):
     at = open_app(demo_db, "views/pathways.py", params={**CLASS_2C, "weight": "model"})
     table = frame(at, "q95")
     sel = selection(sql, in_class(sql, 2.0))
@@ -203,7 +203,7 @@ def test_pathway_medians_with_model_weighting(demo_db, sql):  # noqa: F811
         assert row["n"] == len(part)
 
 
-def test_outcome_modes_without_a_choice_yet_speak_of_all_scenarios(demo_db, sql):  # noqa: F811
+def test_outcome_modes_without_a_choice_yet_speak_of_all_scenarios(demo_db, sql):
     n = len(milestone_values(sql, "emissions.ghg", 2030))
     for params in ({"outcome": "class"}, {"outcome": "range"}):
         at = open_app(demo_db, params=params)

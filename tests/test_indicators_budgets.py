@@ -101,7 +101,7 @@ def test_without_net_zero_the_sum_runs_to_the_last_year(computed: dict) -> None:
 
 
 # Hand-worked from Table SPM.2: the lowest level whose budget at the likelihood holds the sum (sum <= budget).
-LEVELS = {
+LEVELS: dict[str, dict[str, float | None]] = {
     "c600": {"17%": 1.5, "33%": 1.5, "50%": 1.7, "67%": 1.7, "83%": 2.0},
     "c400": {"17%": 1.5, "33%": 1.5, "50%": 1.5, "67%": 1.5, "83%": 1.7},  # exactly on 400 at 67 %: within it
     "c1150": {"17%": 1.7, "33%": 2.0, "50%": 2.0, "67%": 2.0, "83%": None},  # on 1150 at 67 %; above 900 at 83 %

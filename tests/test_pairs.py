@@ -12,7 +12,6 @@ from milepost.validate.cli import app
 from milepost.validate.store.pairs import OWN_PERIOD_KINDS, PAIR_COLUMNS
 
 from conftest import BASIC_CONTRACT
-from dashboard_fixtures import demo, demo_db  # noqa: F401
 
 KEY = ["kind", "variable", "region"]
 
@@ -24,14 +23,14 @@ def milepost(*args: str | Path):
 
 
 @pytest.fixture(scope="module")
-def indicators(demo_db: Path, tmp_path_factory: pytest.TempPathFactory) -> pd.DataFrame:  # noqa: F811
+def indicators(demo_db: Path, tmp_path_factory: pytest.TempPathFactory) -> pd.DataFrame:
     out = tmp_path_factory.mktemp("pairs") / "indicators.csv"
     milepost("export", "--db", demo_db, "--what", "indicators", "--format", "csv", "-o", out)
     return pd.read_csv(out, keep_default_na=False, na_values=[""])
 
 
 @pytest.fixture(scope="module")
-def attributes(demo) -> pd.DataFrame:  # noqa: F811
+def attributes(demo) -> pd.DataFrame:
     """The scenario attributes as the modelling teams submitted them (the demo's own scenario files)."""
     _, files = demo
     frames = []
@@ -69,7 +68,7 @@ def compare(got: pd.DataFrame, want: pd.DataFrame) -> None:
     pd.testing.assert_frame_equal(got, want, check_dtype=False, check_exact=False, rtol=1e-9)
 
 
-def test_pairs_by_the_contract_rule(demo_db: Path, tmp_path: Path, indicators, attributes) -> None:  # noqa: F811
+def test_pairs_by_the_contract_rule(demo_db: Path, tmp_path: Path, indicators, attributes) -> None:
     out = tmp_path / "pairs.csv"
     result = milepost("export", "--db", demo_db, "--what", "pairs", "--format", "csv", "-o", out)
     assert "same ambition, ordered by policy_start" in result.stderr
@@ -85,7 +84,7 @@ def test_pairs_by_the_contract_rule(demo_db: Path, tmp_path: Path, indicators, a
     compare(got, expected_pairs(indicators, keys))
 
 
-def test_pairs_by_outcome_class_without_a_pairs_table(demo_db: Path, tmp_path: Path, indicators) -> None:  # noqa: F811
+def test_pairs_by_outcome_class_without_a_pairs_table(demo_db: Path, tmp_path: Path, indicators) -> None:
     out = tmp_path / "pairs.parquet"
     result = milepost(
         "export", "--db", demo_db, "--what", "pairs", "--format", "parquet", "-o", out, "--contract", BASIC_CONTRACT
@@ -114,7 +113,7 @@ def test_pairs_by_outcome_class_without_a_pairs_table(demo_db: Path, tmp_path: P
     compare(got, expected_pairs(indicators, keys))
 
 
-def test_pair_filters_and_refusals(demo_db: Path, tmp_path: Path) -> None:  # noqa: F811
+def test_pair_filters_and_refusals(demo_db: Path, tmp_path: Path) -> None:
     out = tmp_path / "p.csv"
     milepost(
         "export", "--db", demo_db, "--what", "pairs", "-f", "csv", "-o", out,

@@ -17,6 +17,7 @@ scenarios without the attributes (or values) that place them are left out. The s
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -134,11 +135,11 @@ def pairs_sql(rule: PairRule) -> tuple[str, dict[str, Any]]:
 
 def pair_rows_sql(
     rule: PairRule,
-    models: list[str] | tuple[str, ...] = (),
-    scenarios: list[str] | tuple[str, ...] = (),
-    regions: list[str] | tuple[str, ...] = (),
-    variables: list[str] | tuple[str, ...] = (),
-    kinds: list[str] | tuple[str, ...] = (),
+    models: Sequence[str] = (),
+    scenarios: Sequence[str] = (),
+    regions: Sequence[str] = (),
+    variables: Sequence[str] = (),
+    kinds: Sequence[str] = (),
 ) -> tuple[str, dict[str, Any]]:
     """Every indicator both scenarios of a pair have, side by side (PAIR_COLUMNS), filtered; and the parameters.
 
