@@ -47,7 +47,7 @@ def _world_co2(con: duckdb.DuckDBPyConnection, series: dict[str, list[tuple[int,
     con.executemany("INSERT INTO checked VALUES (?, ?, ?, ?, ?, ?, ?)", rows)
 
 
-@pytest.fixture
+@pytest.fixture(scope="module")
 def computed(basic: Contract):
     """Budget indicators of hand-made World CO2 series: a straight line from v0 (2020) to 0 in year Y sums, over
     the whole years 2020..Y, to v0 x (Y - 2020 + 1) / 2 Mt, so each cumulative below is exact by construction."""
