@@ -500,6 +500,7 @@ class OutcomeSpec:
     low: float | None = None
     high: float | None = None
     region: str = "World"
+    basis: str = "raw"  # the values the outcome is read from (raw or harmonised), as the bands
 
 
 @dataclass(frozen=True)
@@ -545,22 +546,24 @@ def budget_region(con: duckdb.DuckDBPyConnection) -> str | None:
     return rows[0][0] if rows else None
 
 
-def outcome_options(con: duckdb.DuckDBPyConnection, region: str) -> OutcomeOptions:
+def outcome_options(con: duckdb.DuckDBPyConnection, region: str, basis: str = "raw") -> OutcomeOptions:
     """Likelihoods and warming levels of the budget classes, and the scenario-level indicators of `region`."""
     rows = con.execute(
-        """SELECT variable, list(DISTINCT value ORDER BY value) FILTER (WHERE value IS NOT NULL),
+        f"""SELECT variable, list(DISTINCT value ORDER BY value) FILTER (WHERE value IS NOT NULL),
                   bool_or(value IS NULL)
-           FROM current_indicators WHERE kind = 'budget_level' AND region = $r GROUP BY variable""",
-        {"r": region},
+           FROM {_indicators(con)} WHERE basis = $b AND kind = 'budget_level' AND region = $r
+           GROUP BY variable""",  # noqa: S608 - fragments of this module; values bound as $parameters
+        {"r": region, "b": basis},
     ).fetchall()
     rows.sort(key=lambda r: float(str(r[0]).rstrip("%") or 0))
     found = con.execute(
-        """SELECT kind, variable,
+        f"""SELECT kind, variable,
                   CASE WHEN list_contains($own::VARCHAR[], kind) THEN NULL ELSE year_from END AS yf,
                   CASE WHEN list_contains($own::VARCHAR[], kind) THEN NULL ELSE year_to END AS yt,
                   any_value(unit) AS unit
-           FROM current_indicators WHERE region = $r AND kind <> 'budget_level' GROUP BY ALL""",
-        {"r": region, "own": list(OWN_PERIOD_KINDS)},
+           FROM {_indicators(con)} WHERE basis = $b AND region = $r AND kind <> 'budget_level'
+           GROUP BY ALL""",  # noqa: S608 - fragments of this module; values bound as $parameters
+        {"r": region, "own": list(OWN_PERIOD_KINDS), "b": basis},
     ).fetchall()
 
     def order(row: tuple[Any, ...]) -> tuple[int, str, str, int, int]:
@@ -587,10 +590,11 @@ def outcome_keys(con: duckdb.DuckDBPyConnection, spec: OutcomeSpec) -> tuple[tup
         if not spec.levels:
             return None
         rows = con.execute(
-            """SELECT model, scenario FROM current_indicators
-               WHERE kind = 'budget_level' AND variable = $lik AND region = $r
-                 AND (list_contains($levels::DOUBLE[], value) OR ($above AND value IS NULL))""",
+            f"""SELECT model, scenario FROM {_indicators(con)}
+               WHERE basis = $b AND kind = 'budget_level' AND variable = $lik AND region = $r
+                 AND (list_contains($levels::DOUBLE[], value) OR ($above AND value IS NULL))""",  # noqa: S608 - fragments of this module; values bound as $parameters
             {
+                "b": spec.basis,
                 "lik": spec.likelihood,
                 "r": spec.region,
                 "levels": [float(x) for x in spec.levels if x is not None],
@@ -602,11 +606,20 @@ def outcome_keys(con: duckdb.DuckDBPyConnection, spec: OutcomeSpec) -> tuple[tup
             return None
         kind, variable, yf, yt = parse_indicator_key(spec.indicator)
         rows = con.execute(
-            """SELECT model, scenario FROM current_indicators
-               WHERE kind = $k AND variable = $v AND region = $r AND value IS NOT NULL
+            f"""SELECT model, scenario FROM {_indicators(con)}
+               WHERE basis = $b AND kind = $k AND variable = $v AND region = $r AND value IS NOT NULL
                  AND ($yf IS NULL OR (year_from = $yf AND year_to = $yt))
-                 AND ($lo IS NULL OR value >= $lo) AND ($hi IS NULL OR value <= $hi)""",
-            {"k": kind, "v": variable, "r": spec.region, "yf": yf, "yt": yt, "lo": spec.low, "hi": spec.high},
+                 AND ($lo IS NULL OR value >= $lo) AND ($hi IS NULL OR value <= $hi)""",  # noqa: S608 - fragments of this module; values bound as $parameters
+            {
+                "b": spec.basis,
+                "k": kind,
+                "v": variable,
+                "r": spec.region,
+                "yf": yf,
+                "yt": yt,
+                "lo": spec.low,
+                "hi": spec.high,
+            },
         ).fetchall()
     else:
         return None
@@ -631,8 +644,8 @@ def budget_scenarios(con: duckdb.DuckDBPyConnection, sel: Selection, region: str
       max(i.value) FILTER (WHERE i.kind = 'warming_peak_low') AS warming_low,
       max(i.value) FILTER (WHERE i.kind = 'warming_peak_high') AS warming_high
     FROM banded b
-    JOIN current_indicators i ON i.model = b.model AND i.scenario = b.scenario AND i.region = $budget_region
-     AND ((i.kind = 'budget_level' AND i.variable = $lik)
+    JOIN {_indicators(con)} i ON i.model = b.model AND i.scenario = b.scenario AND i.region = $budget_region
+     AND i.basis = $basis AND ((i.kind = 'budget_level' AND i.variable = $lik)
           OR (i.variable = 'emissions.co2' AND i.kind IN ('cumulative_net_zero', 'net_zero_year', 'warming_peak',
                                                           'warming_peak_low', 'warming_peak_high')))
     GROUP BY ALL
@@ -645,7 +658,9 @@ def pair_rows(con: duckdb.DuckDBPyConnection, sel: Selection, rule: Any, variabl
     (filters and outcome), for `variables` in the band region."""
     from milepost.validate.store.pairs import pair_rows_sql
 
-    pair_sql, params = pair_rows_sql(rule, models=sel.models, regions=[sel.region], variables=variables)
+    pair_sql, params = pair_rows_sql(
+        rule, models=sel.models, regions=[sel.region], variables=variables, basis=sel.basis
+    )
     sql = f"""WITH {_banded(con)}, rows AS ({pair_sql})
     SELECT r.* FROM rows r
     WHERE EXISTS (SELECT 1 FROM banded b WHERE b.model = r.model AND b.scenario = r.scenario_first)

@@ -378,28 +378,29 @@ class Outcome:
 
 
 @st.cache_data(max_entries=8, show_spinner=False)
-def _outcome_options(version: tuple[str, int, int], fallback: str) -> queries.OutcomeOptions:
+def _outcome_options(version: tuple[str, int, int], fallback: str, basis: str) -> queries.OutcomeOptions:
     """Computed once per version of the database file; the region is the budget region, else `fallback`."""
-    return query(queries.outcome_options, query(queries.budget_region) or fallback)
+    return query(queries.outcome_options, query(queries.budget_region) or fallback, basis)
 
 
 def _range_value(raw: list[str]) -> float | None:
     return float(raw[0].replace(",", "")) if raw and raw[0].strip() else None
 
 
-def outcome_filter(ch: queries.Choices) -> Outcome:
+def outcome_filter(ch: queries.Choices, basis: str = "raw", container: Any = None) -> Outcome:
     """The outcome control every results page shows before the bands are cut, in the sidebar and in the URL.
 
     All scenarios; one or more carbon-budget classes at a likelihood (budget_level); or a range of a
-    scenario-level indicator of the budget region (e.g. cumulative CO2 to net zero, GHG in 2100). Returns the
-    selected scenario set and the caption that says which outcome the page speaks of.
+    scenario-level indicator of the budget region (e.g. cumulative CO2 to net zero, GHG in 2100), read on `basis`
+    (raw or harmonised values). Returns the selected scenario set and the caption that says which outcome the page
+    speaks of. `container` places the control (default: the sidebar).
     """
     fallback = "World" if "World" in ch.regions else (ch.regions or [""])[0]
-    opts = _outcome_options(connection.file_key(connection.db_path()), fallback)
+    opts = _outcome_options(connection.file_key(connection.db_path()), fallback, basis)
     region = opts.region
     modes = ["all", *(["class"] if opts.likelihoods else []), "range"]
     names = {"all": "all scenarios", "class": "carbon-budget classes", "range": "a range of an indicator"}
-    with st.sidebar:
+    with container if container is not None else st.sidebar:
         st.header("Outcome")
         mode = url_selectbox(
             "Compare",
@@ -421,7 +422,7 @@ def outcome_filter(ch: queries.Choices) -> Outcome:
                 default="67%",
                 help="The likelihood of staying below the warming level at which the carbon budgets are read.",
             )
-        spec = queries.OutcomeSpec(region=region, likelihood=likelihood)
+        spec = queries.OutcomeSpec(region=region, likelihood=likelihood, basis=basis)
         if mode == "class":
             classes = [queries.level_text(x) for x in opts.levels.get(likelihood, [])]
             classes += ["above"] if opts.above.get(likelihood) else []
@@ -526,7 +527,8 @@ def results_page(title: str) -> tuple[queries.Choices, queries.Selection]:
     if not ch.variables:
         st.info("The database holds no accepted scenarios yet.")
         stop()
-    outcome = outcome_filter(ch)
+    top = st.sidebar.container()  # the outcome control heads the sidebar; it reads the basis chosen below it
     sel = band_sidebar(ch)
+    outcome = outcome_filter(ch, sel.basis, top)
     st.caption(outcome.caption)
     return ch, replace(sel, outcome=outcome.keys, outcome_label=outcome.label, likelihood=outcome.likelihood)

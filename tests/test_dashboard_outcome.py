@@ -209,3 +209,38 @@ def test_outcome_modes_without_a_choice_yet_speak_of_all_scenarios(demo_db, sql)
         at = open_app(demo_db, params=params)
         assert len(frame(at, "2030 [")) == n
         assert any("Outcome: all scenarios (no" in c.value for c in at.caption)
+
+
+def test_outcome_and_pairs_follow_the_harmonised_basis(demo_db, sql, tmp_path: Path):
+    """With the Values switch on harmonised, the outcome classes and the pairs are read from harmonised indicators."""
+    at = open_app(demo_db, "views/delay.py", params={**CLASS_2C, "basis": "harmonised"})
+    rows = sql.execute(
+        "SELECT model, scenario, value FROM current_indicators_by_basis"
+        " WHERE basis = 'harmonised' AND kind = 'budget_level' AND variable = '67%'"
+    ).fetchall()
+    keys = {(m, s) for m, s, v in rows if v == 2.0}
+    assert keys
+    assert any(f"{len(keys)} scenarios" in c.value for c in at.caption)
+    npv = sql.execute(
+        "SELECT model, scenario, value FROM current_indicators_by_basis WHERE basis = 'harmonised' AND kind = 'npv'"
+        " AND variable = 'cost.abatement' AND region = 'World' AND year_from = 2020 AND year_to = 2100"
+    ).df()
+    shown = frame(at, "NPV ratio")
+    npv = npv.set_index(["model", "scenario"])["value"]
+    want = [npv[(m, b)] / npv[(m, a)] for m, a, b in shown[["model", "first", "later"]].to_numpy()]
+    np.testing.assert_allclose(shown["NPV ratio"].to_numpy(), want)
+    assert {(m, a) for m, a in shown[["model", "first"]].to_numpy()} <= keys
+
+    from typer.testing import CliRunner
+
+    from milepost.validate.cli import app
+
+    out = tmp_path / "pairs.csv"
+    res = CliRunner().invoke(
+        app, ["export", "--db", str(demo_db), "--what", "pairs", "-f", "csv", "-o", str(out), "--basis", "harmonised"]
+    )
+    assert res.exit_code == 0, res.output
+    exported = pd.read_csv(out)
+    got = exported[(exported["kind"] == "npv") & (exported["region"] == "World") & (exported["year_to"] == 2100)]
+    for m, a, b, ratio in got[["model", "scenario_first", "scenario_later", "ratio"]].to_numpy():
+        assert ratio == pytest.approx(npv[(m, b)] / npv[(m, a)])

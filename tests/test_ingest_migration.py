@@ -193,14 +193,14 @@ def test_the_commands_say_what_happened(tmp_path: Path, aged: Path, submissions)
     assert res.exit_code == 0 and "Warning" not in res.stderr
 
 
-def test_a_schema_3_database_gets_the_budget_indicators_on_the_next_ingest(tmp_path: Path, submissions, contract):
-    db = tmp_path / "v3.duckdb"
+def test_a_schema_4_database_gets_the_budget_indicators_on_the_next_ingest(tmp_path: Path, submissions, contract):
+    db = tmp_path / "v4.duckdb"
     ingest(submissions[0], db, contract)
     budget_kinds = ("cumulative_net_zero", "budget_level", "warming_peak", "warming_peak_low", "warming_peak_high")
-    # what schema 3 wrote: the same tables, no carbon-budget indicator rows
+    # what schema 4 wrote: the same tables, no carbon-budget indicator rows
     con = duckdb.connect(str(db))
     con.execute(f"DELETE FROM indicators WHERE kind IN {budget_kinds}")
-    con.execute("UPDATE meta SET value = '3' WHERE key = 'schema_version'")
+    con.execute("UPDATE meta SET value = '4' WHERE key = 'schema_version'")
     con.execute("CHECKPOINT")
     con.close()
     dbm.ensure_database(db)  # any writer migrates; only an ingest (it has the contract) recomputes

@@ -180,9 +180,15 @@ def export(
     params: list[Any] | dict[str, Any]
     with reading(db) as con:
         if what == "pairs":
+            if filters.basis != "raw" and "basis" not in stored_columns(con, "data"):
+                raise UsageError(
+                    "the database holds no harmonised values: it was written before they existed "
+                    "(`milepost ingest --harmonise` migrates it and stores them)"
+                )
             sql, params = pair_rows_sql(
-                pairing or PairRule(), filters.model, filters.scenario, filters.region, filters.variable
-            )
+                pairing or PairRule(), filters.model, filters.scenario, filters.region, filters.variable,
+                basis=filters.basis,
+            )  # fmt: skip
         else:
             sql, params = export_query(what, filters, con)
         if what in ("indicators", "pairs"):

@@ -87,9 +87,20 @@ def rule_for(contract: Contract | None, likelihood: str = DEFAULT_LIKELIHOOD) ->
     return PairRule(likelihood=likelihood, order_region=region, order_year=min(later) if later else 2030)
 
 
-def pairs_sql(rule: PairRule) -> tuple[str, dict[str, Any]]:
-    """SELECT model, "group", scenario_first, scenario_later over the current scenarios, and its parameters."""
-    params: dict[str, Any] = {}
+def indicator_source(basis: str) -> str:
+    """The current indicators of one basis: the plain view for raw values (every schema has it), else the rows of
+    `current_indicators_by_basis` with basis = $pair_basis (a database that holds harmonised values)."""
+    if basis == "raw":
+        return "current_indicators"
+    return "(SELECT * FROM current_indicators_by_basis WHERE basis = $pair_basis)"
+
+
+def pairs_sql(rule: PairRule, basis: str = "raw") -> tuple[str, dict[str, Any]]:
+    """SELECT model, "group", scenario_first, scenario_later over the current scenarios, and its parameters.
+
+    Outcome classes and the order value (rule without `order`) are read on `basis`."""
+    params: dict[str, Any] = {} if basis == "raw" else {"pair_basis": basis}
+    source = indicator_source(basis)
     not_reference = (
         "NOT EXISTS (SELECT 1 FROM current_scenarios r WHERE r.model = s.model AND r.reference = s.scenario"
         " AND r.scenario <> s.scenario)"
@@ -101,9 +112,9 @@ def pairs_sql(rule: PairRule) -> tuple[str, dict[str, Any]]:
           SELECT s.model, s.scenario, printf('%g °C (%s)', b.value, b.variable) AS grp,
                  {{'n': v.value, 't': ''}} AS okey
           FROM current_scenarios s
-          JOIN current_indicators b ON b.model = s.model AND b.scenario = s.scenario AND b.kind = 'budget_level'
+          JOIN {source} b ON b.model = s.model AND b.scenario = s.scenario AND b.kind = 'budget_level'
                AND b.variable = $pair_lik AND b.value IS NOT NULL
-          JOIN current_indicators v ON v.model = s.model AND v.scenario = s.scenario AND v.kind = 'value'
+          JOIN {source} v ON v.model = s.model AND v.scenario = s.scenario AND v.kind = 'value'
                AND v.variable = $pair_var AND v.region = $pair_region AND v.year_from = $pair_year
                AND v.value IS NOT NULL
           WHERE {not_reference}"""  # noqa: S608 - fixed SQL text; every value is a bound parameter
@@ -140,13 +151,16 @@ def pair_rows_sql(
     regions: Sequence[str] = (),
     variables: Sequence[str] = (),
     kinds: Sequence[str] = (),
+    basis: str = "raw",
 ) -> tuple[str, dict[str, Any]]:
     """Every indicator both scenarios of a pair have, side by side (PAIR_COLUMNS), filtered; and the parameters.
 
     A scenario filter keeps pairs where either scenario is named. Rows match on kind, variable, region and period;
-    kinds over each scenario's own period (OWN_PERIOD_KINDS) match without the period.
+    kinds over each scenario's own period (OWN_PERIOD_KINDS) match without the period. Indicators (and the
+    pairing) are those of `basis`: raw, or harmonised where the database holds them.
     """
-    pairs, params = pairs_sql(rule)
+    pairs, params = pairs_sql(rule, basis)
+    source = indicator_source(basis)
     params.update(
         {
             "f_models": list(models),
@@ -165,8 +179,8 @@ def pair_rows_sql(
              f.value AS value_first, l.value AS value_later, l.value - f.value AS delta,
              CASE WHEN f.value <> 0 THEN l.value / f.value END AS ratio, f.unit
       FROM p
-      JOIN current_indicators f ON f.model = p.model AND f.scenario = p.scenario_first
-      JOIN current_indicators l ON l.model = p.model AND l.scenario = p.scenario_later
+      JOIN {source} f ON f.model = p.model AND f.scenario = p.scenario_first
+      JOIN {source} l ON l.model = p.model AND l.scenario = p.scenario_later
            AND l.kind = f.kind AND l.variable = f.variable AND l.region = f.region
            AND (list_contains($own_period::VARCHAR[], f.kind)
                 OR (l.year_from = f.year_from AND l.year_to = f.year_to))
