@@ -13,7 +13,7 @@ from typing import Any, NoReturn, TypeVar
 import pandas as pd
 import streamlit as st
 
-from milepost.dashboard import charts, connection, queries
+from milepost.dashboard import charts, connection, queries, tables
 from milepost.validate.errors import LoadError
 
 T = TypeVar("T")
@@ -178,8 +178,9 @@ def caution() -> None:
 def chart(ch: charts.Chart, name: str, key: str) -> None:
     """Show an Altair chart with PNG and SVG downloads (rendered only when clicked)."""
     st.altair_chart(ch, width="stretch")
-    c1, c2, _ = st.columns([1, 1, 6])
-    c1.download_button(
+    # a wrapping row sized to the buttons: fixed column shares left only the icons visible in a half-width panel
+    row = st.container(horizontal=True, gap="small")
+    row.download_button(
         "PNG",
         data=lambda: charts.to_png(ch),
         file_name=f"{name}.png",
@@ -187,8 +188,9 @@ def chart(ch: charts.Chart, name: str, key: str) -> None:
         key=f"{key}_png",
         on_click="ignore",
         icon=":material/image:",
+        help="The chart as a PNG image.",
     )
-    c2.download_button(
+    row.download_button(
         "SVG",
         data=lambda: charts.to_svg(ch),
         file_name=f"{name}.svg",
@@ -196,16 +198,31 @@ def chart(ch: charts.Chart, name: str, key: str) -> None:
         key=f"{key}_svg",
         on_click="ignore",
         icon=":material/image:",
+        help="The chart as an SVG vector image.",
     )
 
 
-def table(df: pd.DataFrame, name: str, key: str, **kwargs: Any) -> None:
-    """Show a table with a CSV download of exactly what is shown."""
-    config: dict[str, Any] = {
-        str(c): st.column_config.NumberColumn(format="%.2f") for c, t in df.dtypes.items() if t.kind == "f"
-    }
-    config.update(kwargs.pop("column_config", {}))
-    st.dataframe(df, hide_index=True, width="stretch", key=key, column_config=config, **kwargs)
+def table(
+    df: pd.DataFrame,
+    name: str,
+    key: str,
+    *,
+    unit: str | None = None,
+    columns: dict[str, tables.Column | str] | None = None,
+    first: tuple[str, ...] = (),
+    findings: bool = False,
+    **kwargs: Any,
+) -> None:
+    """Show a table through the formatting layer (dashboard/tables.py) with a CSV download of exactly what is shown.
+
+    `findings`: a table of findings, message and hint first."""
+    known = tables.FINDING_COLUMNS if findings else None
+    df, config = tables.prepare(
+        df, unit=unit, columns=columns, first=tables.FINDINGS_FIRST if findings else first, known=known
+    )
+    st.dataframe(
+        df, hide_index=True, width="stretch", key=key, column_config=config, placeholder=tables.PLACEHOLDER, **kwargs
+    )
     st.download_button(
         "CSV",
         data=df.to_csv(index=False).encode("utf-8"),
@@ -497,14 +514,17 @@ def _describe_outcome(
     return Outcome(keys, caption, label, spec.likelihood)
 
 
-def net_zero_text(years: pd.Series, searched_to: pd.Series, notes: pd.Series) -> pd.Series:
+def net_zero_text(years: pd.Series, searched_to: pd.Series, notes: pd.Series | None = None) -> pd.Series:
     """Net-zero years for a table: the year, "not reached by YEAR" where it is empty, and a short mark where the
-    series was at or below zero already in the base year (the stored note says so)."""
+    series was at or below zero already in the base year (the stored note says so). A fractional year (a crossing
+    between two whole years) is rounded up: the first whole year at or below zero on the straight line."""
     out = pd.Series("", index=years.index, dtype="str")
     reached = years.notna()
-    out[reached] = years[reached].astype("Int64").astype("str")
+    out[reached] = tables.whole_years(years[reached], round_up=True).astype("str")
     late = ~reached & searched_to.notna()
-    out[late] = "not reached by " + searched_to[late].astype("Int64").astype("str")
+    out[late] = "not reached by " + tables.whole_years(searched_to[late]).astype("str")
+    if notes is None:
+        return out
     already = reached & notes.fillna("").str.contains("already", regex=False)
     out[already] = out[already] + " (already ≤ 0)"
     return out

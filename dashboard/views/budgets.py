@@ -5,7 +5,7 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from milepost.dashboard import charts, contracts, queries, ui
+from milepost.dashboard import charts, contracts, queries, tables, ui
 
 BUDGET_CAUTION = (
     "Warming estimates from carbon budgets are indicative: they read a published near-linear relation (remaining "
@@ -75,22 +75,20 @@ st.caption(" ".join(notes))
 st.subheader(f"Outcome classes per band ({sel.likelihood})")
 present = [lb for lb in labels if lb in set(df["band_label"])]
 counts = pd.crosstab(df["outcome"], df["band_label"]).reindex(columns=present)
-ui.table(counts.reset_index().rename_axis(columns=None), f"budget_classes_{sel.year}", "budgets_classes")
+ui.table(
+    counts.reset_index().rename_axis(columns=None),
+    f"budget_classes_{sel.year}",
+    "budgets_classes",
+    columns={lb: tables.Column(f"{lb} band (scenarios)", "count") for lb in present},
+)
 
 st.subheader("Scenarios")
-shown = df.drop(columns=["band"]).rename(
-    columns={
-        "band_label": "band",
-        "band_value": f"{sel.year} [{unit}]",
-        "cumulative": f"CO2 to net zero [{cum_unit}]",
-        "until": "summed to",
-        "net_zero_year": "net-zero year",
-        "outcome": "outcome class",
-        "warming": "warming 50 % [°C]",
-        "warming_low": "warming 17 % [°C]",
-        "warming_high": "warming 83 % [°C]",
-    }
+df["net_zero_year"] = ui.net_zero_text(df["net_zero_year"], df["until"])
+cols = ["model", "scenario", "band_label", "band_value", "cumulative", "until", "net_zero_year", "outcome"]
+cols += ["warming", "warming_low", "warming_high"]
+ui.table(
+    df[cols],
+    f"budgets_scenarios_{sel.year}",
+    "budgets_table",
+    columns={"band_value": f"{sel.year} [{unit}]", "cumulative": f"CO2 to net zero [{cum_unit}]"},
 )
-cols = ["model", "scenario", "band", f"{sel.year} [{unit}]", f"CO2 to net zero [{cum_unit}]", "summed to"]
-cols += ["net-zero year", "outcome class", "warming 50 % [°C]", "warming 17 % [°C]", "warming 83 % [°C]"]
-ui.table(shown[cols], f"budgets_scenarios_{sel.year}", "budgets_table")

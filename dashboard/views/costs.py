@@ -56,22 +56,25 @@ st.caption("Point: median; bar: 25–75 % range of the scenarios in the band.")
 if top != bottom:
     st.subheader(f"{labels[top].capitalize()} band over {labels[bottom]} band: ratio of medians")
     ratios["order"] = ratios["metric"].map({m: i for i, m in enumerate(order)})
-    shown = ratios.sort_values(["order", "year"]).rename(
+    shown = ratios.sort_values(["order", "year"])
+    ui.table(
+        shown.drop(columns=["kind", "variable", "order"]),
+        f"costs_ratio_{sel.year}",
+        "costs_ratio",
         columns={
             "median_top": f"median {labels[top]}",
-            "n_top": f"n {labels[top]}",
+            "n_top": f"scenarios {labels[top]}",
             "median_bottom": f"median {labels[bottom]}",
-            "n_bottom": f"n {labels[bottom]}",
-            "ratio": "ratio of medians",
-        }
+            "n_bottom": f"scenarios {labels[bottom]}",
+        },
     )
-    ui.table(shown.drop(columns=["kind", "variable", "order"]), f"costs_ratio_{sel.year}", "costs_ratio")
 
-with st.expander("Per band: n, median and interquartile range"):
+with st.expander("Per band: scenarios, median and interquartile range"):
     ui.table(
-        summary[["metric", "unit", "year", "band_label", "n", "n_missing", "models", "median", "q25", "q75"]].rename(
-            columns={"band_label": "band"}
-        ),
+        summary[["metric", "unit", "year_from", "year", "band_label", "n", "n_missing", "models", "median"]]
+        .join(summary[["q25", "q75"]])
+        .reset_index(drop=True),
         f"costs_bands_{sel.year}",
         "costs_bands",
+        columns={"year_from": "measured from"},
     )

@@ -60,32 +60,28 @@ with right:
 
 st.subheader("Across models, per group")
 labels = {**names, "npv_ratio": f"{npv_words} (ratio later/first)", "d_npv": f"Δ {npv_words}"}
-shown = summary.assign(metric=summary["metric"].map(labels))
-shown = shown.rename(columns={"n": "pairs", "balanced": "model-balanced median", "low": "min", "high": "max"})
+shown = summary.assign(metric=summary["metric"].map(labels)).rename(columns={"n": "pairs"})
 shown["thin"] = shown["thin"].map({True: "thin evidence", False: ""})
 ui.table(shown, f"delay_summary_{sel.year}", "delay_summary")
 
 st.subheader("Pair by pair")
 ui.table(
-    pairs.rename(
-        columns={
-            "scenario_first": "first",
-            "scenario_later": "later",
-            "milestone_first": f"{sel.year} first [{unit}]",
-            "milestone_later": f"{sel.year} later [{unit}]",
-            "d_milestone": f"Δ {sel.year} [{unit}]",
-            "rate_first": f"CAGR {sel.year}–{next_year} first [%/yr]",
-            "rate_later": f"CAGR {sel.year}–{next_year} later [%/yr]",
-            "d_rate": "Δ CAGR [pp/yr]",
-            "npv_first": "NPV first",
-            "npv_later": "NPV later",
-            "d_npv": "Δ NPV",
-            "npv_ratio": "NPV ratio",
-            "loss_first": f"GDP loss {loss_year} first [%]",
-            "loss_later": f"GDP loss {loss_year} later [%]",
-            "d_loss": f"Δ GDP loss {loss_year} [pp]",
-        }
-    ),
+    pairs,
     f"delay_pairs_{sel.year}",
     "delay_pairs",
+    columns={
+        "scenario_first": "first",
+        "scenario_later": "later",
+        "milestone_first": f"{sel.year} first [{unit}]",
+        "milestone_later": f"{sel.year} later [{unit}]",
+        "d_milestone": f"Δ {sel.year} [{unit}]",
+        "rate_first": f"CAGR {sel.year}–{next_year} first [%/yr]",
+        "rate_later": f"CAGR {sel.year}–{next_year} later [%/yr]",
+        "d_rate": "Δ CAGR [pp/yr]",
+        "d_npv": "Δ NPV",
+        "npv_ratio": "NPV ratio",
+        "loss_first": f"GDP loss {loss_year} first [%]",
+        "loss_later": f"GDP loss {loss_year} later [%]",
+        "d_loss": f"Δ GDP loss {loss_year} [pp]",
+    },
 )

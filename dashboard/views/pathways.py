@@ -98,11 +98,10 @@ st.caption(" ".join(notes))
 
 table = pd.concat([df.assign(values=ui.BASIS_LABELS[b]) for b, df in bands.items()], ignore_index=True)
 ui.table(
-    table[["values", "band_label", "year", "n", "median", "q25", "q75", "q05", "q95", "unit"]].rename(
-        columns={"band_label": "band"}
-    ),
+    table[["values", "band_label", "year", "n", "median", "q25", "q75", "q05", "q95"]],
     f"pathway_{variable}_{region}",
     "path_table",
+    unit=unit,
 )
 
 if both:
@@ -123,11 +122,12 @@ if both:
                 text += f" (median offset {ui.fmt(row['median_offset'], 1)} {unit})"
             parts.append(text)
         st.caption(f"{variable} in {region}, per method: " + "; ".join(parts) + ".")
-        columns = ["model", "scenario", "band", "method", "factor", "offset", "convergence_year"]
-        columns += ["base_value", "reference_value", "unit", "note"]
+        columns = ["model", "scenario", "band_label", "method", "factor", "offset", "convergence_year"]
+        one_unit = methods["unit"].nunique() == 1
+        columns += ["base_value", "reference_value", *([] if one_unit else ["unit"]), "note"]
         ui.table(
-            methods.drop(columns=["band"]).rename(columns={"band_label": "band"})[columns],
+            methods.drop(columns=["band"])[columns],
             f"harmonisation_{variable}_{region}",
             "path_methods",
-            column_config={"factor": st.column_config.NumberColumn(format="%.4f")},
+            unit=str(methods["unit"].iloc[0]) if one_unit else None,
         )

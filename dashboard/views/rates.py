@@ -110,12 +110,15 @@ table = table.assign(
     band=[labels[b] for b in table["band"]],
 )
 ui.table(
-    table[["rate", "unit", "band", "n", "n_missing", "models", "median", "q25", "q75", "iqr"]],
+    table[["rate", "unit", "band", "n", "n_missing", "models", "median", "q25", "q75", "iqr"]].reset_index(drop=True),
     f"rates_summary_{period[0]}_{period[1]}",
     "rates_summary",
 )
 
 with st.expander("Every scenario's rates (all four kinds)"):
     wide = df.pivot(index=["model", "scenario", "band_label", "band_value"], columns="rate", values="value")
-    wide = wide.reset_index().rename(columns={"band_label": "band"}).rename_axis(columns=None)
-    ui.table(wide, f"rates_{period[0]}_{period[1]}", "rates_scenarios")
+    wide = wide.reset_index().rename_axis(columns=None)
+    band_unit = ui.query(queries.variable_unit, sel.variable)
+    ui.table(
+        wide, f"rates_{period[0]}_{period[1]}", "rates_scenarios", columns={"band_value": f"{sel.year} [{band_unit}]"}
+    )

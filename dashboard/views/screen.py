@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from milepost.dashboard import charts, queries, ui
+from milepost.dashboard import charts, queries, tables, ui
 
 ch, sel = ui.results_page("Screen")
 ui.caution()
@@ -42,27 +42,24 @@ st.caption(
 summary = queries.summarise(df, ["band"], model_weighted=sel.model_weighted)
 summary.insert(1, "range", [ranges[b] for b in summary["band"]])
 summary["band"] = [labels[b] for b in summary["band"]]
-ui.table(summary, "screen_bands", "screen_bands")
+ui.table(summary, "screen_bands", "screen_bands", unit=unit)
 
 st.subheader("Selected scenarios")
 base = ch.base_year
 cum_unit = df["cumulative_unit"].dropna()
 df["net_zero_year"] = ui.net_zero_text(df["net_zero_year"], df["net_zero_searched_to"], df["net_zero_note"])
-shown = df.drop(columns=["band", "cumulative_unit", "net_zero_searched_to", "net_zero_note"]).rename(
-    columns={
-        "band_label": "band",
-        "value": f"{sel.year} [{unit}]",
-        "base_value": f"{base} [{unit}]",
-        "cagr_to": f"CAGR {base}–{sel.year} [%/yr]",
-        "cagr_after": f"CAGR {sel.year}–{later[0]} [%/yr]" if later else "CAGR after [%/yr]",
-        "cumulative": f"cumulative {base}–{sel.year} [{cum_unit.iloc[0] if len(cum_unit) else ''}]",
-        "net_zero_year": "net-zero year",
-        "peak_year": f"peak year (from {base})",
-    }
-)
-front = ["model", "scenario", "band"]
-shown = shown[front + [c for c in shown.columns if c not in front]]
-ui.table(shown, f"screen_scenarios_{sel.year}", "screen_table")
+shown = df.drop(columns=["band", "cumulative_unit", "net_zero_searched_to", "net_zero_note"])
+labels_here: dict[str, tables.Column | str] = {
+    "band_label": "band",
+    "value": f"{sel.year} [{unit}]",
+    "base_value": f"{base} [{unit}]",
+    "cagr_to": f"CAGR {base}–{sel.year} [%/yr]",
+    "cagr_after": f"CAGR {sel.year}–{later[0]} [%/yr]" if later else "CAGR after [%/yr]",
+    "cumulative": f"cumulative {base}–{sel.year} [{cum_unit.iloc[0] if len(cum_unit) else ''}]",
+    "peak_year": f"peak year (from {base})",
+}
+front = ["model", "scenario", "band_label"]
+ui.table(shown, f"screen_scenarios_{sel.year}", "screen_table", columns=labels_here, first=tuple(front))
 st.caption(
     f"Cumulative {base}–{sel.year}: the sum of the annual values of every year from {base} to {sel.year}, both "
     "included, as carbon budgets are counted (IPCC AR6 WG1 counts remaining budgets from 1 January 2020; common "

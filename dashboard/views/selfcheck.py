@@ -83,5 +83,5 @@ c2.download_button(
 )
 if len(table):
     per_rule = table.groupby(["severity", "rule"]).size().rename("n").reset_index()
-    ui.table(per_rule, "check_rules", "check_rules")
-    ui.table(table, "check_findings", "check_findings")
+    ui.table(per_rule, "check_rules", "check_rules", columns={"n": "findings"})
+    ui.table(table, "check_findings", "check_findings", findings=True)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pandas as pd
 import streamlit as st
 
-from milepost.dashboard import queries, ui
+from milepost.dashboard import queries, tables, ui
 
 ui.require_database()
 st.title("Submissions")
@@ -26,7 +26,7 @@ c1, c2, c3 = st.columns(3)
 c1.metric("Submissions", len(subs))
 c2.metric("Accepted", int((subs["status"] == "accepted").sum()))
 c3.metric("Rejected", int((subs["status"] == "rejected").sum()))
-ui.table(table, "submissions", "subs_table")
+ui.table(table, "submissions", "subs_table", columns={r: tables.Column(r, "count") for r in rule_cols})
 st.caption("Counts per rule are findings of any severity; errors/warnings/notes are the totals per severity.")
 
 st.subheader("Findings of one submission")
@@ -64,6 +64,6 @@ found = ui.query(queries.findings, sid, rules, severities)
 if found.empty:
     st.success("No findings for this selection.")
 else:
-    ui.table(found, f"findings_{sid}", "subs_findings")
+    ui.table(found, f"findings_{sid}", "subs_findings", findings=True)
     if len(found) >= 5000:
         st.caption("Showing the first 5,000 findings; narrow by rule or severity.")
