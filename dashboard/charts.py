@@ -10,7 +10,14 @@ import vl_convert
 # Altair's default 5,000-row guard, which exists to stop accidental huge embeds
 alt.data_transformers.disable_max_rows()
 
-PALETTE = ["#2b83ba", "#7fbf7b", "#fdae61", "#d7191c", "#984ea3", "#636363", "#a6761d"]
+# Okabe & Ito's colour-blind-safe palette ("Color Universal Design", 2008; the colours of Wong, Nature Methods 8,
+# 441, 2011): blue, orange, vermillion, bluish green, reddish purple, sky blue, yellow. Three bands take blue,
+# orange and vermillion, which differ in lightness as well as hue, so they stay apart for red-green colour blindness.
+PALETTE = ["#0072B2", "#E69F00", "#D55E00", "#009E73", "#CC79A7", "#56B4E9", "#F0E442"]
+# dash patterns of the single scenarios on Pathways, one each (solid first), told apart in black on the band colours
+DASHES = [[1, 0], [6, 3], [2, 2], [10, 3, 2, 3], [4, 4], [12, 4], [2, 5], [8, 2, 2, 2, 2, 2]]
+# the two ranges drawn around each band median, widest first, with their fill opacities
+RANGES = {"5–95 %": ("q05", "q95", 0.16), "25–75 %": ("q25", "q75", 0.38)}
 
 
 # What the chart builders return and st.altair_chart accepts (Altair's `properties` may turn a layer into a facet).
@@ -18,13 +25,9 @@ Chart = alt.Chart | alt.LayerChart | alt.FacetChart
 
 
 def band_scale(labels: list[str]) -> alt.Scale:
-    """One colour per band, the same on every page (low = blue ... high = red for three bands)."""
-    if len(labels) == 3:
-        colours = [PALETTE[0], PALETTE[2], PALETTE[3]]
-    elif len(labels) == 2:
-        colours = [PALETTE[0], PALETTE[3]]
-    else:
-        colours = [PALETTE[i % len(PALETTE)] for i in range(len(labels))]
+    """One colour per band, the same on every page (three bands: low blue, middle orange, high vermillion)."""
+    two = [PALETTE[0], PALETTE[2]]
+    colours = two if len(labels) == 2 else [PALETTE[i % len(PALETTE)] for i in range(len(labels))]
     return alt.Scale(domain=labels, range=colours)
 
 
@@ -35,7 +38,8 @@ def histogram(df: pd.DataFrame, edges: list[float], labels: list[str], title: st
         .mark_bar()
         .encode(
             x=alt.X("value:Q", bin=alt.Bin(maxbins=30), title=f"{title} [{unit}]"),
-            y=alt.Y("count():Q", title="scenarios", stack=True),
+            # whole scenarios only: no 0.5 ticks when the tallest bar holds one or two
+            y=alt.Y("count():Q", title="scenarios", stack=True, axis=alt.Axis(tickMinStep=1, format="d")),
             color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band"),
             tooltip=[alt.Tooltip("band_label:N", title="band"), alt.Tooltip("count():Q", title="scenarios")],
         )
@@ -52,10 +56,10 @@ def rates_box(df: pd.DataFrame, labels: list[str], title: str) -> Chart:
     """Per band, box plot and jittered points of the rates; one panel per rate (`rate`, its label with its unit,
     in the order the rows come), each with its own scale."""
     base = alt.Chart().encode(
-        x=alt.X("band_label:N", sort=labels, title="band"),
+        x=alt.X("band_label:N", sort=labels, title="band", axis=alt.Axis(labelAngle=0)),
         color=alt.Color("band_label:N", scale=band_scale(labels), sort=labels, legend=None),
     )
-    box = base.mark_boxplot(extent=1.5, opacity=0.45, size=40, outliers=False).encode(y=alt.Y("value:Q", title=title))
+    box = base.mark_boxplot(extent=1.5, opacity=0.6, size=40, outliers=False).encode(y=alt.Y("value:Q", title=title))
     points = (
         base.mark_circle(size=28, opacity=0.75)
         .encode(
@@ -118,6 +122,16 @@ def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> Chart:
     )
 
 
+def pathway_ranges(bands: pd.DataFrame) -> pd.DataFrame:
+    """The band ranges in long form, one row per band, year and range (`range` names it, `lo`/`hi` bound it), so
+    that one area mark draws both shades and the legend can say which is which."""
+    parts = [
+        bands[["band_label", "year"]].assign(range=name, lo=bands[lo], hi=bands[hi])
+        for name, (lo, hi, _) in RANGES.items()
+    ]
+    return pd.concat(parts, ignore_index=True)
+
+
 def pathway(
     bands: pd.DataFrame,
     labels: list[str],
@@ -129,35 +143,72 @@ def pathway(
 ) -> Chart:
     """Median line and 25-75 % / 5-95 % ranges per band over time, optional single scenarios and the reference.
 
+    The two ranges are two shades of the band colour, named in a legend of their own; the 5-95 % range also gets
+    a thin outline, so that the ranges of neighbouring bands stay apart where they overlap. Single scenarios are
+    black lines with a dash pattern each, named in the legend.
     `y_domain` fixes the value axis, so that two pathways drawn side by side (raw, harmonised) compare by eye."""
-    colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band")
+    # legends above and below the plot, not beside it, where they would take half of a half-width panel
+    above = {"orient": "top", "direction": "horizontal"}
+    colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band", legend=alt.Legend(**above))
     x = alt.X("year:Q", axis=alt.Axis(format="d"), title=None)
-    base = alt.Chart(bands).encode(x=x, color=colour)
     scale = alt.Scale(domain=list(y_domain)) if y_domain is not None else alt.Undefined
-    outer = base.mark_area(opacity=0.12).encode(y=alt.Y("q05:Q", title=f"{title} [{unit}]", scale=scale), y2="q95:Q")
-    inner = base.mark_area(opacity=0.28).encode(y="q25:Q", y2="q75:Q")
+    names = list(RANGES)
+    shades = (
+        alt.Chart(pathway_ranges(bands))
+        .mark_area()
+        .encode(
+            x=x,
+            y=alt.Y("lo:Q", title=f"{title} [{unit}]", scale=scale),
+            y2="hi:Q",
+            color=colour,
+            detail="range:N",
+            opacity=alt.Opacity(
+                "range:N",
+                sort=names,
+                scale=alt.Scale(domain=names, range=[o for _, _, o in RANGES.values()]),
+                legend=alt.Legend(title="range of the band's scenarios", symbolType="square", **above),
+            ),
+        )
+    )
+    base = alt.Chart(bands).encode(x=x, color=colour)
+    edges = [base.mark_line(strokeWidth=0.8, opacity=0.7).encode(y=f"{q}:Q") for q in ("q05", "q95")]
     line = base.mark_line(strokeWidth=2.5).encode(
         y="median:Q",
         tooltip=[
             alt.Tooltip("band_label:N", title="band"),
             alt.Tooltip("year:Q"),
-            alt.Tooltip("n:Q"),
+            alt.Tooltip("n:Q", title="scenarios"),
             alt.Tooltip("median:Q", format=",.4~g"),
-            alt.Tooltip("q25:Q", format=",.4~g"),
-            alt.Tooltip("q75:Q", format=",.4~g"),
-            alt.Tooltip("q05:Q", format=",.4~g"),
-            alt.Tooltip("q95:Q", format=",.4~g"),
+            alt.Tooltip("q25:Q", format=",.4~g", title="25th percentile"),
+            alt.Tooltip("q75:Q", format=",.4~g", title="75th percentile"),
+            alt.Tooltip("q05:Q", format=",.4~g", title="5th percentile"),
+            alt.Tooltip("q95:Q", format=",.4~g", title="95th percentile"),
         ],
     )
-    layers: list[alt.Chart] = [outer, inner, line]
+    layers: list[alt.Chart] = [shades, *edges, line]
     if scenarios is not None and not scenarios.empty:
+        order = list(dict.fromkeys(scenarios["label"]))
         layers.append(
             alt.Chart(scenarios)
-            .mark_line(strokeWidth=1.2, strokeDash=[5, 3], color="#333333")
+            .mark_line(strokeWidth=1.6, color="#222222")
             .encode(
                 x=x,
                 y="value:Q",
-                detail="label:N",
+                strokeDash=alt.StrokeDash(
+                    "label:N",
+                    sort=order,
+                    scale=alt.Scale(domain=order, range=DASHES),
+                    legend=alt.Legend(
+                        title="single scenario",
+                        symbolStrokeColor="#222222",
+                        symbolType="stroke",
+                        symbolSize=600,
+                        symbolStrokeWidth=1.6,
+                        labelLimit=400,
+                        orient="bottom",
+                        direction="vertical",
+                    ),
+                ),
                 tooltip=[
                     alt.Tooltip("model:N"),
                     alt.Tooltip("scenario:N"),
@@ -185,7 +236,9 @@ def pathway(
             .mark_text(align="left", dx=8, dy=-8, fontSize=11)
             .encode(x=x, y="value:Q", text="label:N")
         )
-    return alt.layer(*layers).properties(height=380)
+    # Streamlit fits the whole chart, legends included, into the height: leave room for the legends
+    n_single = 0 if scenarios is None or scenarios.empty else scenarios["label"].nunique()
+    return alt.layer(*layers).properties(height=380 + 50 + (30 + 18 * n_single if n_single else 0))
 
 
 def budgets(df: pd.DataFrame, lines: pd.DataFrame, labels: list[str], x_title: str, y_title: str) -> Chart:
