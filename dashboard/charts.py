@@ -11,9 +11,10 @@ import vl_convert
 alt.data_transformers.disable_max_rows()
 
 # Okabe & Ito's colour-blind-safe palette ("Color Universal Design", 2008; the colours of Wong, Nature Methods 8,
-# 441, 2011): blue, orange, vermillion, bluish green, reddish purple, sky blue, yellow. Three bands take blue,
-# orange and vermillion, which differ in lightness as well as hue, so they stay apart for red-green colour blindness.
-PALETTE = ["#0072B2", "#E69F00", "#D55E00", "#009E73", "#CC79A7", "#56B4E9", "#F0E442"]
+# 441, 2011) without its yellow, too pale on white: blue, orange, vermillion, bluish green, reddish purple, sky blue.
+# Three bands take blue, orange and vermillion, which differ in lightness as well as hue, so they stay apart for
+# red-green colour blindness.
+PALETTE = ["#0072B2", "#E69F00", "#D55E00", "#009E73", "#CC79A7", "#56B4E9"]
 # dash patterns of the single scenarios on Pathways, one each (solid first), told apart in black on the band colours
 DASHES = [[1, 0], [6, 3], [2, 2], [10, 3, 2, 3], [4, 4], [12, 4], [2, 5], [8, 2, 2, 2, 2, 2]]
 # the two ranges drawn around each band median, widest first, with their fill opacities

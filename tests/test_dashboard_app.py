@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import re
 import shutil
 import subprocess
 import sys
@@ -97,7 +98,7 @@ def test_screen_numbers_follow_the_milestone_year(demo_db, sql):
         assert median.value.startswith(fmt(float(np.median(exp)), 0))
         _, band = numpy_bands(exp.to_numpy())
         bands = frame(at, "range")
-        assert bands["n"].tolist() == np.bincount(band, minlength=3).tolist()
+        assert bands["scenarios"].tolist() == np.bincount(band, minlength=3).tolist()
     assert at.query_params["year"] == ["2050"] or at.query_params["year"] == "2050"
 
 
@@ -107,7 +108,7 @@ def test_screen_edges_models_and_attribute_filter(demo_db, sql):
     bands = frame(at, "range")
     values = milestone_values(sql, "emissions.ghg", 2030)["value"].to_numpy()
     assert bands["band"].tolist() == ["low", "high"]
-    assert bands["n"].tolist() == [int((values < 45000).sum()), int((values >= 45000).sum())]
+    assert bands["scenarios"].tolist() == [int((values < 45000).sum()), int((values >= 45000).sum())]
 
     at.multiselect(key="band_models").set_value(["Ferrow"]).run()
     shown = frame(at, "2030 [")
@@ -150,10 +151,10 @@ def test_rates_sentence_and_table_match_sql(demo_db, sql):
         text = at.info[0].value
         assert text.startswith(f"Median CAGR {period[0]}–{period[1]} of emissions.ghg (World)")
         assert f"high band {fmt(hi)} %/yr vs low band {fmt(lo)} %/yr" in text
-        table = frame(at, "iqr")
+        table = frame(at, "interquartile range")
         row = table[(table["rate"] == "CAGR") & (table["band"] == "high")].iloc[0]
         assert row["median"] == pytest.approx(hi)
-        assert row["q75"] == pytest.approx(np.percentile(df.loc[df["band"] == 2, "rate"].dropna(), 75))
+        assert row["75th percentile"] == pytest.approx(np.percentile(df.loc[df["band"] == 2, "rate"].dropna(), 75))
     spec = json.loads(at.get("vega_lite_chart")[0].proto.spec)
     assert {"model", "scenario"} <= {t.get("field") for t in _tooltips(spec)}
 
@@ -168,7 +169,7 @@ def test_rates_page_picks_the_linear_rate_and_counts_undefined_cagr(demo_db, sql
         label = {"rate_linear_base": "% of the base-year value", "rate_absolute": "absolute", "rate_linear": "start"}
         assert any("Shown beside CAGR: " in c.value and label[kind] in c.value for c in at.caption)
         _, df = band_rates(sql, 2050, 2100, kind)
-        table = frame(at, "iqr")
+        table = frame(at, "interquartile range")
         assert set(table["rate"]) == {"CAGR", queries.RATE_LABELS[kind]}
         row = table[(table["rate"] == queries.RATE_LABELS[kind]) & (table["band"] == "high")].iloc[0]
         assert row["unit"] == unit
@@ -227,7 +228,7 @@ def test_costs_sentence_ratio_and_thin_evidence(demo_db, sql):
         ratio = frame(at, "ratio of medians")
         row = ratio[(ratio["metric"] == "NPV of abatement cost") & (ratio["year"] == 2100)].iloc[0]
         assert row["ratio of medians"] == pytest.approx(hi / lo)
-        assert (row["n high"], row["n low"]) == (n_hi, n_lo)
+        assert (row["scenarios high"], row["scenarios low"]) == (n_hi, n_lo)
         # a band median on fewer than 5 scenarios is flagged (the demo has about 12 per band, one model about 3)
         assert any("Thin evidence" in w.value for w in at.warning) == (min(n_hi, n_lo) < 5)
     assert models and min(n_hi, n_lo) < 5
@@ -236,7 +237,7 @@ def test_costs_sentence_ratio_and_thin_evidence(demo_db, sql):
 def test_pathways_variable_change_and_reference(demo_db, sql):
     at = open_app(demo_db, "views/pathways.py")
     at.selectbox(key="path_variable").set_value("energy.primary").run()
-    table = frame(at, "q95")
+    table = frame(at, "95th percentile [EJ/yr]")
     table = table[table["values"] == "as submitted"]
     sel = milestone_values(sql, "emissions.ghg", 2030)
     _, band = numpy_bands(sel["value"].to_numpy())
@@ -244,7 +245,7 @@ def test_pathways_variable_change_and_reference(demo_db, sql):
                          WHERE variable = 'energy.primary' AND region = 'World'""").df()
     pts = sel[["model", "scenario"]].assign(band=np.array(["low", "middle", "high"])[band]).merge(pts)
     exp = pts.groupby(["band", "year"])["value"].median()
-    got = table.set_index(["band", "year"])["median"]
+    got = table.set_index(["band", "year"])["median [EJ/yr]"]
     np.testing.assert_allclose(got.loc[exp.index].to_numpy(), exp.to_numpy())
     ref = pd.read_csv(CONTRACT_DIR / "reference.csv")
     value = ref[(ref["region"] == "World") & (ref["variable"] == "energy.primary")]["value"].iloc[0]
@@ -252,9 +253,15 @@ def test_pathways_variable_change_and_reference(demo_db, sql):
     spec = at.get("vega_lite_chart")[0].proto.spec
     assert "diamond" in spec
 
-    at.multiselect(key="path_scenarios").set_value(["Ferrow | act-bold"]).run()
+    picked = ["Ferrow | act-bold", "Halvik | act-deep"]
+    at.multiselect(key="path_scenarios").set_value(picked).run()
     spec = json.loads(at.get("vega_lite_chart")[0].proto.spec)
-    assert any(layer.get("mark", {}).get("strokeDash") == [5, 3] for layer in spec["layer"])
+    # each single scenario is named in a legend and drawn with a dash pattern of its own
+    (dash,) = [layer["encoding"]["strokeDash"] for layer in spec["layer"] if "strokeDash" in layer.get("encoding", {})]
+    assert dash["field"] == "label" and dash["legend"]["title"] == "single scenario"
+    assert dash["scale"]["domain"] == picked
+    patterns = dash["scale"]["range"][: len(picked)]
+    assert len({tuple(p) for p in patterns}) == len(picked)
 
 
 def test_submissions_and_drill_down(demo_db, sql):
@@ -265,14 +272,24 @@ def test_submissions_and_drill_down(demo_db, sql):
     per_rule = dict(
         sql.execute("SELECT rule, count(*) FROM findings WHERE submission_id = ? GROUP BY rule", [rejected]).fetchall()
     )
-    row = subs[subs["id"] == rejected].iloc[0]
+    row = subs[subs["submission"] == rejected].iloc[0]
     assert {r: int(row[r]) for r in per_rule} == per_rule
+    assert_readable_tables(at)
+    # blanks explained: a rejected submission has no version; a submission no later one replaced is current
+    replaced = dict(sql.execute("SELECT id, superseded_by FROM submissions").fetchall())
+    shown = subs.set_index("submission")
+    assert shown.loc[rejected, "version"] == "none"
+    assert {i: shown.loc[i, "replaced by submission"] for i in replaced} == {
+        i: "current" if r is None else str(r) for i, r in replaced.items()
+    }
     # the one submission with findings is preselected
     assert at.selectbox(key="subs_id").value == rejected
-    assert len(frame(at, "hint")) == sum(per_rule.values())
+    found = frame(at, "how to fix")
+    assert list(found.columns[:2]) == ["message", "how to fix"]  # what to read and what to do, visible first
+    assert len(frame(at, "how to fix")) == sum(per_rule.values())
     rule = max(per_rule, key=lambda r: per_rule[r])
     at.multiselect(key="subs_rules").set_value([rule]).run()
-    found = frame(at, "hint")
+    found = frame(at, "how to fix")
     assert len(found) == per_rule[rule] and set(found["rule"]) == {rule}
 
 
@@ -294,8 +311,10 @@ def test_selfcheck_reports_findings_without_writing(demo, sql):
     stored = dict(
         sql.execute("SELECT rule, count(*) FROM findings WHERE submission_id = ? GROUP BY rule", [sid]).fetchall()
     )
-    shown = frame(at, "hint")
+    shown = frame(at, "how to fix")
     assert shown.groupby("rule").size().to_dict() == stored
+    assert list(shown.columns[:2]) == ["message", "how to fix"]
+    assert_readable_tables(at)
     assert {b.label for b in at.get("download_button")} >= {"JSON report", "XLSX report"}
     assert _signature(db) == before  # nothing was written to the database
 
@@ -305,9 +324,35 @@ def test_selfcheck_reports_findings_without_writing(demo, sql):
     assert any("would be accepted" in s.value for s in at.success)
 
 
+# query column names a reader should never see (issue: raw n_missing, q25, iqr, superseded_by headers)
+RAW_NAMES = {"n", "n_missing", "q05", "q25", "q75", "q95", "iqr", "superseded_by", "band_label", "year_from"}
+RAW_NAMES |= {"net_zero_year", "convergence_year", "submitted_at", "column_name", "hint", "base_value", "id"}
+YEAR = re.compile(r"(year|from year|measured from|summed to|net-zero year|convergence year|peak year.*)")
+YEAR_TEXT = re.compile(r"\d{4}( \(already ≤ 0\))?|not reached by \d{4}|not reached|not used")
+
+
+def assert_readable_tables(at: AppTest) -> None:
+    """Every shown table: readable labels, whole-number years, no cell reading "None"."""
+    assert len(at.dataframe) > 0
+    for d in at.dataframe:
+        df, config = d.value, json.loads(d.proto.columns)
+        assert d.proto.placeholder == "–"  # a blank with no more specific meaning is a dash, not "None"
+        assert not RAW_NAMES & set(df.columns), list(df.columns)
+        for c in df.columns:
+            values = df[c].dropna()
+            if YEAR.fullmatch(str(c)):
+                if values.dtype.kind in "iuf" or str(values.dtype) == "Int64":
+                    assert (values == values.round()).all() and config[c]["type_config"]["format"] == "%d", c
+                else:
+                    assert values.astype(str).str.fullmatch(YEAR_TEXT).all(), (c, values.unique()[:5])
+            if values.dtype == object or str(values.dtype) in ("str", "string"):
+                assert not (values.astype(str) == "None").any(), c
+
+
 @pytest.mark.parametrize("page", RESULT_PAGES)
 def test_results_pages_carry_cautions_and_downloads(demo_db, page):
     at = open_app(demo_db, page)
+    assert_readable_tables(at)
     captions = " ".join(c.value for c in at.caption)
     assert "not forecasts" in captions and "avoided climate damages and co-benefits" in captions
     labels = [b.label for b in at.get("download_button")]

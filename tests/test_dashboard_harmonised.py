@@ -102,10 +102,10 @@ def test_pathways_page_draws_raw_and_harmonised_side_by_side(demo_db):
     assert domains[0] == domains[1]  # one value axis for both
     table = next(d.value for d in at.dataframe if "note" in d.value.columns)
     assert set(table["method"]) == {"converging-ratio"}
-    assert (table["convergence_year"] == 2050).all()
+    assert (table["convergence year"] == 2050).all()
     assert any("per method: converging-ratio" in c.value and "median factor" in c.value for c in at.caption)
     assert any("not forecasts" in c.value and "Harmonised values" in c.value for c in at.caption)
-    bands = next(d.value for d in at.dataframe if "q95" in d.value.columns)
+    bands = next(d.value for d in at.dataframe if any("95th percentile" in c for c in d.value.columns))
     assert set(bands["values"]) == {"as submitted", "harmonised"}
 
 

@@ -120,7 +120,7 @@ def test_model_weighting_of_band_medians(demo_db, sql):
     sel = milestone_values(sql, "emissions.ghg", 2030)
     _, band = numpy_bands(sel["value"].to_numpy())
     rates = sel.assign(band=band).merge(indicator(sql, "rate_cagr", "emissions.ghg", 2030, 2050))
-    table = frame(at, "iqr")
+    table = frame(at, "interquartile range")
     for b, name in enumerate(["low", "middle", "high"]):
         part = rates[rates["band"] == b].dropna(subset=["x"])
         row = table[(table["rate"] == "CAGR") & (table["band"] == name)].iloc[0]
@@ -142,6 +142,17 @@ def test_budgets_page_matches_sql(demo_db, sql):
     assert len(got) == len(table) == len(selection(sql, in_class(sql, 2.0)))
     np.testing.assert_allclose(got["CO2 to net zero [Gt CO2]"], got["value"])
     assert (got["summed to"] == got["year_to"]).all()
+    # every scenario: the net-zero year as a whole number from SQL, or "not reached by" the last year summed
+    every = frame(open_app(demo_db, "views/budgets.py"), "net-zero year")
+    nz = sql.execute(
+        """SELECT model, scenario, value AS nz FROM current_indicators
+           WHERE kind = 'net_zero_year' AND variable = 'emissions.co2' AND region = 'World'"""
+    ).df()
+    every = every.merge(nz, on=["model", "scenario"], how="left")
+    never = every["nz"].isna()
+    assert never.any() and (~never).any()
+    assert (every.loc[never, "net-zero year"] == "not reached by " + every.loc[never, "summed to"].astype(str)).all()
+    assert (every.loc[~never, "net-zero year"] == every.loc[~never, "nz"].astype(int).astype(str)).all()
     assert (got["value"] > 700).all() and (got["value"] <= 1150).all()  # AR6 WG1 Table SPM.2 at 67 %
     # the chart's data travel as Arrow IPC streams beside the spec
     frames = [
@@ -181,7 +192,7 @@ def test_delay_page_pairs_and_model_counts(demo_db, sql, tmp_path: Path):
     per_group = summary.groupby("group")["models"].max()
     want_models = npv.groupby("group")["model"].nunique()
     assert per_group.drop("all pairs").to_dict() == want_models.to_dict()
-    thin = set(summary.loc[summary["thin"] == "thin evidence", "group"])
+    thin = set(summary.loc[summary["evidence"] == "thin evidence", "group"])
     assert thin == {g for g, n in want_models.items() if n < 3}
     headline = at.info[0].value
     assert headline.startswith("Within the 2 °C budget (67 %): What delay costs, pair by pair")
@@ -190,7 +201,8 @@ def test_delay_page_pairs_and_model_counts(demo_db, sql, tmp_path: Path):
 
 def test_pathway_medians_with_model_weighting(demo_db, sql):
     at = open_app(demo_db, "views/pathways.py", params={**CLASS_2C, "weight": "model"})
-    table = frame(at, "q95")
+    table = frame(at, "95th percentile")
+    median = next(c for c in table.columns if c.startswith("median ["))
     sel = selection(sql, in_class(sql, 2.0))
     pts = sql.execute(
         "SELECT model, scenario, year, value FROM current_data WHERE variable = 'emissions.ghg' AND region = 'World'"
@@ -199,8 +211,8 @@ def test_pathway_medians_with_model_weighting(demo_db, sql):
     names = ["low", "middle", "high"]
     for (band, year), part in pts[pts["year"].isin([2030, 2050, 2100])].groupby(["band", "year"]):
         row = table[(table["band"] == names[band]) & (table["year"] == year)].iloc[0]
-        assert row["median"] == pytest.approx(_weighted_median_by_repetition(part["value"], part["model"]))
-        assert row["n"] == len(part)
+        assert row[median] == pytest.approx(_weighted_median_by_repetition(part["value"], part["model"]))
+        assert row["scenarios"] == len(part)
 
 
 def test_outcome_modes_without_a_choice_yet_speak_of_all_scenarios(demo_db, sql):
