@@ -163,6 +163,17 @@ def test_selfcheck_upload_and_json_report_in_a_real_browser(server, browser, dem
     with duckdb.connect(str(db), read_only=True) as con:
         errors = con.execute("SELECT errors FROM submissions WHERE model = 'Vossel'").fetchall()[0][0]
     assert report["summary"]["errors"] == errors > 0
+    # the findings table opens on what to read and what to do: message and hint are the first visible columns
+    # (the grid's accessible table holds only the cells in view, so an off-screen column is absent from it; it is
+    # visually hidden, hence CSS role selectors rather than get_by_role)
+    grid = page.get_by_test_id("stDataFrame").last  # the per-rule counts come first, then the findings
+    grid.scroll_into_view_if_needed()
+    grid.locator("[role=columnheader]").first.wait_for(state="attached", timeout=30_000)
+    headers = grid.locator("[role=columnheader]").all_inner_texts()
+    assert headers[:2] == ["message", "how to fix"], headers
+    first = grid.locator("[role=row]").nth(1).locator("[role=gridcell]").all_inner_texts()
+    assert first[0] in {f["message"] for f in report["findings"]}
+    assert first[1] in {f["hint"] or "" for f in report["findings"]}
     with page.expect_download(timeout=60_000) as dl:
         page.get_by_test_id("stDownloadButton").filter(has_text="XLSX report").click()
     assert Path(dl.value.path()).read_bytes()[:2] == b"PK"  # XLSX is a ZIP container (ECMA-376 Part 2)
