@@ -149,8 +149,13 @@ def pathway(
     black lines with a dash pattern each, named in the legend.
     `y_domain` fixes the value axis, so that two pathways drawn side by side (raw, harmonised) compare by eye."""
     # legends above and below the plot, not beside it, where they would take half of a half-width panel
-    above = {"orient": "top", "direction": "horizontal"}
-    colour = alt.Color("band_label:N", scale=band_scale(labels), sort=labels, title="band", legend=alt.Legend(**above))
+    colour = alt.Color(
+        "band_label:N",
+        scale=band_scale(labels),
+        sort=labels,
+        title="band",
+        legend=alt.Legend(orient="top", direction="horizontal"),
+    )
     x = alt.X("year:Q", axis=alt.Axis(format="d"), title=None)
     scale = alt.Scale(domain=list(y_domain)) if y_domain is not None else alt.Undefined
     names = list(RANGES)
@@ -167,7 +172,9 @@ def pathway(
                 "range:N",
                 sort=names,
                 scale=alt.Scale(domain=names, range=[o for _, _, o in RANGES.values()]),
-                legend=alt.Legend(title="range of the band's scenarios", symbolType="square", **above),
+                legend=alt.Legend(
+                    title="range of the band's scenarios", symbolType="square", orient="top", direction="horizontal"
+                ),
             ),
         )
     )
