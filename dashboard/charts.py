@@ -90,7 +90,7 @@ def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> Chart:
 
     Panels keep the order of `summary["panel"]`."""
     base = alt.Chart().encode(
-        x=alt.X("year:O", title=None),
+        x=alt.X("year:O", title=None, axis=alt.Axis(labelAngle=0)),
         xOffset=alt.XOffset("band_label:N", sort=labels),
         color=alt.Color(
             "band_label:N", scale=band_scale(labels), sort=labels, title="band", legend=alt.Legend(orient="top")
@@ -105,7 +105,7 @@ def cost_ranges(summary: pd.DataFrame, labels: list[str]) -> Chart:
             alt.Tooltip("q75:Q", format=",.4~g"),
         ],
     )
-    iqr = base.mark_rule(strokeWidth=6, opacity=0.45).encode(y=alt.Y("q25:Q", title=None), y2="q75:Q")
+    iqr = base.mark_rule(strokeWidth=6, opacity=0.6).encode(y=alt.Y("q25:Q", title=None), y2="q75:Q")
     med = base.mark_point(filled=True, size=60).encode(y="median:Q")
     return (
         alt.layer(iqr, med, data=summary)

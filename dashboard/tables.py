@@ -8,7 +8,6 @@ override a label, e.g. one that carries the milestone year) and returns the fram
 
 from __future__ import annotations
 
-import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
 from typing import Any, Literal
@@ -148,9 +147,8 @@ def _year_text(values: pd.Series, blank: str) -> pd.Series:
 
 
 def _number_text(values: pd.Series, fmt: str | None, blank: str) -> pd.Series:
-    printf = fmt or "%.2f"
-    text = [printf % v if isinstance(v, int | float) and not math.isnan(v) else blank for v in values]
-    return pd.Series(text, index=values.index, dtype="str")
+    text = np.char.mod(fmt or "%.2f", values.fillna(0.0).to_numpy(dtype="float64"))
+    return pd.Series(text, index=values.index, dtype="str").where(values.notna(), blank)
 
 
 def whole_years(values: pd.Series, round_up: bool = False) -> pd.Series:

@@ -162,6 +162,12 @@ def test_histogram_counts_whole_scenarios_and_box_plot_labels_are_horizontal():
     )
     box = charts.rates_box(rates, LABELS, "t").to_dict()
     assert {la["encoding"]["x"]["axis"]["labelAngle"] for la in box["spec"]["layer"]} == {0}
+    summary = pd.DataFrame(
+        {"band_label": LABELS, "year": 2050, "median": [1.0, 2.0, 3.0], "q25": 0.5, "q75": 3.5, "n": 4}
+        | {"metric": "NPV", "panel": "NPV [USD]"}
+    )
+    costs = charts.cost_ranges(summary, LABELS).to_dict()
+    assert {la["encoding"]["x"]["axis"]["labelAngle"] for la in costs["spec"]["layer"]} == {0}
 
 
 def _luminance(hex_colour: str) -> float:
