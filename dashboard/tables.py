@@ -142,7 +142,7 @@ FINDING_COLUMNS: dict[str, Column] = {
 FINDINGS_FIRST = ("message", "hint", "severity", "rule")
 
 
-def _year_text(values: pd.Series, blank: str) -> pd.Series:
+def _whole_text(values: pd.Series, blank: str) -> pd.Series:
     return values.astype("str").where(values.notna(), blank)
 
 
@@ -214,12 +214,12 @@ def _format(values: pd.Series, spec: Column, label: str) -> tuple[pd.Series, Any
     if spec.kind == "year":
         years = whole_years(values, spec.round_up)
         if has_blank:
-            return _year_text(years, spec.blank or ""), st.column_config.TextColumn(label, alignment="right", **kw)
+            return _whole_text(years, spec.blank or ""), st.column_config.TextColumn(label, alignment="right", **kw)
         return years, st.column_config.NumberColumn(label, format="%d", **kw)
     if spec.kind == "count":
         counts = pd.to_numeric(values, errors="coerce").round().astype("Int64")
         if has_blank:
-            return _year_text(counts, spec.blank or ""), st.column_config.TextColumn(label, alignment="right", **kw)
+            return _whole_text(counts, spec.blank or ""), st.column_config.TextColumn(label, alignment="right", **kw)
         return counts, st.column_config.NumberColumn(label, format="%d", **kw)
     if spec.kind == "number":
         if has_blank:
