@@ -10,6 +10,7 @@ from typer.testing import CliRunner
 
 from milepost.validate.cli import app
 from milepost.validate.findings import FINDING_COLUMNS, RULES
+from milepost.validate.reports import XLSX_FINDING_COLUMNS
 
 from builders import consistent_rows, write_csv
 from conftest import BASIC_CONTRACT
@@ -82,7 +83,7 @@ def test_xlsx_report_highlights_the_cell(tmp_path, broken):
     assert cell.fill.fgColor.rgb == "FFF4B6B6"
     assert "unknown-variable" in cell.comment.text
     header = [c.value for c in wb["findings"][1]]
-    assert header == list(FINDING_COLUMNS)
+    assert header == list(XLSX_FINDING_COLUMNS)
 
 
 def test_xlsx_needs_output(broken):

@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import json
+import re
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any, cast
 
-from milepost.validate.findings import FINDING_COLUMNS, SEVERITIES, Finding
-from milepost.validate.outputs import save_workbook
+from milepost.validate.cells import one_line, set_text, xlsx_text
+from milepost.validate.findings import SEVERITIES, Finding
+from milepost.validate.outputs import check_target, save_workbook
 from milepost.validate.runner import CheckResult
 
 TEXT_LIMIT = 200
@@ -41,8 +43,16 @@ def to_dict(result: CheckResult, fail_on: str = "error") -> dict[str, Any]:
             for i in result.inputs
         ],
         "summary": summary(result, fail_on),
-        "findings": [f.to_dict() for f in result.findings],
+        "findings": [_human(f.to_dict()) for f in result.findings],
     }
+
+
+def _human(row: dict[str, Any]) -> dict[str, Any]:
+    """A finding with its sentences (message, hint) safe to print; the data fields keep the file's text."""
+    for key in ("message", "hint"):
+        if row.get(key) is not None:
+            row[key] = one_line(row[key])
+    return row
 
 
 def to_json(result: CheckResult, fail_on: str = "error") -> str:
@@ -52,14 +62,14 @@ def to_json(result: CheckResult, fail_on: str = "error") -> str:
 
 def finding_line(f: Finding) -> str:
     """One finding as a compiler-style line: `file:line: severity rule: message (hint)`."""
-    where = f.path or "-"
+    where = one_line(f.path or "-")
     if f.line is not None:
         where += f":{f.line}"
     if f.sheet:
-        where += f" [{f.sheet}]"
-    text = f"{where}: {f.severity} {f.rule}: {f.message}"
+        where += f" [{one_line(f.sheet)}]"
+    text = f"{where}: {f.severity} {f.rule}: {one_line(f.message)}"
     if f.hint:
-        text += f" — {f.hint}"
+        text += f" — {one_line(f.hint)}"
     return text
 
 
@@ -98,8 +108,9 @@ def to_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT
     c = result.contract
     yield f"milepost {result.version} · contract {c.name} ({c.hash[:12]})"
     for i in result.inputs:
-        sheet = f" [{i.sheet}]" if i.sheet else ""
-        yield f"  {i.path}{sheet}: {i.kind}, {i.rows} rows" + (f" ({'; '.join(i.notes)})" if i.notes else "")
+        sheet = f" [{one_line(i.sheet)}]" if i.sheet else ""
+        notes = f" ({one_line('; '.join(i.notes))})" if i.notes else ""
+        yield f"  {one_line(i.path)}{sheet}: {i.kind}, {i.rows} rows{notes}"
     if result.rule_counts:
         yield ""
         yield "rule                    severity   count"
@@ -176,14 +187,94 @@ def _raw_rows(
     return header, rows
 
 
-def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Path:
-    """Workbook: `summary`, `findings`, and per data file a copy with the offending cells coloured and commented."""
+# The findings sheet, for people: where, what was found against what was expected, then the row's key. `found` is
+# the offending cell as written; `value` is the row's value (from the copy), so an unknown variable's name is
+# never shown as a value.
+XLSX_FINDING_COLUMNS = (
+    "severity",
+    "rule",
+    "path",
+    "sheet",
+    "line",
+    "cell",
+    "column_name",
+    "found",
+    "expected",
+    "message",
+    "hint",
+    "model",
+    "scenario",
+    "region",
+    "variable",
+    "unit",
+    "year",
+    "value",
+)
+XLSX_WIDTHS = {"path": 24, "message": 70, "hint": 50, "expected": 22, "found": 22, "rule": 20, "variable": 26}
+_INTEGER = re.compile(r"[+-]?\d+")
+_NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
+_YEAR_HEADER = re.compile(r"\d{4}")
+
+
+def _number(text: Any, whole: bool) -> Any:
+    """A cell of a numeric column as a number where its text is a clean one (years whole); else the text."""
+    if not isinstance(text, str):
+        return text
+    t = text.strip()
+    if whole and _INTEGER.fullmatch(t):
+        return int(t)
+    if _NUMBER.fullmatch(t):
+        number = float(t)
+        return int(number) if whole and number.is_integer() else number
+    return text
+
+
+def _widths(sheet: Any, header: list[str], rows: list[tuple[int, list[Any]]], fixed: dict[str, int]) -> None:
+    from openpyxl.utils import get_column_letter
+
+    for j, name in enumerate(header, start=1):
+        width = fixed.get(name)
+        if width is None:
+            sample = [len(str(r[j - 1])) for _, r in rows[:200] if j - 1 < len(r) and r[j - 1] is not None]
+            width = min(max([len(str(name)), *sample]) + 2, 60)
+        sheet.column_dimensions[get_column_letter(j)].width = max(width, 6)
+
+
+def _copy_sheet(wb: Any, title: str, header: list[str], rows: list[tuple[int, list[Any]]]) -> dict[str, int]:
+    """A copy of a data file: lines kept, years and values as numbers, text as text; returns column -> index."""
+    from openpyxl.styles import Font
+
+    sheet = wb.create_sheet(title)
+    lower = {str(h).strip().lower(): j for j, h in enumerate(header, start=1)}
+    whole = {lower[c] for c in ("year",) if c in lower}
+    numeric = whole | {lower["value"]} if "value" in lower else set(whole)
+    numeric |= {j for h, j in lower.items() if _YEAR_HEADER.fullmatch(h)}  # wide tables: one column per year
+    for j, h in enumerate(header, start=1):
+        set_text(sheet.cell(row=1, column=j), h).font = Font(bold=True)
+    width = len(header)
+    for line, cells in rows:
+        for j, v in enumerate(cells[:width], start=1):
+            if v is None or v == "":
+                continue
+            value = _number(v, j in whole) if j in numeric else v
+            set_text(sheet.cell(row=line, column=j), value)
+    sheet.freeze_panes = "A2"
+    _widths(sheet, header, rows, {})
+    return lower
+
+
+def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error", *, force: bool = False) -> Path:
+    """Workbook: `summary`, `findings` (each line a link to its cell), and per data file a copy with the
+    offending cells coloured and commented. Refuses to overwrite an input or a file that is not ours."""
     import openpyxl
     from openpyxl.comments import Comment
     from openpyxl.styles import Font, PatternFill
+    from openpyxl.utils import get_column_letter
+    from openpyxl.worksheet.hyperlink import Hyperlink
     from openpyxl.worksheet.worksheet import Worksheet
 
     path = Path(path)
+    check_target(path, inputs=[i.path for i in result.inputs], force=force)
     wb = openpyxl.Workbook()
     ws = cast(Worksheet, wb.active)  # a new workbook's active sheet is its one worksheet
     ws.title = "summary"
@@ -200,9 +291,9 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
         [],
         ["input", "kind", "rows", "sha256"],
     ):
-        ws.append(row)
+        ws.append([xlsx_text(v) if isinstance(v, str) else v for v in row])
     for i in result.inputs:
-        ws.append([i.path, i.kind, i.rows, i.sha256])
+        ws.append([xlsx_text(i.path), i.kind, i.rows, i.sha256])
     ws.append([])
     ws.append(["rule", "severity", "count"])
     for r, sev, n in result.rule_counts:
@@ -210,52 +301,80 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error") -> Pa
     if result.truncated:
         ws.append([])
         ws.append(["Only the first findings of each rule are listed; the counts above are complete."])
+    for letter, width in zip("ABCD", (40, 12, 12, 66), strict=True):
+        ws.column_dimensions[letter].width = width
+
     fs = wb.create_sheet("findings")
-    cols = list(FINDING_COLUMNS)
-    fs.append(cols)
+    fs.append(list(XLSX_FINDING_COLUMNS))
     for c in fs[1]:
         c.font = Font(bold=True)
-    for f in result.findings:
-        fs.append([f.to_dict()[c] for c in cols])
-    fs.auto_filter.ref = fs.dimensions
     fs.freeze_panes = "A2"
 
-    by_file: dict[str, list[tuple[int, Finding]]] = {}
-    for f in result.findings:
-        if f.path and f.line is not None:
-            by_file.setdefault(f.path, []).append((f.line, f))
+    copies: dict[tuple[str, str | None], tuple[str, dict[str, int], dict[int, list[Any]]]] = {}
+    notes: dict[str, dict[tuple[int, int], list[Finding]]] = {}
     for n, inp in enumerate(i for i in result.inputs if i.kind == "data"):
         title = f"copy {n + 1}"
-        sheet = wb.create_sheet(title)
         if inp.rows > XLSX_COPY_ROWS:
+            sheet = wb.create_sheet(title)
             sheet.append(
                 [
-                    f"{inp.path} has {inp.rows} rows; copies are made up to {XLSX_COPY_ROWS} rows. "
+                    f"{xlsx_text(inp.path)} has {inp.rows} rows; copies are made up to {XLSX_COPY_ROWS} rows. "
                     "Use the findings sheet (file and line) instead."
                 ]
             )
             continue
         header, rows = _raw_rows(result, inp.path, inp.sheet, XLSX_COPY_ROWS)
-        sheet.append(header)
-        width = len(header)
-        for line, cells in rows:
-            for j, v in enumerate(cells[:width], start=1):
-                sheet.cell(row=line, column=j, value=v)
-        lower = {h.strip().lower(): j for j, h in enumerate(header, start=1)}
-        notes: dict[tuple[int, int], list[Finding]] = {}
-        for at, f in by_file.get(inp.path, []):
+        lower = _copy_sheet(wb, title, header, rows)
+        copies[(inp.path, inp.sheet)] = (title, lower, dict(rows))
+        notes[title] = {}
+        ws.append([])
+        ws.append([f"sheet '{title}' is a copy of {xlsx_text(inp.path)}: row numbers are the file's lines"])
+
+    link_font = Font(color="FF0563C1", underline="single")
+    line_col = XLSX_FINDING_COLUMNS.index("line") + 1
+    cell_col = XLSX_FINDING_COLUMNS.index("cell") + 1
+    for r, f in enumerate(result.findings, start=2):
+        copy = copies.get((f.path or "", f.sheet)) or copies.get((f.path or "", None))
+        ref = row_value = None
+        if copy is not None and f.line is not None:
+            title, lower, lines = copy
             # A finding about a row but no particular cell (an unsplittable line) marks the value cell.
-            j = lower.get(f.column_name or "value", 1) if at > 1 else 1
-            notes.setdefault((at, j), []).append(f)
-        for (line, j), found in notes.items():
+            j = lower.get((f.column_name or "value").lower(), 1) if f.line > 1 else 1
+            ref = f"{get_column_letter(j)}{f.line}"
+            notes[title].setdefault((f.line, j), []).append(f)
+            cells = lines.get(f.line)
+            if cells is not None and "value" in lower and lower["value"] - 1 < len(cells):
+                row_value = _number(cells[lower["value"] - 1], False)
+        row = f.to_dict()
+        values = {
+            **row,
+            "cell": ref,
+            "found": row["value"],
+            "value": row_value,
+            "message": one_line(f.message),
+            "hint": one_line(f.hint) if f.hint else None,
+        }
+        for j, name in enumerate(XLSX_FINDING_COLUMNS, start=1):
+            set_text(fs.cell(row=r, column=j), values[name])
+        if ref is not None and copy is not None:
+            location = f"'{copy[0]}'!{ref}"
+            for j in (line_col, cell_col):
+                c = fs.cell(row=r, column=j)
+                c.hyperlink = Hyperlink(ref=c.coordinate, location=location, tooltip=f"go to {location}")
+                c.font = link_font
+    fs.auto_filter.ref = fs.dimensions
+    for j, name in enumerate(XLSX_FINDING_COLUMNS, start=1):
+        fs.column_dimensions[get_column_letter(j)].width = XLSX_WIDTHS.get(name, max(len(name) + 3, 9))
+
+    for title, marks in notes.items():
+        sheet = wb[title]
+        for (line, j), found in marks.items():
             cell = sheet.cell(row=line, column=j)
             worst = min((f.severity for f in found), key=SEVERITIES.index)
             cell.fill = PatternFill("solid", fgColor=FILL[worst])
-            text = "\n".join(f"{f.rule}: {f.message}" + (f" ({f.hint})" if f.hint else "") for f in found)
-            cell.comment = Comment(text[:2000], "milepost")
-        sheet.freeze_panes = "A2"
-        sheet["A1"].font = Font(bold=True)
-        ws.append([])
-        ws.append([f"sheet '{title}' is a copy of {inp.path}: row numbers are the file's lines"])
-    save_workbook(wb, path)
+            text = "\n".join(
+                f"{f.rule}: {one_line(f.message)}" + (f" ({one_line(f.hint)})" if f.hint else "") for f in found
+            )
+            cell.comment = Comment(xlsx_text(text[:2000]), "milepost")
+    save_workbook(wb, path, "report")
     return path

@@ -18,7 +18,7 @@ from milepost.validate.cli.common import (
     load_contract,
     standard_output,
 )
-from milepost.validate.outputs import writing
+from milepost.validate.outputs import check_target, write_text
 
 
 class Format(StrEnum):
@@ -56,6 +56,9 @@ def check(
         FailOn, typer.Option("--fail-on", help="Exit 1 when findings of this severity (or worse) exist.")
     ] = FailOn.error,
     limit: Annotated[int, typer.Option(help="Findings shown in the text report.", min=0)] = 200,
+    force: Annotated[
+        bool, typer.Option("--force", help="Replace an existing --output file that milepost did not write.")
+    ] = False,
 ) -> None:
     """Check submission files against the contract. Exit 0: passed; 1: findings at the fail level; 2: usage error;
     4: the report could not be written."""
@@ -65,21 +68,22 @@ def check(
     c = load_contract(contract)
     if fmt is Format.xlsx and output is None:
         fail("--format xlsx needs --output FILE.xlsx")
+    if output is not None:  # before the check, which may take a while: a wrong -o is known at once
+        check_target(output, inputs=files, force=force)
     result = run_check(files, c, progress=True)
     if fmt is Format.json:
         text = to_json(result, fail_on.value)
         if output:
-            with writing(output):
-                output.write_text(text + "\n", encoding="utf-8")
+            write_text(output, text + "\n", inputs=files, force=force)
         else:
             echo(text)
     elif fmt is Format.xlsx and output is not None:  # without --output it stopped above
-        to_xlsx(result, output, fail_on.value)
+        to_xlsx(result, output, fail_on.value, force=force)
         echo(f"wrote {output}", err=True)
     if fmt is Format.text:
         if output:
-            with writing(output):
-                output.write_text("\n".join(to_text(result, fail_on.value, limit)) + "\n", encoding="utf-8")
+            report = "\n".join(to_text(result, fail_on.value, limit)) + "\n"
+            write_text(output, report, inputs=files, force=force)
         else:
             with standard_output():
                 print_text(result, fail_on.value, limit)

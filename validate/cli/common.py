@@ -67,7 +67,7 @@ F = TypeVar("F", bound=Callable[..., Any])
 
 def fail(message: str, code: int = EXIT_USAGE) -> NoReturn:
     """Print `Error: message` on stderr and exit with `code` (2 = usage or contract error)."""
-    typer.echo(f"Error: {message}", err=True)
+    typer.echo(f"Error: {shown(message)}", err=True)
     raise typer.Exit(code)
 
 
@@ -105,8 +105,17 @@ def standard_output() -> Iterator[None]:
         raise OutputError(f"cannot write to standard output: {e.strerror or e}") from None
 
 
+def shown(message: str) -> str:
+    """Text for the terminal: control characters from the data (ESC, BEL, ...) escaped, newlines kept."""
+    from milepost.validate.cells import escape_controls
+
+    return escape_controls(message)
+
+
 def echo(message: str = "", *, err: bool = False, nl: bool = True) -> None:
-    """typer.echo, with standard output that cannot be written reported as an OutputError (exit 4)."""
+    """typer.echo of `shown(message)`, with standard output that cannot be written reported as an OutputError
+    (exit 4)."""
+    message = shown(message)
     if err:
         typer.echo(message, err=True, nl=nl)
         return

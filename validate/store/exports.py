@@ -17,11 +17,12 @@ from typing import Any
 
 import duckdb
 
+from milepost.validate.cells import neutralise_sql, safe_row
 from milepost.validate.errors import OutputError, UsageError, one_line
 from milepost.validate.findings import FINDING_COLUMNS
-from milepost.validate.outputs import save_workbook, writing
+from milepost.validate.outputs import MARK, check_target, register_csv_header, replacing, save_workbook, writing
 from milepost.validate.readers import sha256_of
-from milepost.validate.sql import literal
+from milepost.validate.sql import identifier, literal
 from milepost.validate.store.database import (
     reading,
     schema_version,
@@ -29,7 +30,7 @@ from milepost.validate.store.database import (
     stored_columns,
     view_or_definition,
 )
-from milepost.validate.store.pairs import PairRule, pair_rows_sql
+from milepost.validate.store.pairs import PAIR_COLUMNS, PairRule, pair_rows_sql
 from milepost.validate.store.recompute import outdated_reason
 
 XLSX_MAX_ROWS = 1_048_575  # an Excel sheet has 1,048,576 rows; one is the header
@@ -81,6 +82,8 @@ EXPORTS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     ),
 }
 FORMATS = ("csv", "parquet", "xlsx")
+for _columns in (DATA_COLUMNS, INDICATOR_COLUMNS, STORED_FINDING_COLUMNS, PAIR_COLUMNS):
+    register_csv_header(_columns)  # an earlier export of these is ours, and may be replaced without --force
 BASES = ("raw", "harmonised")  # data and indicators: as submitted, or harmonised (`milepost ingest --harmonise`)
 SNAPSHOT_TABLES = (
     ("data", "current_data", DATA_COLUMNS, "scenario, region, variable, year"),
@@ -162,11 +165,19 @@ def export(
     filters: Filters | None = None,
     on_warning: Callable[[str], None] | None = None,
     pairing: PairRule | None = None,
+    *,
+    force: bool = False,
+    raw_text: bool = False,
+    progress: Callable[[int, int], None] | None = None,
 ) -> int:
     """Write the rows of `what` (data | indicators | findings | pairs) matching `filters` to `output`; returns the
     count. Pairs follow `pairing` (default: the outcome-class rule, see milepost.validate.store.pairs).
 
-    `on_warning` hears (once) when the stored indicators follow older conventions (see `recompute`).
+    The output is never the database itself, nor (without `force`) a file Milepost did not write, and it is
+    written whole or not at all (`milepost.validate.outputs`). Text cells a spreadsheet would run as formulas
+    are written as text in XLSX and get a leading `'` in CSV, unless `raw_text` (`milepost.validate.cells`).
+    `on_warning` hears (once) when the stored indicators follow older conventions (see `recompute`);
+    `progress(done, total)` hears how far an XLSX export has come.
     """
     filters = filters or Filters()
     if fmt not in FORMATS:
@@ -176,6 +187,7 @@ def export(
         raise UsageError(f"the folder of {output} does not exist")
     if what == "pairs" and filters.submission:
         raise UsageError("--submission does not apply to pairs: pairs are read from the current scenarios")
+    check_target(output, inputs=[db], force=force)
     sql: str
     params: list[Any] | dict[str, Any]
     with reading(db) as con:
@@ -196,14 +208,20 @@ def export(
             if reason is not None and on_warning is not None:
                 on_warning(f"Warning: {reason}.")
         if fmt != "xlsx":
-            # COPY reports the rows it wrote, so the query runs once.
-            options = "FORMAT csv, HEADER" if fmt == "csv" else "FORMAT parquet, COMPRESSION zstd"
-            if _in_place(output):
-                options += ", USE_TMP_FILE false"
-            try:
-                copied = con.execute(f"COPY ({sql}) TO {literal(str(output))} ({options})", params).fetchall()
-            except duckdb.IOException as e:
-                raise OutputError(f"cannot write {output}: {one_line(e)}") from None
+            if fmt == "csv":
+                if not raw_text:
+                    sql = formula_safe_query(con, sql, params)
+                options = "FORMAT csv, HEADER"
+            else:
+                options = f"FORMAT parquet, COMPRESSION zstd, KV_METADATA {{'{MARK}': 'export'}}"
+            with replacing(output) as tmp:
+                # COPY reports the rows it wrote, so the query runs once; it writes our temporary file in place.
+                try:
+                    copied = con.execute(
+                        f"COPY ({sql}) TO {literal(str(tmp))} ({options}, USE_TMP_FILE false)", params
+                    ).fetchall()
+                except duckdb.IOException as e:
+                    raise OutputError(f"cannot write {output}: {one_line(e)}") from None
             return int(copied[0][0])
         n = int(con.execute(f"SELECT count(*) FROM ({sql})", params).fetchall()[0][0])  # noqa: S608 - names from this module; filters bound as parameters
         if n > XLSX_MAX_ROWS:
@@ -212,19 +230,20 @@ def export(
                 "use --format csv or parquet, or filter with --model/--scenario/--region/--variable"
             )
         note = (pairing or PairRule()).describe() if what == "pairs" else None
-        with writing(output):  # openpyxl's write-only sheets stream into temporary files
-            _write_xlsx(con, sql, params, output, what, filters, db, note)
+        _write_xlsx(con, sql, params, output, what, filters, db, note, n, progress)
     return n
 
 
-def _in_place(output: Path) -> bool:
-    """Whether to write straight into `output` rather than into a copy renamed over it at the end.
-
-    A regular file (or a new one) is replaced whole, so a failed export never leaves half a file. A symlink, a
-    device (/dev/stdout, /dev/full) or a pipe is written through: renaming over it would replace the link or the
-    device node itself (DuckDB's COPY renames its temporary file over an existing target by default).
-    """
-    return output.is_symlink() or (output.exists() and not output.is_file())
+def formula_safe_query(con: duckdb.DuckDBPyConnection, sql: str, params: list[Any] | dict[str, Any]) -> str:
+    """`sql` with every text column passed through `cells.neutralise_sql`; other columns as they are."""
+    described = con.execute(f"SELECT * FROM ({sql}) LIMIT 0", params).description  # noqa: S608 - our own query
+    columns = []
+    for name, type_code, *_ in described:
+        column = identifier(name)
+        text = str(type_code) == "VARCHAR"
+        columns.append(f"{neutralise_sql(column)} AS {column}" if text else column)
+    # A projection keeps the order of the rows the ordered query gives it.
+    return f"SELECT {', '.join(columns)} FROM ({sql})"  # noqa: S608 - column names quoted by sql.identifier
 
 
 def _write_xlsx(
@@ -236,6 +255,8 @@ def _write_xlsx(
     filters: Filters,
     db: str | Path,
     note: str | None = None,
+    total: int = 0,
+    progress: Callable[[int, int], None] | None = None,
 ) -> None:
     from openpyxl import Workbook
 
@@ -243,35 +264,32 @@ def _write_xlsx(
     wb = Workbook(write_only=True)
     ws = wb.create_sheet(what)
     cur = con.execute(sql, params)
-    ws.append([d[0] for d in cur.description])
+    header = [d[0] for d in cur.description]
+    ws.append(header)
+    ws.freeze_panes = "A2"
+    done = 0
     while True:
         chunk = cur.fetchmany(10_000)
         if not chunk:
             break
         for row in chunk:
-            ws.append(list(row))
+            ws.append(safe_row(ws, list(row)))
+        done += len(chunk)
+        if progress is not None:
+            progress(done, total)
     about = wb.create_sheet("about")
     about.append(["milepost export", what])
-    about.append(["database", str(db)])
-    about.append(["filters", json.dumps(filters.to_dict())])
+    about.append(safe_row(about, ["database", str(db)]))
+    about.append(safe_row(about, ["filters", json.dumps(filters.to_dict(), ensure_ascii=False)]))
     if note:
-        about.append(["rule", note])
+        about.append(safe_row(about, ["rule", note]))
     about.append(["exported at (UTC)", time.strftime("%Y-%m-%d %H:%M:%S", time.gmtime())])
     for line in CAUTIONS:
         about.append(["caution", line])
     if what == "indicators":
         for line in INDICATOR_BASIS:
             about.append(["basis", line])
-    if _in_place(output):
-        save_workbook(wb, output)
-        return
-    tmp = output.with_name(output.name + f".tmp-{os.getpid()}")
-    try:
-        save_workbook(wb, tmp)
-        with writing(output):
-            os.replace(tmp, output)
-    finally:
-        tmp.unlink(missing_ok=True)
+    save_workbook(wb, output, "export")
 
 
 # ---------------------------------------------------------------- snapshot
