@@ -81,6 +81,9 @@ def template_cmd(
     output: Annotated[
         Path, typer.Option("--output", "-o", help="FILE.xlsx (with drop-down lists) or FILE.csv.", dir_okay=False)
     ] = Path("submission-template.xlsx"),
+    force: Annotated[
+        bool, typer.Option("--force", help="Replace an existing --output file that milepost did not write.")
+    ] = False,
 ) -> None:
     """Write an empty long-format submission template for the contract."""
     from milepost.validate.template import write_template
@@ -88,7 +91,7 @@ def template_cmd(
     if output.suffix.lower() not in (".xlsx", ".csv"):
         fail(f"{output}: the template is written as .xlsx or .csv")
     c = load_contract(directory)
-    write_template(c, output)
+    write_template(c, output, force=force)
     echo(f"wrote {output} for contract {c.name}")
 
 

@@ -2,7 +2,11 @@
 
 from __future__ import annotations
 
+import contextlib
 import json
+import sys
+import time
+from collections.abc import Callable, Iterator
 from enum import StrEnum
 from pathlib import Path
 from typing import TYPE_CHECKING, Annotated, Any
@@ -229,6 +233,17 @@ def export_cmd(
     likelihood: Annotated[
         str, typer.Option("--likelihood", help="Pairs without [pairs]: the budget likelihood of the outcome classes.")
     ] = "67%",
+    force: Annotated[
+        bool, typer.Option("--force", help="Replace an existing --output file that milepost did not write.")
+    ] = False,
+    raw_text: Annotated[
+        bool,
+        typer.Option(
+            "--raw-text",
+            help="CSV: write text cells that start with = + - @ as they are (by default they get a leading ' "
+            "so that spreadsheet programs do not run them as formulas).",
+        ),
+    ] = False,
 ) -> None:
     """Export data, indicators, findings or delay pairs as CSV, Parquet or XLSX."""
     from milepost.validate.store.database import default_db_path, warn
@@ -237,10 +252,58 @@ def export_cmd(
     filters = Filters(model or (), scenario or (), region or (), variable or (), submission or (), basis.value)
     path = default_db_path(db)
     rule = _pair_rule(path, contract, likelihood) if what is What.pairs else None
-    n = export(path, what.value, fmt.value, output, filters, on_warning=warn, pairing=rule)
+    with progress_bar("exporting") as progress:
+        n = export(
+            path,
+            what.value,
+            fmt.value,
+            output,
+            filters,
+            on_warning=warn,
+            pairing=rule,
+            force=force,
+            raw_text=raw_text,
+            progress=progress,
+        )
     if rule is not None:
         echo(rule.describe(), err=True)
     echo(f"Wrote {n:,} rows to {output}.", err=True)
+
+
+@contextlib.contextmanager
+def progress_bar(label: str, after: float = 1.0) -> Iterator[Callable[[int, int], None]]:
+    """A `progress(done, total)` callback that draws a bar on stderr once the work has taken `after` seconds;
+    silent when stderr is not a terminal (CI logs, pipes)."""
+    if not sys.stderr.isatty():
+        yield lambda done, total: None
+        return
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+    start = time.monotonic()
+    bar = Progress(
+        TextColumn(label),
+        BarColumn(),
+        MofNCompleteColumn(),
+        TimeElapsedColumn(),
+        console=Console(stderr=True),
+        transient=True,
+    )
+    task: list[Any] = []
+
+    def update(done: int, total: int) -> None:
+        if not task:
+            if time.monotonic() - start < after:
+                return
+            bar.start()
+            task.append(bar.add_task(label, total=total))
+        bar.update(task[0], completed=done, total=total)
+
+    try:
+        yield update
+    finally:
+        if task:
+            bar.stop()
 
 
 def _pair_rule(db: Path, contract: Path | None, likelihood: str) -> PairRule:

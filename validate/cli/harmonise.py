@@ -74,11 +74,21 @@ def harmonise_cmd(
     ] = True,
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Report format.")] = TextJson.text,
     limit: Annotated[int, typer.Option(help="Findings listed per rule in the text report.", min=0)] = 3,
+    force: Annotated[
+        bool, typer.Option("--force", help="Replace existing output files that milepost did not write.")
+    ] = False,
 ) -> None:
     """Harmonise a submission to the base year. Exit 0: written; 1: the input or the result has errors; 2: usage
     error; 4: an output could not be written."""
     from milepost.validate.harmonise import check_overrides, harmonise, text_table
-    from milepost.validate.harmonise.output import CAUTION, default_methods_path, file_format, write_table
+    from milepost.validate.harmonise.output import (
+        CAUTION,
+        default_methods_path,
+        earlier_output,
+        file_format,
+        write_table,
+    )
+    from milepost.validate.outputs import check_target
     from milepost.validate.reports import finding_line
     from milepost.validate.runner import run_check
 
@@ -88,12 +98,15 @@ def harmonise_cmd(
     methods_path = methods_out or default_methods_path(output)
     file_format(output)
     file_format(methods_path)
-    if output.resolve() in {p.resolve() for p in files} or methods_path.resolve() == output.resolve():
-        raise typer.BadParameter("the output must be a new file, not an input or the methods table")
+    if methods_path.resolve() == output.resolve():
+        raise typer.BadParameter("the output must be a new file, not the methods table")
+    again = earlier_output(output, methods_path)  # re-running over its own earlier output needs no --force
+    for target in (output, methods_path):  # before the check: a wrong -o is known at once
+        check_target(target, inputs=files, force=force or again)
     checked = run_check(files, c, progress=True)
     result = harmonise(checked.con, c, method=chosen, converge_year=convergence_year)
-    rows = write_table(checked.con, "harmonised", output)
-    write_table(checked.con, "harmonise_methods", methods_path)
+    rows = write_table(checked.con, "harmonised", output, inputs=files, force=force or again)
+    write_table(checked.con, "harmonise_methods", methods_path, inputs=files, force=force)
     input_errors = checked.counts.get("error", 0)
     recheck: dict[str, Any] | None = None
     if verify:

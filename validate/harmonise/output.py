@@ -2,18 +2,20 @@
 
 from __future__ import annotations
 
-import os
+from collections.abc import Iterable
 from pathlib import Path
 
 import duckdb
 
-from milepost.validate.errors import UsageError
+from milepost.validate.cells import safe_row
+from milepost.validate.errors import OutputError, UsageError, one_line
 from milepost.validate.harmonise.notes import METHOD_COLUMNS
-from milepost.validate.outputs import writing
+from milepost.validate.outputs import MARK, check_target, ours, register_csv_header, replacing, save_workbook
 from milepost.validate.sql import literal
 
 FORMATS = {".csv": "csv", ".parquet": "parquet", ".xlsx": "xlsx"}
 LONG_COLUMNS = ("model", "scenario", "region", "variable", "unit", "year", "value")
+register_csv_header(METHOD_COLUMNS)  # a harmonised CSV is a submission (its header is not a mark of ours)
 CAUTION = "Harmonised values are model projections aligned with a historical reference, not forecasts."
 
 
@@ -41,35 +43,61 @@ def _query(table: str) -> str:
     raise ValueError(f"not a harmonisation table: {table}")
 
 
-def write_table(con: duckdb.DuckDBPyConnection, table: str, path: Path) -> int:
+def earlier_output(output: Path, methods: Path) -> bool:
+    """Whether `output` is the harmonised file of an earlier run: its header is the long format and the methods
+    table written with it lies beside it (a harmonised CSV alone cannot be told from a submission)."""
+    if output.suffix.lower() != ".csv" or not (output.is_file() and methods.is_file() and ours(methods)):
+        return False
+    with output.open(encoding="utf-8", errors="replace") as f:
+        return f.readline().strip() == ",".join(LONG_COLUMNS)
+
+
+def write_table(
+    con: duckdb.DuckDBPyConnection,
+    table: str,
+    path: Path,
+    *,
+    inputs: Iterable[str | Path] = (),
+    force: bool = False,
+) -> int:
     """Write `harmonised` or `harmonise_methods` to `path` (format from its suffix); returns the rows written.
 
-    The file is written beside its target and renamed into place, so a failed write never leaves half a file;
-    a write that fails (no space, no permission) is an OutputError.
+    Never over an input, a database or (without `force`) a file Milepost did not write; the file is written
+    beside its target and renamed into place, so a failed write never leaves half a file; a write that fails
+    (no space, no permission) is an OutputError. The harmonised CSV stays a submission file, exact to the
+    character (formula-like text is protected in XLSX only, where a cell can be marked as text).
     """
     path = Path(path)
     fmt = file_format(path)
-    tmp = path.with_name(f"{path.name}.tmp-{os.getpid()}")
+    check_target(path, inputs=inputs, force=force)
     sql = _query(table)
-    try:
-        with writing(path):
-            if fmt == "xlsx":
-                n = _write_xlsx(con, sql, tmp, "data" if table == "harmonised" else "methods")
-            else:
-                options = "FORMAT csv, HEADER" if fmt == "csv" else "FORMAT parquet, COMPRESSION zstd"
-                n = int(con.execute(f"COPY ({sql}) TO {literal(str(tmp))} ({options})").fetchall()[0][0])
-            os.replace(tmp, path)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
-    return n
+    with replacing(path) as tmp:
+        if fmt == "xlsx":
+            return _write_xlsx(con, sql, tmp, "data" if table == "harmonised" else "methods")
+        parquet = f"FORMAT parquet, COMPRESSION zstd, KV_METADATA {{'{MARK}': 'harmonised'}}"
+        options = "FORMAT csv, HEADER" if fmt == "csv" else parquet
+        try:
+            rows = con.execute(f"COPY ({sql}) TO {literal(str(tmp))} ({options}, USE_TMP_FILE false)").fetchall()
+        except duckdb.IOException as e:
+            raise OutputError(f"cannot write {path}: {one_line(e)}") from None
+        return int(rows[0][0])
 
 
 def _write_xlsx(con: duckdb.DuckDBPyConnection, sql: str, tmp: Path, sheet: str) -> int:
-    import pandas as pd  # only here: pandas costs a second of start-up the other formats do not need
+    from openpyxl import Workbook
 
-    df = con.execute(sql).df()
-    with pd.ExcelWriter(tmp, engine="openpyxl") as xl:
-        df.to_excel(xl, sheet_name=sheet, index=False)
-        pd.DataFrame({"note": [CAUTION]}).to_excel(xl, sheet_name="about", index=False)
-    return len(df)
+    wb = Workbook(write_only=True)
+    ws = wb.create_sheet(sheet)
+    cur = con.execute(sql)
+    ws.append([d[0] for d in cur.description])
+    ws.freeze_panes = "A2"
+    n = 0
+    while chunk := cur.fetchmany(10_000):
+        for row in chunk:
+            ws.append(safe_row(ws, list(row)))
+        n += len(chunk)
+    about = wb.create_sheet("about")
+    about.append(["note"])
+    about.append([CAUTION])
+    save_workbook(wb, tmp, "harmonised")
+    return n
