@@ -14,6 +14,7 @@ import pandas as pd
 import streamlit as st
 
 from milepost.dashboard import charts, connection, queries, tables
+from milepost.validate.cells import csv_bytes
 from milepost.validate.errors import LoadError
 
 T = TypeVar("T")
@@ -225,7 +226,7 @@ def table(
     )
     st.download_button(
         "CSV",
-        data=df.to_csv(index=False).encode("utf-8"),
+        data=csv_bytes(df),  # formula-like text gets a leading ' (milepost.validate.cells)
         file_name=f"{name}.csv",
         mime="text/csv",
         key=f"{key}_csv",

@@ -111,7 +111,13 @@ def ours(path: Path) -> bool:
     if _JSON_REPORT.match(head):
         return True
     first = head.split(b"\n", 1)[0].rstrip(b"\r").decode("utf-8", "replace").lstrip("\ufeff")
-    return bool(_TEXT_REPORT.match(first)) or first in _CSV_HEADERS
+    if _TEXT_REPORT.match(first):
+        return True
+    # The CSV writers register their headers when imported; a report over an old export may come first.
+    import milepost.validate.harmonise.output
+    import milepost.validate.store.exports  # noqa: F401
+
+    return first in _CSV_HEADERS
 
 
 def _same(a: Path, b: Path) -> bool:
@@ -130,6 +136,11 @@ def check_target(path: str | Path, *, inputs: Iterable[str | Path] = (), force: 
     """
     path = Path(path)
     target = path.resolve() if path.is_symlink() else path
+    if is_database(target):
+        raise UsageError(f"refusing to write {path}: it is a DuckDB database; choose another output file")
+    owner = _database_companion(target)
+    if owner is not None:
+        raise UsageError(f"refusing to write {path}: it belongs to the database {owner}; choose another output file")
     for given in inputs:
         if _same(target, Path(given)):
             raise UsageError(f"refusing to write {path}: it is one of the input files; choose another output file")
@@ -139,11 +150,6 @@ def check_target(path: str | Path, *, inputs: Iterable[str | Path] = (), force: 
         raise UsageError(f"{path} is a folder; give a file name")
     if not target.is_file():
         return
-    if is_database(target):
-        raise UsageError(f"refusing to write {path}: it is a DuckDB database; choose another output file")
-    owner = _database_companion(target)
-    if owner is not None:
-        raise UsageError(f"refusing to write {path}: it belongs to the database {owner}; choose another output file")
     if not force and not ours(target):
         raise UsageError(
             f"refusing to overwrite {path}: it is not a file milepost wrote; choose another name, "
@@ -201,6 +207,26 @@ def mark_workbook(workbook: Any, kind: str) -> None:
     workbook.properties.creator = "milepost"
 
 
+@contextlib.contextmanager
+def building(workbook: Any, path: str | Path) -> Iterator[None]:
+    """Around filling a write-only workbook (openpyxl streams its sheets into temporary files): an OSError is an
+    OutputError naming `path`, and a failed workbook's streams are closed here, so the interpreter does not
+    finish them again at exit and print a second error with a traceback."""
+    try:
+        with writing(path):
+            yield
+    except BaseException:
+        for ws in getattr(workbook, "_sheets", ()):
+            writer = getattr(ws, "_writer", None)
+            with contextlib.suppress(Exception):
+                if writer is not None:
+                    writer.xf.close()
+            with contextlib.suppress(OSError):
+                if writer is not None and isinstance(writer.out, str):
+                    os.remove(writer.out)
+        raise
+
+
 def save_workbook(workbook: Any, path: str | Path, kind: str = "report") -> None:
     """Mark and save an openpyxl workbook to `path` (whole or not at all), going through memory.
 
@@ -209,6 +235,7 @@ def save_workbook(workbook: Any, path: str | Path, kind: str = "report") -> None
     """
     mark_workbook(workbook, kind)
     buffer = io.BytesIO()
-    workbook.save(buffer)
+    with building(workbook, path):  # openpyxl stages each sheet in a temporary file, even when saving to memory
+        workbook.save(buffer)
     with replacing(path) as tmp:
         tmp.write_bytes(buffer.getvalue())

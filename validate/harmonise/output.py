@@ -10,7 +10,7 @@ import duckdb
 from milepost.validate.cells import safe_row
 from milepost.validate.errors import OutputError, UsageError, one_line
 from milepost.validate.harmonise.notes import METHOD_COLUMNS
-from milepost.validate.outputs import MARK, check_target, ours, register_csv_header, replacing, save_workbook
+from milepost.validate.outputs import MARK, building, check_target, ours, register_csv_header, replacing, save_workbook
 from milepost.validate.sql import literal
 
 FORMATS = {".csv": "csv", ".parquet": "parquet", ".xlsx": "xlsx"}
@@ -71,9 +71,9 @@ def write_table(
     fmt = file_format(path)
     check_target(path, inputs=inputs, force=force)
     sql = _query(table)
+    if fmt == "xlsx":  # save_workbook writes beside the target and renames
+        return _write_xlsx(con, sql, path, "data" if table == "harmonised" else "methods")
     with replacing(path) as tmp:
-        if fmt == "xlsx":
-            return _write_xlsx(con, sql, tmp, "data" if table == "harmonised" else "methods")
         parquet = f"FORMAT parquet, COMPRESSION zstd, KV_METADATA {{'{MARK}': 'harmonised'}}"
         options = "FORMAT csv, HEADER" if fmt == "csv" else parquet
         try:
@@ -83,21 +83,22 @@ def write_table(
         return int(rows[0][0])
 
 
-def _write_xlsx(con: duckdb.DuckDBPyConnection, sql: str, tmp: Path, sheet: str) -> int:
+def _write_xlsx(con: duckdb.DuckDBPyConnection, sql: str, path: Path, sheet: str) -> int:
     from openpyxl import Workbook
 
     wb = Workbook(write_only=True)
-    ws = wb.create_sheet(sheet)
-    cur = con.execute(sql)
-    ws.append([d[0] for d in cur.description])
-    ws.freeze_panes = "A2"
-    n = 0
-    while chunk := cur.fetchmany(10_000):
-        for row in chunk:
-            ws.append(safe_row(ws, list(row)))
-        n += len(chunk)
-    about = wb.create_sheet("about")
-    about.append(["note"])
-    about.append([CAUTION])
-    save_workbook(wb, tmp, "harmonised")
+    with building(wb, path):
+        ws = wb.create_sheet(sheet)
+        cur = con.execute(sql)
+        ws.append([d[0] for d in cur.description])
+        ws.freeze_panes = "A2"
+        n = 0
+        while chunk := cur.fetchmany(10_000):
+            for row in chunk:
+                ws.append(safe_row(ws, list(row)))
+            n += len(chunk)
+        about = wb.create_sheet("about")
+        about.append(["note"])
+        about.append([CAUTION])
+        save_workbook(wb, path, "harmonised")
     return n

@@ -20,7 +20,15 @@ import duckdb
 from milepost.validate.cells import neutralise_sql, safe_row
 from milepost.validate.errors import OutputError, UsageError, one_line
 from milepost.validate.findings import FINDING_COLUMNS
-from milepost.validate.outputs import MARK, check_target, register_csv_header, replacing, save_workbook, writing
+from milepost.validate.outputs import (
+    MARK,
+    building,
+    check_target,
+    register_csv_header,
+    replacing,
+    save_workbook,
+    writing,
+)
 from milepost.validate.readers import sha256_of
 from milepost.validate.sql import identifier, literal
 from milepost.validate.store.database import (
@@ -262,34 +270,35 @@ def _write_xlsx(
 
     # write_only streams rows to the file instead of building every cell object in memory.
     wb = Workbook(write_only=True)
-    ws = wb.create_sheet(what)
-    cur = con.execute(sql, params)
-    header = [d[0] for d in cur.description]
-    ws.append(header)
-    ws.freeze_panes = "A2"
-    done = 0
-    while True:
-        chunk = cur.fetchmany(10_000)
-        if not chunk:
-            break
-        for row in chunk:
-            ws.append(safe_row(ws, list(row)))
-        done += len(chunk)
-        if progress is not None:
-            progress(done, total)
-    about = wb.create_sheet("about")
-    about.append(["milepost export", what])
-    about.append(safe_row(about, ["database", str(db)]))
-    about.append(safe_row(about, ["filters", json.dumps(filters.to_dict(), ensure_ascii=False)]))
-    if note:
-        about.append(safe_row(about, ["rule", note]))
-    about.append(["exported at (UTC)", time.strftime("%Y-%m-%d %H:%M:%S", time.gmtime())])
-    for line in CAUTIONS:
-        about.append(["caution", line])
-    if what == "indicators":
-        for line in INDICATOR_BASIS:
-            about.append(["basis", line])
-    save_workbook(wb, output, "export")
+    with building(wb, output):
+        ws = wb.create_sheet(what)
+        cur = con.execute(sql, params)
+        header = [d[0] for d in cur.description]
+        ws.append(header)
+        ws.freeze_panes = "A2"
+        done = 0
+        while True:
+            chunk = cur.fetchmany(10_000)
+            if not chunk:
+                break
+            for row in chunk:
+                ws.append(safe_row(ws, list(row)))
+            done += len(chunk)
+            if progress is not None:
+                progress(done, total)
+        about = wb.create_sheet("about")
+        about.append(["milepost export", what])
+        about.append(safe_row(about, ["database", str(db)]))
+        about.append(safe_row(about, ["filters", json.dumps(filters.to_dict(), ensure_ascii=False)]))
+        if note:
+            about.append(safe_row(about, ["rule", note]))
+        about.append(["exported at (UTC)", time.strftime("%Y-%m-%d %H:%M:%S", time.gmtime())])
+        for line in CAUTIONS:
+            about.append(["caution", line])
+        if what == "indicators":
+            for line in INDICATOR_BASIS:
+                about.append(["basis", line])
+        save_workbook(wb, output, "export")
 
 
 # ---------------------------------------------------------------- snapshot
