@@ -82,7 +82,8 @@ def neutralise_frame(frame: Any) -> Any:
 
 def csv_bytes(frame: Any, *, raw_text: bool = False) -> bytes:
     """A frame as UTF-8 CSV for a download: formula-safe unless `raw_text` (the dashboard's CSV buttons)."""
-    return (frame if raw_text else neutralise_frame(frame)).to_csv(index=False).encode("utf-8")
+    text: str = (frame if raw_text else neutralise_frame(frame)).to_csv(index=False)
+    return text.encode("utf-8")
 
 
 def xlsx_text(text: str) -> str:
@@ -99,6 +100,8 @@ def text_cell(ws: Any, value: Any) -> Any:
     """A cell for a write-only sheet's `append`: text is stored as text (never a formula), numbers as numbers."""
     if not isinstance(value, str):
         return value
+    if not value.startswith(FORMULA_START):
+        return xlsx_text(value)  # openpyxl stores it as text already; only '=' would make a formula
     from openpyxl.cell import WriteOnlyCell
 
     cell = WriteOnlyCell(ws, value=xlsx_text(value))

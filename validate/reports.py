@@ -333,7 +333,7 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error", *, fo
     link_font = Font(color="FF0563C1", underline="single")
     line_col = XLSX_FINDING_COLUMNS.index("line") + 1
     cell_col = XLSX_FINDING_COLUMNS.index("cell") + 1
-    for r, f in enumerate(result.findings, start=2):
+    for at, f in enumerate(result.findings, start=2):
         copy = copies.get((f.path or "", f.sheet)) or copies.get((f.path or "", None))
         ref = row_value = None
         if copy is not None and f.line is not None:
@@ -345,21 +345,21 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error", *, fo
             cells = lines.get(f.line)
             if cells is not None and "value" in lower and lower["value"] - 1 < len(cells):
                 row_value = _number(cells[lower["value"] - 1], False)
-        row = f.to_dict()
+        record = f.to_dict()
         values = {
-            **row,
+            **record,
             "cell": ref,
-            "found": row["value"],
+            "found": record["value"],
             "value": row_value,
             "message": one_line(f.message),
             "hint": one_line(f.hint) if f.hint else None,
         }
         for j, name in enumerate(XLSX_FINDING_COLUMNS, start=1):
-            set_text(fs.cell(row=r, column=j), values[name])
+            set_text(fs.cell(row=at, column=j), values[name])
         if ref is not None and copy is not None:
             location = f"'{copy[0]}'!{ref}"
             for j in (line_col, cell_col):
-                c = fs.cell(row=r, column=j)
+                c = fs.cell(row=at, column=j)
                 c.hyperlink = Hyperlink(ref=c.coordinate, location=location, tooltip=f"go to {location}")
                 c.font = link_font
     fs.auto_filter.ref = fs.dimensions

@@ -173,7 +173,7 @@ def _workbook(contract: Contract) -> Any:
     info = wb.create_sheet("variables")
     info.append(["variable", "unit", "other units", "required", "sign", "regions", "parts", "description"])
     for r, var in enumerate(contract.variables.values(), start=2):
-        row = [
+        row: list[Any] = [
             var.name,
             var.unit,
             ", ".join(choices[var.name][1:]),

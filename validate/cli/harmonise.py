@@ -100,12 +100,12 @@ def harmonise_cmd(
     file_format(methods_path)
     if methods_path.resolve() == output.resolve():
         raise typer.BadParameter("the output must be a new file, not the methods table")
-    again = earlier_output(output, methods_path)  # re-running over its own earlier output needs no --force
+    rerun = earlier_output(output, methods_path)  # re-running over its own earlier output needs no --force
     for target in (output, methods_path):  # before the check: a wrong -o is known at once
-        check_target(target, inputs=files, force=force or again)
+        check_target(target, inputs=files, force=force or rerun)
     checked = run_check(files, c, progress=True)
     result = harmonise(checked.con, c, method=chosen, converge_year=convergence_year)
-    rows = write_table(checked.con, "harmonised", output, inputs=files, force=force or again)
+    rows = write_table(checked.con, "harmonised", output, inputs=files, force=force or rerun)
     write_table(checked.con, "harmonise_methods", methods_path, inputs=files, force=force)
     input_errors = checked.counts.get("error", 0)
     recheck: dict[str, Any] | None = None
