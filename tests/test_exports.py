@@ -151,6 +151,16 @@ def test_xlsx_export_has_the_rows_and_the_cautions(tmp_path: Path, db) -> None:
     assert not [r for r in about if r[0] == "basis"]  # the indicator conventions go with indicator exports only
 
 
+def test_an_xlsx_export_reports_its_progress(tmp_path: Path, db) -> None:
+    heard: list[tuple[int, int]] = []
+    n = export(
+        db, "data", "xlsx", tmp_path / "d.xlsx", Filters(model=["Ferrow"]), progress=lambda d, t: heard.append((d, t))
+    )
+    assert n > 10_000  # more than one chunk, so more than one report
+    assert len(heard) >= 2 and heard[-1] == (n, n)
+    assert [d for d, _ in heard] == sorted(d for d, _ in heard)
+
+
 def test_xlsx_indicator_export_states_the_conventions(tmp_path: Path, db) -> None:
     out = tmp_path / "i.xlsx"
     export(db, "indicators", "xlsx", out, Filters(model=["Ferrow"], region=["World"], variable=["gdp.mer"]))
