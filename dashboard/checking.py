@@ -36,8 +36,10 @@ class CheckedUpload:
         """The XLSX report (summary, findings, marked copies of the files), built on demand."""
         from milepost.validate import reports
 
-        out = Path(self.dir.name) / "report.xlsx"
-        reports.to_xlsx(self.result, out)
+        # A folder of its own: an upload may be called report.xlsx too, and a report never replaces an input.
+        out = Path(self.dir.name) / "report" / "milepost-check.xlsx"
+        out.parent.mkdir(exist_ok=True)
+        reports.to_xlsx(self.result, out, force=True)
         return out.read_bytes()
 
     def close(self) -> None:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import io
 import os
 import resource
 import shutil
@@ -255,3 +256,23 @@ def test_ours_tells_our_files_from_others(tmp_path: Path) -> None:
         "sub.csv": False,
         "text.txt": True,
     }
+
+
+def test_the_self_checks_report_is_never_written_over_an_upload(tmp_path: Path, basic) -> None:
+    from milepost.dashboard.checking import CheckedUpload
+
+    sub = tmp_path / "report.xlsx"  # an upload that happens to carry the report's name
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    rows = consistent_rows(basic)
+    ws.append(list(rows[0]))
+    for r in rows:
+        ws.append(list(r.values()))
+    wb.save(sub)
+    upload = CheckedUpload([("report.xlsx", sub.read_bytes())], basic)
+    try:
+        report = openpyxl.load_workbook(io.BytesIO(upload.xlsx()))
+        assert report.sheetnames[:2] == ["summary", "findings"] and "copy 1" in report.sheetnames
+        assert upload.xlsx() and upload.result.inputs[0].rows == len(rows)  # the upload itself is intact
+    finally:
+        upload.close()
