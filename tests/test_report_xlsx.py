@@ -20,6 +20,8 @@ def report(tmp_path_factory: pytest.TempPathFactory, basic) -> tuple[openpyxl.Wo
     rows = consistent_rows(basic)
     rows[20]["variable"] = "emisions.co2"
     rows[30]["value"] = "12,5x"
+    methane = next(i for i, r in enumerate(rows) if r["variable"] == "emissions.ch4" and r["region"] == "Estrel")
+    rows[methane]["value"] = -4.0
     data = write_csv(folder / "sub.csv", rows)
     result = run_check([data], basic)
     out = to_xlsx(result, folder / "report.xlsx")
@@ -62,6 +64,10 @@ def test_each_finding_links_to_its_cell_in_the_copy(report) -> None:
     assert target.value == "emisions.co2" and "unknown-variable" in target.comment.text
     bad = next(f for f in found if f["rule"].value == "bad-value")
     assert bad["cell"].value == "G32" and bad["line"].hyperlink.location == "'copy 1'!G32"
+    assert bad["found"].value == "12,5x"  # not a number: the text as written
+    sign = next(f for f in found if f["rule"].value == "sign")
+    assert sign["found"].value == -4 and sign["found"].data_type == "n"  # a negative number stays a number
+    assert sign["value"].value == -4 and sign["line"].hyperlink.location == f"'copy 1'!G{sign['line'].value}"
 
 
 def test_the_offending_text_and_the_rows_value_have_their_own_columns(report) -> None:

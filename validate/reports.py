@@ -229,6 +229,14 @@ def _number(text: Any, whole: bool) -> Any:
     return text
 
 
+def _found(text: Any, column: str | None) -> Any:
+    """The offending cell for the findings sheet: a number where it is one of a numeric column, else the text."""
+    name = (column or "").strip().lower()
+    if name in ("value", "year") or _YEAR_HEADER.fullmatch(name):
+        return _number(text, name == "year")
+    return text
+
+
 def _widths(sheet: Any, header: list[str], rows: list[tuple[int, list[Any]]], fixed: dict[str, int]) -> None:
     from openpyxl.utils import get_column_letter
 
@@ -349,7 +357,7 @@ def to_xlsx(result: CheckResult, path: str | Path, fail_on: str = "error", *, fo
         values = {
             **record,
             "cell": ref,
-            "found": record["value"],
+            "found": _found(record["value"], f.column_name),
             "value": row_value,
             "message": one_line(f.message),
             "hint": one_line(f.hint) if f.hint else None,
