@@ -63,6 +63,8 @@ def test_the_scenarios_sheet_has_the_contract_attributes(template, demo_contract
     header = [c.value for c in template["scenarios"][1]]
     assert header[:3] == ["model", "scenario", "reference"]
     assert set(demo_contract.pairs.match) | {demo_contract.pairs.order} <= set(header)
+    (reference,) = template["scenarios"].data_validations.dataValidation
+    assert str(reference.sqref) == f"C2:C{SHEET_ROWS}" and reference.formula1 == f"=$B$2:$B${SHEET_ROWS}"
 
 
 def test_a_listed_unit_is_one_the_checker_converts(tmp_path: Path, basic, check) -> None:

@@ -195,6 +195,18 @@ def _workbook(contract: Contract) -> Any:
         c.font = bold
         sc.column_dimensions[c.column_letter].width = max(14, len(str(c.value)) + 2)
     sc.freeze_panes = "A2"
+    # A reference names another scenario of the same submission: offer the scenario column as its list.
+    rv = DataValidation(
+        type="list",
+        formula1=f"=$B$2:$B${SHEET_ROWS}",
+        allow_blank=True,
+        showErrorMessage=True,
+        errorStyle="warning",
+        error="The reference should be a scenario listed in column B (its no-policy scenario).",
+        errorTitle="reference",
+    )
+    sc.add_data_validation(rv)
+    rv.add(f"C2:C{SHEET_ROWS}")
     info["A1"].font = bold
     for c in info[1]:
         c.font = bold
