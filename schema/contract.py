@@ -79,6 +79,19 @@ class Harmonise:
 
 
 @dataclass(frozen=True)
+class Allocation:
+    """How the burden-sharing indicators allocate a market's cap (contract.toml `[allocation]`).
+
+    Contraction and convergence moves each region's share linearly from its base-year share of emissions
+    (grandfathering) to its share of population (equal per capita) between the base year and `convergence_year`.
+    `region` is the market: its own emissions are the cap, its direct parts the traders.
+    """
+
+    convergence_year: int = 2050
+    region: str = "World"
+
+
+@dataclass(frozen=True)
 class Reference:
     region: str
     variable: str
@@ -160,6 +173,7 @@ class Contract:
     harmonise: Harmonise = Harmonise()
     budgets: Budgets | None = None
     pairs: Pairing | None = None
+    allocation: Allocation = Allocation()
     problems: tuple[str, ...] = field(default=(), compare=False)
     hash: str = ""
     units: Any = field(default=None, compare=False, repr=False)
@@ -205,6 +219,7 @@ class Contract:
             "harmonise": {**asdict(self.harmonise), "variables": list(self.harmonise.variables)},
             "budgets": asdict(self.budgets) if self.budgets else None,
             "pairs": asdict(self.pairs) if self.pairs else None,
+            "allocation": asdict(self.allocation),
         }
 
     def references_in_contract_units(self) -> tuple[Reference, ...]:
@@ -328,6 +343,22 @@ def _harmonise_settings(table: Any, where: str) -> Harmonise:
         tuple(patterns),
         method if method is not None else default.method,
         year if year is not None else default.converge_year,
+    )
+
+
+def _allocation(table: Any, where: str) -> Allocation:
+    """The [allocation] table of contract.toml: types are checked here, the values by contract lint."""
+    if not isinstance(table, dict):
+        raise ContractError(f"{where}: [allocation] must be a table")
+    unknown = sorted(set(table) - set(Allocation.__dataclass_fields__))
+    if unknown:
+        raise ContractError(f"{where}: [allocation] has unknown keys {', '.join(unknown)}")
+    default = Allocation()
+    year = _optional_year(table.get("convergence_year"), f"{where}: [allocation] convergence_year")
+    region = _optional_text(table.get("region"), f"{where}: [allocation] region")
+    return Allocation(
+        year if year is not None else default.convergence_year,
+        region if region is not None else default.region,
     )
 
 
@@ -579,6 +610,7 @@ def _resolve(
         harmonise=_harmonise_settings(head.get("harmonise", {}), where),
         budgets=_budgets(head.get("budgets"), where),
         pairs=_pairing(head.get("pairs"), where),
+        allocation=_allocation(head.get("allocation", {}), where),
         problems=tuple(problems),
         units=units,
     )

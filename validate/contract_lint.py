@@ -189,6 +189,7 @@ def lint(contract: Contract) -> list[Finding]:
         if not c.is_region(name):
             out.append(_f("contract-reference", f"required region {name!r} is not a region of the contract", path=src))
     out.extend(_budget_problems(c, src))
+    out.extend(_allocation_problems(c, src))
     for rule, sev in c.severity.items():
         if rule not in RULES or sev not in SEVERITIES:
             out.append(
@@ -279,6 +280,21 @@ def _budget_problems(c: Contract, src: str | None) -> list[Finding]:
     if not 0 < low <= b.tcre <= high:
         out.append(f"[budgets] tcre {b.tcre:g} must be positive and inside its likely range {low:g}-{high:g}")
     return [_f("contract-budget", m, "See schema/core/contract.toml for the shape.", path=src) for m in out]
+
+
+def _allocation_problems(c: Contract, src: str | None) -> list[Finding]:
+    """contract-allocation: contraction and convergence needs a year after the base year to converge by, and the
+    market needs a region whose direct parts trade."""
+    a = c.allocation
+    out: list[str] = []
+    if a.convergence_year <= c.base_year:
+        out.append(f"[allocation] convergence_year {a.convergence_year} must be after the base year {c.base_year}")
+    if a.region not in c.regions:
+        out.append(f"[allocation] region {a.region!r} is not a region of the contract")
+    elif not c.regions[a.region].parts:
+        out.append(f"[allocation] region {a.region!r} has no parts: there is no one to trade with")
+    hint = "Give e.g. [allocation] convergence_year = 2050 (regions: the contract's regions.toml)."
+    return [_f("contract-allocation", m, hint, path=src) for m in out]
 
 
 def _cache_dir() -> Path:

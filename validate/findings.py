@@ -135,6 +135,13 @@ RULES: dict[str, Rule] = {
             "contract",
             "The carbon-budget table is inconsistent: its year, region, likelihoods, budgets or TCRE.",
         ),
+        Rule(
+            "contract-allocation",
+            "error",
+            "contract",
+            "The burden-sharing settings are unusable: a convergence year not after the base year, or a market "
+            "region that is not a region with parts.",
+        ),
     )
 }
 

@@ -27,14 +27,15 @@ import duckdb
 
 from milepost.schema.contract import Contract
 from milepost.validate.sql import qualified
-from milepost.validate.store.indicators import budgets, costs, cumulative, levels, rates, timing
-from milepost.validate.store.indicators.base import Kind
+from milepost.validate.store.indicators import budgets, burden, costs, cumulative, drivers, levels, rates, timing
+from milepost.validate.store.indicators.base import Kind, Tables
 from milepost.validate.store.indicators.definitions import IndicatorSpecError, Plan, load_definitions, resolve
 from milepost.validate.store.indicators.interpolation import IndicatorDataError, drop_helpers, prepare
 
 __all__ = [
     "COLUMNS",
     "FAMILIES",
+    "GAP_COLUMNS",
     "KINDS",
     "IndicatorDataError",
     "IndicatorSpecError",
@@ -43,7 +44,7 @@ __all__ = [
     "plan",
 ]
 
-FAMILIES = (levels, rates, cumulative, timing, costs, budgets)
+FAMILIES = (levels, rates, cumulative, timing, costs, budgets, drivers, burden)
 KINDS: dict[str, Kind] = {k.name: k for family in FAMILIES for k in family.KINDS}
 COLUMNS = (
     ("model", "VARCHAR"),
@@ -57,6 +58,17 @@ COLUMNS = (
     ("unit", "VARCHAR"),
     ("note", "VARCHAR"),
 )
+# A kind that needs several input series (drivers, burden) and lacks one for a scenario writes no rows for it but
+# one row here saying which input is missing (never a zero, never a silent gap).
+GAP_COLUMNS = (
+    ("model", "VARCHAR"),
+    ("scenario", "VARCHAR"),
+    ("region", "VARCHAR"),
+    ("kind", "VARCHAR"),
+    ("variable", "VARCHAR"),
+    ("note", "VARCHAR"),
+)
+GAP_FAMILIES = (drivers, burden)
 
 
 def plan(contract: Contract, definitions: str | Path | None = None) -> Plan:
@@ -75,19 +87,37 @@ def compute_indicators(
 ) -> int:
     """Create or replace TEMP TABLE `target` with every indicator of `data` and return its row count.
 
+    TEMP TABLE `target`_gaps gets the gaps (GAP_COLUMNS): kinds left out of a scenario for a missing input.
     `data` and `scenarios` name tables or views on `con`. `definitions` overrides schema/indicators.toml.
     Raises IndicatorSpecError for unusable definitions and IndicatorDataError for conflicting repeated rows.
     """
     resolved = plan(contract, definitions)
     out = qualified(target)
     columns = ", ".join(f"{name} {sql_type}" for name, sql_type in COLUMNS)
+    kinds = resolved.kinds()
+    inputs, unavailable = drivers.input_rows(contract)
     try:
         tables = prepare(
-            con, data, scenarios, resolved.selection, resolved.periods, contract.base_year, contract.discount_rate
+            con,
+            data,
+            scenarios,
+            [*resolved.selection, *inputs],
+            resolved.periods,
+            contract.base_year,
+            contract.discount_rate,
         )
         levels_table, pieces_table = budgets.prepare_budgets(con, contract.budgets)
-        tables = replace(tables, budget_levels=levels_table, budget_pieces=pieces_table)
-        parts = [KINDS[kind].sql(tables) for kind in resolved.kinds()]
+        inputs_table, _ = drivers.prepare_inputs(con, tables, inputs, unavailable)
+        tables = replace(
+            tables,
+            budget_levels=levels_table,
+            budget_pieces=pieces_table,
+            inputs=inputs_table,
+            market=burden.prepare_market(con, contract),
+            convergence_year=contract.allocation.convergence_year,
+        )
+        _store_gaps(con, tables, kinds, f"{target}_gaps")
+        parts = [KINDS[kind].sql(tables) for kind in kinds]
         if parts:
             # BY NAME: a kind without notes leaves out the `note` column and gets nulls there
             notes = "SELECT NULL::VARCHAR AS note WHERE false"  # so that the column exists when no kind has notes
@@ -100,3 +130,14 @@ def compute_indicators(
     finally:
         drop_helpers(con)
         budgets.drop_budgets(con)
+        drivers.drop_inputs(con)
+        burden.drop_market(con)
+
+
+def _store_gaps(con: duckdb.DuckDBPyConnection, tables: Tables, kinds: tuple[str, ...], target: str) -> None:
+    out = qualified(target)
+    columns = ", ".join(f"{name} {sql_type}" for name, sql_type in GAP_COLUMNS)
+    con.execute(f"CREATE OR REPLACE TEMP TABLE {out} ({columns})")
+    names = ", ".join(name for name, _ in GAP_COLUMNS)
+    for family in GAP_FAMILIES:
+        con.execute(f"INSERT INTO {out} ({names}) SELECT {names} FROM ({family.gaps(tables, kinds)})")

@@ -1,0 +1,184 @@
+"""Burden sharing: allowances under three allocation rules, the permits each region sells, and the money moved.
+
+The market is the contract's `[allocation] region` (World) and its direct parts trade. Its cap in each year is the
+scenario's own emissions.ghg of the market region. Each rule gives region r a share s_r(t) of the cap:
+
+grandfathering  its share of the regions' summed emissions.ghg in the base year
+per_capita      its share of the regions' summed population in that year (equal per capita)
+convergence     contraction and convergence: (1 - w) x grandfathering + w x per_capita, w rising linearly from 0
+                in the base year to 1 in `[allocation] convergence_year` (default 2050), 1 afterwards
+
+At each milestone, per region and rule (the rule in the variable column):
+allowance         s_r(t) x cap(t), Mt CO2e
+permits_sold      allowance - the region's emissions.ghg, Mt CO2e (negative = it buys permits)
+transfer          permits_sold x the market region's price.carbon / 1000, billion USD_2015/yr (positive = it
+                  receives money); the sum over regions is zero when the regions' emissions add up to the cap
+cost_after_trade  the region's cost.abatement minus its transfer, billion USD_2015/yr (its cost without trade is
+                  the `value` of cost.abatement)
+and for the market region: market_permits (permits traded: the sum of the positive permits_sold, Mt CO2e) and
+market_value (money moved: the sum of the positive transfers, billion USD_2015/yr).
+
+A scenario lacking an input (the cap, a region's emissions or population, the carbon price, a region's abatement
+cost) gets no rows of the kinds needing it and a gap row saying which input is missing. Allocation rules are
+illustrations of equity principles, not negotiated shares; costs exclude avoided damages and co-benefits.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import duckdb
+
+from milepost.schema.contract import Contract
+from milepost.validate.sql import literal
+from milepost.validate.store.indicators.base import Kind, Tables
+from milepost.validate.store.indicators.drivers import PREFIX, gaps_sql
+
+MARKET = PREFIX + "market"
+RULES = ("grandfathering", "per_capita", "convergence")
+# kind -> the inputs it needs besides emissions.ghg (the cap and every region's) and, but for grandfathering,
+# every region's population
+NEEDS: dict[str, tuple[str, ...]] = {
+    "allowance": (),
+    "permits_sold": (),
+    "transfer": ("price",),
+    "cost_after_trade": ("price", "cost"),
+    "market_permits": (),
+    "market_value": ("price",),
+}
+SELECTED_BY = "emissions.ghg"
+COLUMN = {
+    "allowance": "allowance",
+    "permits_sold": "permits",
+    "transfer": "transfer",
+    "cost_after_trade": "cost_after",
+}
+
+
+def prepare_market(con: duckdb.DuckDBPyConnection, contract: Contract) -> str:
+    """Create the table of trading regions (region, market) and return its name."""
+    con.execute(f"DROP TABLE IF EXISTS {MARKET}")
+    market = contract.allocation.region
+    parts = list(contract.regions[market].parts) if market in contract.regions else []
+    con.execute(
+        f"CREATE TEMP TABLE {MARKET} AS SELECT unnest(?::VARCHAR[]) AS region, ?::VARCHAR AS market",
+        [parts, market],
+    )
+    return MARKET
+
+
+def drop_market(con: duckdb.DuckDBPyConnection) -> None:
+    con.execute(f"DROP TABLE IF EXISTS {MARKET}")
+
+
+def _complete(t: Tables) -> str:
+    """Per scenario: whether the market region and every trading region report each input (columns as roles)."""
+    return (
+        "SELECT m.model, m.scenario, k.market AS region,"
+        " bool_and(w.ghg IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {market}) AND"
+        " any_value(m.ghg IS NOT NULL) AS ghg,"
+        " bool_and(w.pop IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {market}) AS pop,"
+        " any_value(m.price IS NOT NULL) AS price,"
+        " bool_and(w.cost IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {market}) AS cost"
+        " FROM {inputs} m JOIN (SELECT DISTINCT market FROM {market}) k ON k.market = m.region"
+        " CROSS JOIN {market} r"
+        " LEFT JOIN {inputs} w ON w.model = m.model AND w.scenario = m.scenario AND w.region = r.region"
+        " GROUP BY m.model, m.scenario, k.market"
+    ).format(market=t.market, inputs=t.inputs)
+
+
+def shares(t: Tables, kind: str) -> str:
+    """SELECT one row per (scenario, trading region, rule, milestone of `kind`) with allowance, emissions,
+    permits, transfer, cost_after (null where the price or cost is missing) and the market region."""
+    base, conv = t.base_year, t.convergence_year
+    b = t.base_index
+    w = f"least(greatest((p.year_to - {base}) / ({conv} - {base})::DOUBLE, 0.0), 1.0)"
+    per_region = (
+        "SELECT c.model, c.scenario, r.region, k.market, p.year_from, p.year_to, x.unit, p.i_to, c.pop AS pop_ok,"
+        f" w.ghg[{b}] / sum(w.ghg[{b}]) OVER sc AS gf, w.pop[p.i_to] / sum(w.pop[p.i_to]) OVER sc AS pc,"
+        f" {w} AS weight, m.ghg[p.i_to] AS cap, w.ghg[p.i_to] AS emitted, m.price[p.i_to] AS price,"
+        " w.cost[p.i_to] AS cost"
+        f" FROM ({_complete(t)}) c JOIN {t.market} r ON r.market = c.region"
+        " JOIN (SELECT DISTINCT market FROM {market}) k ON k.market = c.region".format(market=t.market)
+        + f" JOIN {t.inputs} m ON m.model = c.model AND m.scenario = c.scenario AND m.region = c.region"
+        f" JOIN {t.inputs} w ON w.model = c.model AND w.scenario = c.scenario AND w.region = r.region"
+        f" JOIN {t.selection} x ON x.kind = {literal(kind)} AND x.variable = {literal(SELECTED_BY)}"
+        f" JOIN {t.periods} p ON p.kind = {literal(kind)}"
+        " WHERE c.ghg"
+        " WINDOW sc AS (PARTITION BY c.model, c.scenario, p.year_to)"
+    )
+    share = (
+        "CASE rule WHEN 'grandfathering' THEN gf WHEN 'per_capita' THEN pc ELSE (1 - weight) * gf + weight * pc END"
+    )
+    allowance = f"({share}) * cap"
+    return (
+        f"SELECT *, {allowance} AS allowance, {allowance} - emitted AS permits,"
+        f" ({allowance} - emitted) * price / 1000 AS transfer, cost - ({allowance} - emitted) * price / 1000"
+        f" AS cost_after FROM ({per_region}) CROSS JOIN (SELECT unnest({literal_rules()}) AS rule)"
+        " WHERE pop_ok OR rule = 'grandfathering'"
+    )
+
+
+def literal_rules() -> str:
+    return "[" + ", ".join(literal(r) for r in RULES) + "]"
+
+
+def _note(t: Tables) -> str:
+    return (
+        "CASE rule WHEN 'grandfathering' THEN 'shares of base-year emissions.ghg'"
+        " WHEN 'per_capita' THEN 'shares of population in ' || year_to"
+        f" ELSE 'shares moving from base-year emissions to population, equal per capita by {t.convergence_year}'"
+        " END || '; an illustration of an equity principle, not a negotiated share'"
+    )
+
+
+def region_sql(kind: str) -> Callable[[Tables], str]:
+    """The SQL function of one per-region kind."""
+
+    def sql(t: Tables) -> str:
+        return (
+            f"SELECT model, scenario, region, {literal(kind)} AS kind, rule AS variable, year_from, year_to,"
+            f" {COLUMN[kind]} AS value, unit, {_note(t)} AS note FROM ({shares(t, kind)})"
+            + _present(kind)
+        )
+
+    return sql
+
+
+def market_sql(kind: str, column: str) -> Callable[[Tables], str]:
+    """The SQL function of a market-size kind: the sum of the positive `column` over the trading regions."""
+
+    def sql(t: Tables) -> str:
+        where = _present(kind)
+        return (
+            f"SELECT model, scenario, market AS region, {literal(kind)} AS kind, rule AS variable, year_from,"
+            f" year_to, sum(greatest({column}, 0)) AS value, any_value(unit) AS unit"
+            f" FROM ({shares(t, kind)}){where} GROUP BY model, scenario, market, rule, year_from, year_to"
+        )
+
+    return sql
+
+
+def _present(kind: str) -> str:
+    """WHERE clause keeping the rows whose scenario reports the price and cost the kind needs."""
+    needs = [f"{role} IS NOT NULL" for role in NEEDS[kind]]
+    return (" WHERE " + " AND ".join(needs)) if needs else ""
+
+
+def gaps(t: Tables, kinds: tuple[str, ...]) -> str:
+    """The gaps of the burden kinds among `kinds`: per scenario at the market region, per rule."""
+    wanted = [
+        (k, rule, role)
+        for k in kinds
+        if k in NEEDS
+        for rule in RULES
+        for role in ("ghg", *(() if rule == "grandfathering" else ("pop",)), *NEEDS[k])
+    ]
+    return gaps_sql(wanted, f"({_complete(t)})", " for the market region and each of its parts")
+
+
+KINDS = (
+    *(Kind(k, ("milestones", "points"), "label", region_sql(k)) for k in COLUMN),
+    Kind("market_permits", ("milestones", "points"), "label", market_sql("market_permits", "permits")),
+    Kind("market_value", ("milestones", "points"), "label", market_sql("market_value", "transfer")),
+)
