@@ -1,5 +1,5 @@
 -- Milepost scenario database: the complete current schema (tables and views).
--- schema_version: 5
+-- schema_version: 6
 -- A new database is built from this file; an older one is brought here by the numbered files in migrations/.
 -- Every change here needs a new migrations/NNNN_*.sql that makes the same change (tests compare the two).
 
@@ -85,6 +85,18 @@ CREATE TABLE indicators (
     basis VARCHAR DEFAULT 'raw' -- the basis of the data the indicator was computed from
 );
 
+-- Indicator kinds left out of a scenario because an input series is missing (drivers, burden sharing).
+CREATE TABLE indicator_gaps (
+    submission_id INTEGER,
+    model VARCHAR,
+    scenario VARCHAR,
+    region VARCHAR,
+    kind VARCHAR,
+    variable VARCHAR,  -- as in the kind's rows (the allocation rule for burden kinds)
+    note VARCHAR,      -- which input is missing, and that the kind is not computed
+    basis VARCHAR DEFAULT 'raw'
+);
+
 -- The method used for each series of a harmonised submission (`milepost ingest --harmonise`).
 CREATE TABLE harmonisation (
     submission_id INTEGER,
@@ -157,3 +169,14 @@ SELECT h.submission_id, h.model, h.scenario, h.region, h.variable, h.unit, h.met
        h.offset_value, h.convergence_year, h.base_value, h.reference_value, h.note
 FROM harmonisation AS h
 JOIN current_versions AS c ON c.submission_id = h.submission_id AND c.model = h.model AND c.scenario = h.scenario;
+
+CREATE VIEW current_indicator_gaps AS
+SELECT g.submission_id, g.model, g.scenario, g.region, g.kind, g.variable, g.note
+FROM indicator_gaps AS g
+JOIN current_versions AS c ON c.submission_id = g.submission_id AND c.model = g.model AND c.scenario = g.scenario
+WHERE g.basis = 'raw';
+
+CREATE VIEW current_indicator_gaps_by_basis AS
+SELECT g.submission_id, g.model, g.scenario, g.region, g.kind, g.variable, g.note, g.basis
+FROM indicator_gaps AS g
+JOIN current_versions AS c ON c.submission_id = g.submission_id AND c.model = g.model AND c.scenario = g.scenario;

@@ -16,7 +16,7 @@ from milepost.validate.findings import FINDING_COLUMNS, FINDING_TYPES
 from milepost.validate.store import database as dbm
 from milepost.validate.store import exports, ingest
 
-TABLES = {"meta", "submissions", "findings", "data", "scenarios", "indicators", "harmonisation"}
+TABLES = {"meta", "submissions", "findings", "data", "scenarios", "indicators", "harmonisation", "indicator_gaps"}
 VIEWS = {
     "current_versions",
     "current_data",
@@ -26,6 +26,8 @@ VIEWS = {
     "current_data_by_basis",
     "current_indicators_by_basis",
     "current_harmonisation",
+    "current_indicator_gaps",
+    "current_indicator_gaps_by_basis",
 }
 
 

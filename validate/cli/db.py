@@ -32,6 +32,7 @@ DbOption = Annotated[
 class What(StrEnum):
     data = "data"
     indicators = "indicators"
+    gaps = "gaps"
     findings = "findings"
     pairs = "pairs"
 
@@ -202,7 +203,8 @@ def export_cmd(
         What,
         typer.Option(
             "--what",
-            help="Which rows: current data, current indicators, the findings of every submission, or pairs "
+            help="Which rows: current data, current indicators, indicator gaps (kinds left out for a missing "
+            "input), the findings of every submission, or pairs "
             "(each delayed scenario's indicators beside its earliest sibling's).",
             show_default=False,
         ),
@@ -218,7 +220,7 @@ def export_cmd(
         list[int] | None, typer.Option("--submission", help="Rows of this submission, current or not (repeatable).")
     ] = None,
     basis: Annotated[
-        Basis, typer.Option("--basis", help="Data and indicators as submitted (raw) or harmonised.")
+        Basis, typer.Option("--basis", help="Data, indicators and gaps as submitted (raw) or harmonised.")
     ] = Basis.raw,
     contract: Annotated[
         Path | None,

@@ -57,6 +57,10 @@ INDICATOR_BASIS = (
     "rate_absolute: the variable's unit per year; rate_cagr: compound %/yr. Negative = falling.",
     "loss_pct, growth_reduction_pp: against each model's own reference scenario named in the scenarios table "
     "(see note), which may differ from a current-policies pathway.",
+    "lmdi_*: additive LMDI-I effects (Ang 2005) of the Kaya factors on fossil CO2, base year to year_to, Mt CO2; "
+    "the four sum to the change. A scenario lacking an input has none (see --what gaps).",
+    "allowance, permits_sold (Mt CO2e), transfer, cost_after_trade (billion USD_2015/yr) per allocation rule "
+    "(variable): illustrations of equity principles, not negotiated shares.",
 )
 DATA_COLUMNS = ("submission_id", "model", "scenario", "region", "variable", "unit", "year", "value")
 INDICATOR_COLUMNS = (
@@ -73,6 +77,7 @@ INDICATOR_COLUMNS = (
     "note",
 )
 STORED_FINDING_COLUMNS = ("submission_id", *FINDING_COLUMNS)
+GAP_COLUMNS = ("submission_id", "model", "scenario", "region", "kind", "variable", "note")
 # what -> (current view, stored table, columns, sort order)
 EXPORTS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
     "data": ("current_data", "data", DATA_COLUMNS, "model, scenario, region, variable, year"),
@@ -81,6 +86,12 @@ EXPORTS: dict[str, tuple[str, str, tuple[str, ...], str]] = {
         "indicators",
         INDICATOR_COLUMNS,
         "model, scenario, region, kind, variable, year_from, year_to",
+    ),
+    "gaps": (
+        "current_indicator_gaps",
+        "indicator_gaps",
+        GAP_COLUMNS,
+        "model, scenario, region, kind, variable",
     ),
     "findings": (
         "findings",
@@ -109,7 +120,7 @@ class Filters:
     region: Sequence[str] = ()
     variable: Sequence[str] = ()
     submission: Sequence[int] = ()
-    basis: str = "raw"  # one of BASES; only data and indicators have one
+    basis: str = "raw"  # one of BASES; only data, indicators and gaps have one
 
     def where(self, with_basis: bool = False) -> tuple[str, list[Any]]:
         """A WHERE clause with `?` placeholders, and its parameters; `with_basis` adds the basis filter."""
@@ -148,7 +159,11 @@ def export_query(what: str, filters: Filters, con: duckdb.DuckDBPyConnection | N
     if filters.basis not in BASES:
         raise UsageError(f"--basis must be one of {', '.join(BASES)}, not {filters.basis!r}")
     view, table, columns, order = EXPORTS[what]
-    with_basis = what in ("data", "indicators")
+    with_basis = what in ("data", "indicators", "gaps")
+    if what == "gaps" and con is not None and not stored_columns(con, table):
+        # a database not migrated to schema 6 yet (readers do not migrate) has no gaps table: nothing to export
+        empty = ", ".join(f"NULL::VARCHAR AS {c}" for c in columns)
+        return f"SELECT {empty} WHERE false", []
     if with_basis and con is not None and "basis" not in stored_columns(con, "data"):
         if filters.basis != "raw":
             raise UsageError(
@@ -157,7 +172,7 @@ def export_query(what: str, filters: Filters, con: duckdb.DuckDBPyConnection | N
             )
         with_basis = False
     elif with_basis:
-        view = f"{view}_by_basis"  # current_data_by_basis, current_indicators_by_basis: every basis
+        view = f"{view}_by_basis"  # current_data_by_basis, current_indicators_by_basis ...: every basis
     # A submission filter asks for history: read the table, not the current view.
     source = table if filters.submission else view
     where, params = filters.where(with_basis=with_basis)
@@ -178,8 +193,8 @@ def export(
     raw_text: bool = False,
     progress: Callable[[int, int], None] | None = None,
 ) -> int:
-    """Write the rows of `what` (data | indicators | findings | pairs) matching `filters` to `output`; returns the
-    count. Pairs follow `pairing` (default: the outcome-class rule, see milepost.validate.store.pairs).
+    """Write the rows of `what` (data | indicators | gaps | findings | pairs) matching `filters` to `output`;
+    returns the count. Pairs follow `pairing` (default: the outcome-class rule, see milepost.validate.store.pairs).
 
     The output is never the database itself, nor (without `force`) a file Milepost did not write, and it is
     written whole or not at all (`milepost.validate.outputs`). Text cells a spreadsheet would run as formulas

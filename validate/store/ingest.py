@@ -316,6 +316,7 @@ def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any, harmonise
     indicators of stored dependents are still recomputed, so none is left computed against a replaced reference.
     """
     from milepost.validate.store.indicators import COLUMNS as INDICATOR_TYPES
+    from milepost.validate.store.indicators import GAP_COLUMNS as GAP_TYPES
     from milepost.validate.store.indicators import IndicatorDataError, IndicatorSpecError, compute_indicators
 
     con.execute(f"""
@@ -348,6 +349,8 @@ def _prepare_indicators(con: duckdb.DuckDBPyConnection, contract: Any, harmonise
             # nothing harmonised, new or stored, to compute from: skip the indicator code altogether
             columns = ", ".join(f"{name} {sql_type}" for name, sql_type in INDICATOR_TYPES)
             con.execute(f"CREATE OR REPLACE TEMP TABLE ingest_indicators_{basis} ({columns})")
+            gap_columns = ", ".join(f"{name} {sql_type}" for name, sql_type in GAP_TYPES)
+            con.execute(f"CREATE OR REPLACE TEMP TABLE ingest_indicators_{basis}_gaps ({gap_columns})")
             continue
         new_rows = f"SELECT {cols} FROM temp.main.{rows} UNION ALL " if rows else ""  # noqa: S608 - names from the code; values bound as parameters
         con.execute(f"""
@@ -598,6 +601,31 @@ def _store_indicators(con: duckdb.DuckDBPyConnection, sid: int) -> None:
             INSERT INTO {NEW}.indicators (submission_id, {names}, basis) SELECT d.submission_id, {cols}, '{basis}'
             FROM {computed} AS i
             JOIN temp.main.ingest_dependents AS d ON d.model = i.model AND d.scenario = i.scenario""")  # noqa: S608 - names from the code; values bound as parameters
+    _store_gaps(con, sid)
+
+
+def _store_gaps(con: duckdb.DuckDBPyConnection, sid: int) -> None:
+    """The gaps of the new scenarios and of the dependents recomputed with them (as `_store_indicators`)."""
+    from milepost.validate.store.indicators import GAP_COLUMNS
+
+    names = ", ".join(name for name, _ in GAP_COLUMNS)
+    cols = ", ".join("g." + name for name, _ in GAP_COLUMNS)
+    con.execute(f"""
+        DELETE FROM {NEW}.indicator_gaps AS x USING temp.main.ingest_dependents AS d
+        WHERE x.submission_id = d.submission_id AND x.model = d.model AND x.scenario = d.scenario""")  # noqa: S608 - names from the code
+    for basis in ("raw", "harmonised"):
+        computed = f"temp.main.ingest_indicators_{basis}_gaps"
+        con.execute(
+            f"""
+            INSERT INTO {NEW}.indicator_gaps (submission_id, {names}, basis) SELECT ?, {cols}, '{basis}'
+            FROM {computed} AS g
+            SEMI JOIN temp.main.ingest_scenarios AS n ON n.model = g.model AND n.scenario = g.scenario""",  # noqa: S608 - names from the code; values bound as parameters
+            [sid],
+        )
+        con.execute(f"""
+            INSERT INTO {NEW}.indicator_gaps (submission_id, {names}, basis) SELECT d.submission_id, {cols}, '{basis}'
+            FROM {computed} AS g
+            JOIN temp.main.ingest_dependents AS d ON d.model = g.model AND d.scenario = g.scenario""")  # noqa: S608 - names from the code
 
 
 def _user() -> str | None:

@@ -25,6 +25,7 @@ from milepost.validate.store.database import schema_version
 OUTDATED_KEY = "indicators_outdated"
 _DATA = "model, scenario, region, variable, unit, year, value"
 _TABLES = ("recompute_current", "recompute_history")
+_GAP_TABLES = ("recompute_current_gaps", "recompute_history_gaps")
 
 
 def outdated_reason(con: duckdb.DuckDBPyConnection, catalog: str | None = None) -> str | None:
@@ -72,24 +73,25 @@ def prepare(
     Each basis (raw, harmonised) is computed from the rows of its own basis only. Raises IndicatorDataError or
     IndicatorSpecError as `compute_indicators` does.
     """
-    from milepost.validate.store.indicators import COLUMNS
+    from milepost.validate.store.indicators import COLUMNS, GAP_COLUMNS
 
     if on_step is not None:
         on_step("recomputing the stored indicators")
     columns = ", ".join(name for name, _ in COLUMNS)
-    typed = ", ".join(f"{name} {sql_type}" for name, sql_type in COLUMNS)
-    for table in _TABLES:
-        con.execute(f"CREATE OR REPLACE TEMP TABLE {table} (submission_id INTEGER, {typed}, basis VARCHAR)")
+    for tables, spec in ((_TABLES, COLUMNS), (_GAP_TABLES, GAP_COLUMNS)):
+        typed = ", ".join(f"{name} {sql_type}" for name, sql_type in spec)
+        for table in tables:
+            con.execute(f"CREATE OR REPLACE TEMP TABLE {table} (submission_id INTEGER, {typed}, basis VARCHAR)")
     for basis in _bases(con, catalog):
         _prepare_basis(con, contract, catalog, basis, columns)
-    for leftover in ("recompute_computed", "recompute_data", "recompute_scenarios"):
+    for leftover in ("recompute_computed", "recompute_computed_gaps", "recompute_data", "recompute_scenarios"):
         con.execute(f"DROP TABLE IF EXISTS temp.main.{leftover}")
     counts = [con.execute(f"SELECT count(*) FROM temp.main.{t}").fetchall()[0][0] for t in _TABLES]  # noqa: S608 - names from the code; values bound as parameters
     return int(sum(counts))
 
 
 def _prepare_basis(con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, basis: str, columns: str) -> None:
-    from milepost.validate.store.indicators import compute_indicators
+    from milepost.validate.store.indicators import GAP_COLUMNS, compute_indicators
 
     c = identifier(catalog)
     b = "'raw'" if basis == "raw" else "'harmonised'"
@@ -102,10 +104,12 @@ def _prepare_basis(con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, 
     compute_indicators(con, contract, "recompute_current_data", "recompute_current_scenarios", "recompute_computed")
     con.execute("DROP VIEW temp.main.recompute_current_data")
     con.execute("DROP VIEW temp.main.recompute_current_scenarios")
-    con.execute(
-        f"INSERT INTO temp.main.recompute_current SELECT v.submission_id, {columns}, {b}"  # noqa: S608 - names from the code; values bound as parameters
-        f" FROM temp.main.recompute_computed JOIN {c}.current_versions v USING (model, scenario)"
-    )
+    gap_columns = ", ".join(name for name, _ in GAP_COLUMNS)
+    for suffix, cols in (("", columns), ("_gaps", gap_columns)):
+        con.execute(
+            f"INSERT INTO temp.main.recompute_current{suffix} SELECT v.submission_id, {cols}, {b}"  # noqa: S608 - names from the code; values bound as parameters
+            f" FROM temp.main.recompute_computed{suffix} JOIN {c}.current_versions v USING (model, scenario)"
+        )
     # Older versions, one submission at a time: within one submission every (model, scenario) is unique.
     older = [
         int(r[0])
@@ -133,24 +137,27 @@ def _prepare_basis(con: duckdb.DuckDBPyConnection, contract: Any, catalog: str, 
             [sid],
         )
         compute_indicators(con, contract, "recompute_data", "recompute_scenarios", "recompute_computed")
-        con.execute(
-            f"INSERT INTO temp.main.recompute_history SELECT $sid, {columns}, {b} FROM temp.main.recompute_computed i"  # noqa: S608 - names from the code; values bound as parameters
-            f" WHERE EXISTS (SELECT 1 FROM {c}.scenarios s WHERE s.submission_id = $sid AND s.model = i.model"
-            f" AND s.scenario = i.scenario) AND NOT EXISTS (SELECT 1 FROM {c}.current_versions v"
-            " WHERE v.submission_id = $sid AND v.model = i.model AND v.scenario = i.scenario)",
-            {"sid": sid},
-        )
+        for suffix, cols in (("", columns), ("_gaps", gap_columns)):
+            con.execute(
+                f"INSERT INTO temp.main.recompute_history{suffix} SELECT $sid, {cols}, {b}"  # noqa: S608 - names from the code; values bound as parameters
+                f" FROM temp.main.recompute_computed{suffix} i"
+                f" WHERE EXISTS (SELECT 1 FROM {c}.scenarios s WHERE s.submission_id = $sid AND s.model = i.model"
+                f" AND s.scenario = i.scenario) AND NOT EXISTS (SELECT 1 FROM {c}.current_versions v"
+                " WHERE v.submission_id = $sid AND v.model = i.model AND v.scenario = i.scenario)",
+                {"sid": sid},
+            )
 
 
 def apply(con: duckdb.DuckDBPyConnection, catalog: str) -> None:
     """Inside the write's transaction: replace every stored indicator with the recomputed rows, clear the marker."""
-    from milepost.validate.store.indicators import COLUMNS
+    from milepost.validate.store.indicators import COLUMNS, GAP_COLUMNS
 
     c = identifier(catalog)
-    columns = ", ".join(["submission_id", *(name for name, _ in COLUMNS), "basis"])
-    con.execute(f"DELETE FROM {c}.indicators")  # noqa: S608 - names from the code; values bound as parameters
-    for table in _TABLES:
-        con.execute(f"INSERT INTO {c}.indicators ({columns}) SELECT {columns} FROM temp.main.{table}")  # noqa: S608 - names from the code; values bound as parameters
+    for target, tables, spec in (("indicators", _TABLES, COLUMNS), ("indicator_gaps", _GAP_TABLES, GAP_COLUMNS)):
+        columns = ", ".join(["submission_id", *(name for name, _ in spec), "basis"])
+        con.execute(f"DELETE FROM {c}.{target}")  # noqa: S608 - names from the code; values bound as parameters
+        for table in tables:
+            con.execute(f"INSERT INTO {c}.{target} ({columns}) SELECT {columns} FROM temp.main.{table}")  # noqa: S608 - names from the code; values bound as parameters
     con.execute(f"DELETE FROM {c}.meta WHERE key = ?", [OUTDATED_KEY])  # noqa: S608 - names from the code; values bound as parameters
 
 
@@ -184,5 +191,5 @@ def recompute_stored(
 
 def drop(con: duckdb.DuckDBPyConnection) -> None:
     """Remove the TEMP tables of `prepare`."""
-    for table in _TABLES:
+    for table in (*_TABLES, *_GAP_TABLES):
         con.execute(f"DROP TABLE IF EXISTS temp.main.{table}")

@@ -75,16 +75,16 @@ def _complete(t: Tables) -> str:
     """Per scenario: whether the market region and every trading region report each input (columns as roles)."""
     return (
         "SELECT m.model, m.scenario, k.market AS region,"
-        " bool_and(w.ghg IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {market}) AND"
+        f" bool_and(w.ghg IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {t.market}) AND"
         " any_value(m.ghg IS NOT NULL) AS ghg,"
-        " bool_and(w.pop IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {market}) AS pop,"
+        f" bool_and(w.pop IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {t.market}) AS pop,"
         " any_value(m.price IS NOT NULL) AS price,"
-        " bool_and(w.cost IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {market}) AS cost"
-        " FROM {inputs} m JOIN (SELECT DISTINCT market FROM {market}) k ON k.market = m.region"
-        " CROSS JOIN {market} r"
-        " LEFT JOIN {inputs} w ON w.model = m.model AND w.scenario = m.scenario AND w.region = r.region"
+        f" bool_and(w.cost IS NOT NULL) AND count(w.region) = (SELECT count(*) FROM {t.market}) AS cost"
+        f" FROM {t.inputs} m JOIN (SELECT DISTINCT market FROM {t.market}) k ON k.market = m.region"
+        f" CROSS JOIN {t.market} r"
+        f" LEFT JOIN {t.inputs} w ON w.model = m.model AND w.scenario = m.scenario AND w.region = r.region"
         " GROUP BY m.model, m.scenario, k.market"
-    ).format(market=t.market, inputs=t.inputs)
+    )
 
 
 def shares(t: Tables, kind: str) -> str:
@@ -95,6 +95,7 @@ def shares(t: Tables, kind: str) -> str:
     w = f"least(greatest((p.year_to - {base}) / ({conv} - {base})::DOUBLE, 0.0), 1.0)"
     per_region = (
         "SELECT c.model, c.scenario, r.region, k.market, p.year_from, p.year_to, x.unit, p.i_to, c.pop AS pop_ok,"
+        " c.price AS price_ok, c.cost AS cost_ok,"
         f" w.ghg[{b}] / sum(w.ghg[{b}]) OVER sc AS gf, w.pop[p.i_to] / sum(w.pop[p.i_to]) OVER sc AS pc,"
         f" {w} AS weight, m.ghg[p.i_to] AS cap, w.ghg[p.i_to] AS emitted, m.price[p.i_to] AS price,"
         " w.cost[p.i_to] AS cost"
@@ -107,9 +108,7 @@ def shares(t: Tables, kind: str) -> str:
         " WHERE c.ghg"
         " WINDOW sc AS (PARTITION BY c.model, c.scenario, p.year_to)"
     )
-    share = (
-        "CASE rule WHEN 'grandfathering' THEN gf WHEN 'per_capita' THEN pc ELSE (1 - weight) * gf + weight * pc END"
-    )
+    share = "CASE rule WHEN 'grandfathering' THEN gf WHEN 'per_capita' THEN pc ELSE (1 - weight) * gf + weight * pc END"
     allowance = f"({share}) * cap"
     return (
         f"SELECT *, {allowance} AS allowance, {allowance} - emitted AS permits,"
@@ -138,8 +137,7 @@ def region_sql(kind: str) -> Callable[[Tables], str]:
     def sql(t: Tables) -> str:
         return (
             f"SELECT model, scenario, region, {literal(kind)} AS kind, rule AS variable, year_from, year_to,"
-            f" {COLUMN[kind]} AS value, unit, {_note(t)} AS note FROM ({shares(t, kind)})"
-            + _present(kind)
+            f" {COLUMN[kind]} AS value, unit, {_note(t)} AS note FROM ({shares(t, kind)})" + _present(kind)
         )
 
     return sql
@@ -160,8 +158,9 @@ def market_sql(kind: str, column: str) -> Callable[[Tables], str]:
 
 
 def _present(kind: str) -> str:
-    """WHERE clause keeping the rows whose scenario reports the price and cost the kind needs."""
-    needs = [f"{role} IS NOT NULL" for role in NEEDS[kind]]
+    """WHERE clause keeping the scenarios that report the price and costs the kind needs (a year missing from a
+    reported series gives an empty value, as in every kind)."""
+    needs = [f"{role}_ok" for role in NEEDS[kind]]
     return (" WHERE " + " AND ".join(needs)) if needs else ""
 
 
@@ -174,7 +173,7 @@ def gaps(t: Tables, kinds: tuple[str, ...]) -> str:
         for rule in RULES
         for role in ("ghg", *(() if rule == "grandfathering" else ("pop",)), *NEEDS[k])
     ]
-    return gaps_sql(wanted, f"({_complete(t)})", " for the market region and each of its parts")
+    return gaps_sql(wanted, f"({_complete(t)})", " for the market region or one of its parts")
 
 
 KINDS = (

@@ -103,7 +103,8 @@ def prepare_inputs(
     roles = {r.variable: r.column for r in ROLES}
     pairs = [(roles[v], v, f) for _, v, _, f in rows]
     pivot = ", ".join(
-        f"first(list_transform(s.ends, lambda v: v * i.factor)) FILTER (WHERE i.role = {literal(r.column)}) AS {r.column}"
+        f"first(list_transform(s.ends, lambda v: v * i.factor)) FILTER (WHERE i.role = {literal(r.column)})"
+        f" AS {r.column}"
         for r in ROLES
     )
     con.execute(
@@ -227,7 +228,8 @@ def gaps_sql(wanted: list[tuple[str, str, str]], scope: str, where: str = "") ->
         cols = ", ".join(f"NULL::VARCHAR AS {c}" for c in ("model", "scenario", "region", "kind", "variable", "note"))
         return f"SELECT {cols} WHERE false"
     req = " UNION ALL ".join(
-        f"SELECT {literal(k)} AS kind, {literal(v)} AS variable, {literal(c)} AS role, {literal(ROLE[c].variable)} AS input"
+        f"SELECT {literal(k)} AS kind, {literal(v)} AS variable, {literal(c)} AS role,"
+        f" {literal(ROLE[c].variable)} AS input"
         for k, v, c in wanted
     )
     has = "CASE q.role " + " ".join(f"WHEN {literal(c)} THEN u.{c}" for c in sorted({c for _, _, c in wanted})) + " END"
