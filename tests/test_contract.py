@@ -231,3 +231,35 @@ def test_bad_budget_and_pairs_shapes_are_contract_errors(tmp_path):
         (tmp_path / "contract.toml").write_text(f'name = "b"\nextends = "core"\n{text}', encoding="utf-8")
         with pytest.raises(ContractError, match=match):
             load(tmp_path)
+
+
+def test_allocation_defaults_and_the_demo_convergence_year(demo_contract):
+    assert load().allocation.convergence_year == 2050 and load().allocation.region == "World"
+    assert demo_contract.allocation.convergence_year == 2060
+    assert json.loads(json.dumps(demo_contract.to_dict()))["allocation"] == {
+        "convergence_year": 2060,
+        "region": "World",
+    }
+
+
+@pytest.mark.parametrize(
+    ("allocation", "message"),
+    [
+        ("[allocation]\nconvergence_year = 2020\n", "after the base year"),
+        ('[allocation]\nregion = "Mars"\n', "'Mars' is not a region"),
+    ],
+)
+def test_lint_finds_unusable_allocation_settings(tmp_path, allocation, message):
+    found = _budget_contract(tmp_path, allocation)
+    assert {f.rule for f in found} == {"contract-allocation"}
+    assert any(message in f.message for f in found), [f.message for f in found]
+
+
+def test_bad_allocation_shapes_are_contract_errors(tmp_path):
+    for text, match in (
+        ("[allocation]\nconvergence_year = 2050.5\n", "whole year"),
+        ("[allocation]\nshare = 3\n", "unknown keys share"),
+    ):
+        (tmp_path / "contract.toml").write_text(f'name = "b"\nextends = "core"\n{text}', encoding="utf-8")
+        with pytest.raises(ContractError, match=match):
+            load(tmp_path)

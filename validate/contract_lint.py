@@ -284,15 +284,13 @@ def _budget_problems(c: Contract, src: str | None) -> list[Finding]:
 
 def _allocation_problems(c: Contract, src: str | None) -> list[Finding]:
     """contract-allocation: contraction and convergence needs a year after the base year to converge by, and the
-    market needs a region whose direct parts trade."""
+    market must be a region (one without parts, as World in the core contract, has no burden-sharing rows)."""
     a = c.allocation
     out: list[str] = []
     if a.convergence_year <= c.base_year:
         out.append(f"[allocation] convergence_year {a.convergence_year} must be after the base year {c.base_year}")
     if a.region not in c.regions:
         out.append(f"[allocation] region {a.region!r} is not a region of the contract")
-    elif not c.regions[a.region].parts:
-        out.append(f"[allocation] region {a.region!r} has no parts: there is no one to trade with")
     hint = "Give e.g. [allocation] convergence_year = 2050 (regions: the contract's regions.toml)."
     return [_f("contract-allocation", m, hint, path=src) for m in out]
 

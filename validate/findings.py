@@ -140,7 +140,7 @@ RULES: dict[str, Rule] = {
             "error",
             "contract",
             "The burden-sharing settings are unusable: a convergence year not after the base year, or a market "
-            "region that is not a region with parts.",
+            "region that is not a region of the contract.",
         ),
     )
 }
