@@ -14,6 +14,8 @@ PAGES = [
     st.Page("views/rates.py", title="Rates", icon=":material/trending_down:"),
     st.Page("views/costs.py", title="Costs", icon=":material/payments:"),
     st.Page("views/delay.py", title="Delay", icon=":material/schedule:"),
+    st.Page("views/drivers.py", title="Drivers", icon=":material/account_tree:"),
+    st.Page("views/regions.py", title="Regions", icon=":material/public:"),
     st.Page("views/pathways.py", title="Pathways", icon=":material/timeline:"),
     st.Page("views/submissions.py", title="Submissions", icon=":material/inventory_2:"),
     st.Page("views/selfcheck.py", title="Self-check", icon=":material/fact_check:"),

@@ -1,0 +1,144 @@
+"""Drivers: which Kaya levers (population, GDP per person, energy intensity, carbon intensity) move fossil CO2
+from the base year to each milestone, per scenario, per band median, band against band and pair by pair."""
+
+from __future__ import annotations
+
+import pandas as pd
+import streamlit as st
+
+from milepost.dashboard import charts_drivers, contracts, queries, ui
+from milepost.dashboard import queries_drivers as qd
+from milepost.validate.store.pairs import rule_for
+
+UNIT = "Mt CO2"
+METHOD = (
+    "Additive LMDI-I decomposition (Ang 2005) of the change in fossil CO2 (emissions.co2.fossil) from the base year "
+    "to the milestone, in Mt CO2 per year: fossil CO2 = population × GDP (PPP) per person × primary energy per GDP "
+    "× CO2 per primary energy, and each effect is L(C₁, C₀) · ln(x₁ / x₀) with L the logarithmic mean. The four "
+    "effects of a scenario add up exactly to its change. Negative = the lever cuts emissions."
+)
+
+ch, sel = ui.results_page("Drivers")
+ui.caution()
+st.caption(METHOD)
+
+edges = ui.query(queries.band_edges, sel)
+labels = queries.band_labels(len(edges) + 1)
+df = ui.query(qd.effects, sel, sel.region)
+gaps = ui.query(qd.gaps, sel, tuple(qd.EFFECTS))
+if df.empty:
+    st.warning(
+        f"No driver decomposition for these scenarios in {sel.region} ({ui.BASIS_LABELS.get(sel.basis, sel.basis)})."
+        + (" Missing inputs are listed below." if len(gaps) else "")
+    )
+    if len(gaps):
+        ui.table(gaps, "drivers_gaps", "drivers_gaps_empty")
+    ui.stop()
+
+years = sorted(df["year"].unique().tolist())
+year = ui.url_selectbox("Milestone", years, key="drivers_year", param="dyear", default=years[-1], cast=int)
+df = ui.label_bands(df, labels)
+summary = qd.lever_shares(df, sel.model_weighted)
+present = sorted(df["band"].unique().tolist())
+top, bottom = present[-1], present[0]
+
+
+def _median(kind: str, band: int) -> float | None:
+    row = summary[(summary["kind"] == kind) & (summary["band"] == band) & (summary["year"] == year)]
+    return None if row.empty or pd.isna(row["median"].iloc[0]) else float(row["median"].iloc[0])
+
+
+def _sentence() -> str:
+    words = []
+    for band in (top, bottom) if top != bottom else (top,):
+        cut = [(qd.EFFECTS[k], _median(k, band)) for k in ("lmdi_energy_intensity", "lmdi_carbon_intensity")]
+        share = _median("carbon_share", band)
+        words.append(
+            f"in the {labels[band]} band the median energy-intensity effect is {ui.fmt(cut[0][1], 0)} {UNIT} and the "
+            f"carbon-intensity effect {ui.fmt(cut[1][1], 0)} {UNIT} (carbon intensity: {ui.fmt(share, 0)} % of the "
+            "intensity cuts)"
+        )
+    out = f"From the base year to {year}, " + "; ".join(words) + "."
+    return out + (f" Bands by {sel.variable} in {sel.year}{sel.outcome_label and ', ' + sel.outcome_label}.")
+
+
+st.info(_sentence(), icon=":material/account_tree:")
+
+st.subheader(f"Waterfall, base year to {year}")
+mode = ui.url_selectbox(
+    "Waterfall of", ["band medians", "one scenario"], key="drivers_mode", param="dmode", default="band medians"
+)
+if mode == "one scenario":
+    names = df[df["year"] == year].drop_duplicates(["model", "scenario"])
+    options = [f"{m} / {s}" for m, s in zip(names["model"], names["scenario"], strict=True)]
+    picked = ui.url_selectbox("Scenario", options, key="drivers_scenario", param="dscen", default=options[0])
+    model, scenario = picked.split(" / ", 1)
+    steps = qd.scenario_waterfall(df, model, scenario, year)
+    if steps.empty:
+        note = qd.undefined(df[(df["model"] == model) & (df["scenario"] == scenario) & (df["year"] == year)])
+        st.warning(f"No decomposition for {picked} in {year}: {', '.join(note['note'].dropna()) or 'no value'}.")
+    else:
+        ui.chart(charts_drivers.waterfall(steps, picked, UNIT), f"drivers_{model}_{scenario}_{year}", "drivers_one")
+else:
+    cols = st.columns(len(present))
+    for col, band in zip(cols, present, strict=True):
+        with col:
+            steps = qd.band_waterfall(df, band, year)
+            if steps.empty:
+                st.caption(f"{labels[band]}: no decomposition")
+                continue
+            ui.chart(
+                charts_drivers.waterfall(steps, f"{labels[band]} band (median)", UNIT),
+                f"drivers_band{band}_{year}",
+                f"drivers_band{band}",
+            )
+    st.caption(
+        "Band waterfalls stack the median of each effect on the median base-year CO2; medians do not add up, so "
+        "the last bar need not be the band's median milestone CO2. Red raises emissions, blue cuts them."
+    )
+
+st.subheader("Compare bands: which levers, by milestone")
+ui.chart(charts_drivers.levers(summary, labels, qd.EFFECTS, UNIT), "drivers_levers", "drivers_levers")
+st.caption(
+    ui.bands_note(sel.variable, sel.year, sel.region, labels, edges, sel.model_weighted)
+    + ". Point: median; line: 25–75 % range. Carbon share = the carbon-intensity effect over the sum of the two "
+    "intensity effects, where they cut."
+)
+shown = summary.assign(lever=summary["kind"].map({**qd.EFFECTS, "carbon_share": "carbon share of intensity cuts (%)"}))
+shown = ui.label_bands(shown, labels)
+ui.table(
+    shown[["lever", "year", "band_label", "n", "models", "median", "q25", "q75"]].rename(
+        columns={"band_label": "band"}
+    ),
+    f"drivers_levers_{sel.year}",
+    "drivers_levers_table",
+)
+
+st.subheader("Delay pairs: the two scenarios of each pair")
+found = contracts.find(ui.query(queries.contract_name))
+rule = rule_for(found.contract, sel.likelihood)
+pairs = qd.pair_effects(ui.query(queries.pair_rows, sel, rule, [qd.CO2]))
+pairs = pairs[pairs["year"] == year] if len(pairs) else pairs
+st.caption(f"{rule.describe()} Effects in {sel.region}, {UNIT}; difference = later − first.")
+if pairs.empty:
+    st.info("No pairs for these filters: both scenarios of a pair must pass the filters and the outcome.")
+else:
+    mean = pairs.groupby("effect", sort=False)["difference"].median()
+    st.write(
+        "Median difference, later minus first start: "
+        + "; ".join(f"{effect} {ui.fmt(v, 0)} {UNIT}" for effect, v in mean.items())
+        + "."
+    )
+    ui.table(pairs, f"drivers_pairs_{year}", "drivers_pairs")
+
+empty = qd.undefined(df)
+if len(gaps) or len(empty):
+    with st.expander(f"Not decomposed: {len(gaps)} missing inputs, {len(empty)} undefined scenario-milestones"):
+        st.caption(
+            "A scenario lacking population, GDP (PPP), primary energy or fossil CO2 has no decomposition (never a "
+            "zero); negative fossil CO2 has no logarithmic decomposition."
+        )
+        if len(gaps):
+            ui.table(gaps, "drivers_gaps", "drivers_gaps")
+        if len(empty):
+            ui.table(empty, "drivers_undefined", "drivers_undefined")

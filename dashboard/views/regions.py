@@ -1,0 +1,122 @@
+"""Regions: regional costs, and who pays and who receives if a carbon market shared the effort by an allocation
+rule, at each milestone, per band."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from milepost.dashboard import charts_drivers, queries, ui
+from milepost.dashboard import queries_drivers as qd
+
+ALLOCATION_CAUTION = (
+    "Allocation rules are illustrations of equity principles, not negotiated shares: each splits the scenario's own "
+    "World emissions (the cap) among the regions, and the transfers show what a market clearing at the scenario's "
+    "World carbon price would move between them."
+)
+TRANSFER_UNIT = "billion USD_2015/yr"
+PERMIT_UNIT = "Mt CO2e"
+
+ch, sel = ui.results_page("Regions")
+ui.caution()
+st.caption(f"⚠️ {ALLOCATION_CAUTION}")
+
+edges = ui.query(queries.band_edges, sel)
+labels = queries.band_labels(len(edges) + 1)
+df = ui.query(qd.burden, sel)
+gaps = ui.query(qd.gaps, sel, (*qd.REGION_KINDS, *qd.MARKET_KINDS))
+if df.empty:
+    st.warning(
+        "No burden-sharing indicators for these scenarios: they need World and regional emissions.ghg, regional "
+        "population and the World carbon price." + (" Missing inputs are listed below." if len(gaps) else "")
+    )
+    if len(gaps):
+        ui.table(gaps, "regions_gaps", "regions_gaps_empty")
+    ui.stop()
+
+years = sorted(df["year"].unique().tolist())
+default_year = 2050 if 2050 in years else years[0]
+year = ui.url_selectbox("Milestone", years, key="regions_year", param="ryear", default=default_year, cast=int)
+rules = [r for r in qd.RULES if r in set(df["rule"])]
+df = ui.label_bands(df, labels)
+at = df[df["year"] == year]
+summary = ui.label_bands(qd.who_pays(at, sel.model_weighted), labels)
+summary["rule_label"] = summary["rule"].map(qd.RULES)
+market = ui.query(qd.market, sel)
+market = market[market["year"] == year]
+money = market[market["kind"] == "market_value"].groupby("rule")["value"].median()
+
+words = [f"{qd.RULES[r]}: {ui.fmt(money.get(r), 0)} {TRANSFER_UNIT}" for r in rules if r in money]
+st.info(
+    f"Money moved between regions in {year} (median over the selected scenarios): " + "; ".join(words) + ".",
+    icon=":material/public:",
+)
+
+c1, c2, c3 = st.columns(3)
+c1.metric("Scenarios", at[["model", "scenario"]].drop_duplicates().shape[0])
+c2.metric("Regions", at["region"].nunique())
+c3.metric("Rules", len(rules))
+
+st.subheader(f"Who pays and who receives in {year}")
+ui.chart(
+    charts_drivers.transfers(summary.dropna(subset=["median"]), labels, TRANSFER_UNIT),
+    f"regions_transfers_{year}",
+    "regions_transfers",
+)
+st.caption(
+    ui.bands_note(sel.variable, sel.year, sel.region, labels, edges, sel.model_weighted)
+    + f". Transfer = permits sold (allowance − emissions, {PERMIT_UNIT}) × World carbon price, in "
+    f"{TRANSFER_UNIT}; positive = the region receives money. Transfers of one scenario sum to zero over the regions."
+)
+table = summary.drop(columns=["band"]).rename(
+    columns={"band_label": "band", "median": f"median transfer [{TRANSFER_UNIT}]"}
+)
+ui.table(
+    table[["rule_label", "region", "band", "n", f"median transfer [{TRANSFER_UNIT}]", "pays", "receives"]].rename(
+        columns={"rule_label": "rule", "pays": "scenarios paying", "receives": "scenarios receiving"}
+    ),
+    f"regions_who_pays_{year}",
+    "regions_who_pays",
+)
+
+st.subheader("Market size")
+sizes = market.assign(rule=market["rule"].map(qd.RULES))
+sizes = sizes.pivot_table(index="rule", columns="kind", values="value", aggfunc="median").reset_index()
+sizes = sizes.rename(
+    columns={
+        "market_permits": f"permits traded [{PERMIT_UNIT}] (median)",
+        "market_value": f"money moved [{TRANSFER_UNIT}] (median)",
+    }
+)
+ui.table(sizes, f"regions_market_{year}", "regions_market")
+
+st.subheader("Cost with and without trade, per region")
+costs = at.groupby(["rule", "region", "band_label"], as_index=False).agg(
+    cost=("cost", "median"), cost_after_trade=("cost_after_trade", "median"), loss_pct=("loss_pct", "median")
+)
+costs["rule"] = costs["rule"].map(qd.RULES)
+ui.table(
+    costs.rename(
+        columns={
+            "band_label": "band",
+            "cost": f"abatement cost without trade [{TRANSFER_UNIT}]",
+            "cost_after_trade": f"cost after trade [{TRANSFER_UNIT}]",
+            "loss_pct": "GDP (PPP) loss [%]",
+        }
+    ),
+    f"regions_costs_{year}",
+    "regions_costs",
+)
+st.caption(
+    "Medians over the band's scenarios. Cost after trade = abatement cost − transfer received. GDP loss against "
+    "each model's own reference scenario, without trade (the models' own results)."
+)
+
+with st.expander("Scenario by scenario"):
+    ui.table(
+        at.drop(columns=["band"]).rename(columns={"band_label": "band"}),
+        f"regions_rows_{year}",
+        "regions_rows",
+    )
+if len(gaps):
+    with st.expander(f"Not computed: {len(gaps)} missing inputs"):
+        ui.table(gaps, "regions_gaps", "regions_gaps")
