@@ -7,6 +7,8 @@ outcome only. The numbers are indicators stored at ingest (schema/indicators.tom
 
 from __future__ import annotations
 
+from collections.abc import Iterable
+
 import duckdb
 import pandas as pd
 
@@ -72,7 +74,7 @@ def gaps(con: duckdb.DuckDBPyConnection, sel: Selection, kinds: tuple[str, ...])
 def undefined(df: pd.DataFrame) -> pd.DataFrame:
     """Scenario-milestones whose effects are empty (negative CO2, say), with the note saying why."""
     empty = df[df["value"].isna()]
-    return empty.groupby(["model", "scenario", "year"], as_index=False)["note"].first()
+    return empty.groupby(["model", "scenario", "year"], as_index=False).agg(note=("note", "first"))
 
 
 def scenario_waterfall(df: pd.DataFrame, model: str, scenario: str, year: int) -> pd.DataFrame:
@@ -95,9 +97,9 @@ def band_waterfall(df: pd.DataFrame, band: int, year: int) -> pd.DataFrame:
     return steps(start, amounts)
 
 
-def steps(start: float, amounts: object) -> pd.DataFrame:
+def steps(start: float, amounts: Iterable[float]) -> pd.DataFrame:
     """Waterfall bars: `start`, one floating bar per effect (low..high, in Kaya order) and the end total."""
-    values = [float(a) for a in amounts]  # type: ignore[attr-defined]
+    values = [float(a) for a in amounts]
     rows = [{"step": "base year", "low": 0.0, "high": start, "value": start, "kind": "level"}]
     level = start
     for label, amount in zip(EFFECTS.values(), values, strict=True):

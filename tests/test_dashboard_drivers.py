@@ -100,8 +100,8 @@ def test_drivers_one_scenario_waterfall_and_delay_pairs(demo_db, sql):
     assert len(at.get("vega_lite_chart")) == 2  # one waterfall, the band comparison
     pairs = next(d.value for d in at.dataframe if "scenario_later" in d.value.columns)
     assert set(pairs["year"]) == {2050} and len(pairs) > 0
-    row = pairs[(pairs.model == "Ferrow") & (pairs.scenario_later == "wait-firm")]
-    row = row[row.effect == "carbon intensity (CO2/energy)"].iloc[0]
+    mine = pairs[(pairs.model == "Ferrow") & (pairs.scenario_later == "wait-firm")]
+    row = mine[mine.effect == "carbon intensity (CO2/energy)"].iloc[0]
     got = sql.execute(
         "SELECT scenario, value FROM current_indicators WHERE model = 'Ferrow' AND region = 'World'"
         " AND kind = 'lmdi_carbon_intensity' AND year_to = 2050 AND scenario IN (?, ?)",
