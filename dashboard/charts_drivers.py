@@ -18,7 +18,7 @@ def waterfall(steps: pd.DataFrame, title: str, unit: str) -> Chart:
         alt.Chart(steps)
         .mark_bar(size=38)
         .encode(
-            x=alt.X("step:N", sort=order, title=None, axis=alt.Axis(labelAngle=-20, labelLimit=180)),
+            x=alt.X("step:N", sort=order, title=None, axis=alt.Axis(labelAngle=-30, labelLimit=120)),
             y=alt.Y("low:Q", title=f"fossil CO2 [{unit}]"),
             y2="high:Q",
             color=alt.Color("kind:N", scale=STEP_COLOURS, title=None),

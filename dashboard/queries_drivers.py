@@ -23,6 +23,8 @@ EFFECTS = {
     "lmdi_energy_intensity": "energy intensity (energy/GDP)",
     "lmdi_carbon_intensity": "carbon intensity (CO2/energy)",
 }
+# Shorter names for the bars of a waterfall.
+STEP_NAMES = ("population", "GDP/person", "energy/GDP", "CO2/energy")
 RULES = {
     "grandfathering": "grandfathering (base-year emission shares)",
     "per_capita": "equal per capita",
@@ -102,7 +104,7 @@ def steps(start: float, amounts: Iterable[float]) -> pd.DataFrame:
     values = [float(a) for a in amounts]
     rows = [{"step": "base year", "low": 0.0, "high": start, "value": start, "kind": "level"}]
     level = start
-    for label, amount in zip(EFFECTS.values(), values, strict=True):
+    for label, amount in zip(STEP_NAMES, values, strict=True):
         rows.append(
             {
                 "step": label,
