@@ -194,7 +194,8 @@ def test_demo_contract_indicators(demo_contract):
 
 def test_plan_on_a_contract_without_milestones(core):
     p = plan(dataclasses.replace(core, milestones=()))
-    assert {k for k, *_ in p.periods} == {"value"}  # only the base year is left
+    # only the base year is left: the kinds over "points" (the value and the Kaya factors)
+    assert {k for k, *_ in p.periods} == {"value", "gdp_per_capita", "energy_intensity", "carbon_intensity"}
     assert "rate_cagr" in p.kinds()  # still selected, but with no periods it yields no rows
 
 

@@ -66,6 +66,10 @@ def age(db: Path) -> None:
     The values are shifted so that a recompute is visible; the catalog is checked against a real schema-1 file.
     """
     con = duckdb.connect(str(db))
+    # what schema 6 added (indicator gaps) goes first
+    for view in ("current_indicator_gaps_by_basis", "current_indicator_gaps"):
+        con.execute(f"DROP VIEW {view}")
+    con.execute("DROP TABLE indicator_gaps")
     # what schema 4 added (harmonised values beside the raw ones) goes first, then schema 3's and 2's
     for view in ("current_harmonisation", "current_indicators_by_basis", "current_data_by_basis", "current_data"):
         con.execute(f"DROP VIEW {view}")
@@ -197,8 +201,11 @@ def test_a_schema_4_database_gets_the_budget_indicators_on_the_next_ingest(tmp_p
     db = tmp_path / "v4.duckdb"
     ingest(submissions[0], db, contract)
     budget_kinds = ("cumulative_net_zero", "budget_level", "warming_peak", "warming_peak_low", "warming_peak_high")
-    # what schema 4 wrote: the same tables, no carbon-budget indicator rows
+    # what schema 4 wrote: the same tables but schema 6's gaps, no carbon-budget indicator rows
     con = duckdb.connect(str(db))
+    for view in ("current_indicator_gaps_by_basis", "current_indicator_gaps"):
+        con.execute(f"DROP VIEW {view}")
+    con.execute("DROP TABLE indicator_gaps")
     con.execute(f"DELETE FROM indicators WHERE kind IN {budget_kinds}")
     con.execute("UPDATE meta SET value = '4' WHERE key = 'schema_version'")
     con.execute("CHECKPOINT")
