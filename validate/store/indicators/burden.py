@@ -30,11 +30,13 @@ from collections.abc import Callable
 import duckdb
 
 from milepost.schema.contract import Contract
-from milepost.validate.sql import literal
+from milepost.validate.sql import literal, literal_list
 from milepost.validate.store.indicators.base import Kind, Tables
 from milepost.validate.store.indicators.drivers import PREFIX, gaps_sql
 
 MARKET = PREFIX + "market"
+COMPLETE = PREFIX + "complete"
+SHARES = PREFIX + "shares"
 RULES = ("grandfathering", "per_capita", "convergence")
 # kind -> the inputs it needs besides emissions.ghg (the cap and every region's) and, but for grandfathering,
 # every region's population
@@ -68,10 +70,19 @@ def prepare_market(con: duckdb.DuckDBPyConnection, contract: Contract) -> str:
 
 
 def drop_market(con: duckdb.DuckDBPyConnection) -> None:
-    con.execute(f"DROP TABLE IF EXISTS {MARKET}")
+    """Remove the burden helper tables."""
+    for name in (MARKET, COMPLETE, SHARES):
+        con.execute(f"DROP TABLE IF EXISTS {name}")
 
 
-def _complete(t: Tables) -> str:
+def prepare_shares(con: duckdb.DuckDBPyConnection, t: Tables) -> None:
+    """Materialise, once for every burden kind, which scenarios are complete and the shares of each rule: the
+    kinds then only pick their column (the window sums over regions run once)."""
+    con.execute(f"CREATE OR REPLACE TEMP TABLE {COMPLETE} AS {_complete_sql(t)}")
+    con.execute(f"CREATE OR REPLACE TEMP TABLE {SHARES} AS {_shares_sql(t)}")
+
+
+def _complete_sql(t: Tables) -> str:
     """Per scenario: whether the market region and every trading region report each input (columns as roles)."""
     return (
         "SELECT m.model, m.scenario, k.market AS region,"
@@ -88,38 +99,40 @@ def _complete(t: Tables) -> str:
 
 
 def shares(t: Tables, kind: str) -> str:
-    """SELECT one row per (scenario, trading region, rule, milestone of `kind`) with allowance, emissions,
-    permits, transfer, cost_after (null where the price or cost is missing) and the market region."""
+    """SELECT the rows of `kind` from the shares table (see `_shares_sql`)."""
+    return f"SELECT * FROM {SHARES} WHERE kind = {literal(kind)}"
+
+
+def _shares_sql(t: Tables) -> str:
+    """SELECT one row per (burden kind, scenario, trading region, rule, period of the kind) with allowance,
+    emissions, permits, transfer, cost_after (null where the price or cost is missing) and the market region."""
     base, conv = t.base_year, t.convergence_year
     b = t.base_index
     w = f"least(greatest((p.year_to - {base}) / ({conv} - {base})::DOUBLE, 0.0), 1.0)"
     per_region = (
-        "SELECT c.model, c.scenario, r.region, k.market, p.year_from, p.year_to, x.unit, p.i_to, c.pop AS pop_ok,"
+        "SELECT p.kind, c.model, c.scenario, r.region, k.market, p.year_from, p.year_to, x.unit, p.i_to,"
+        " c.pop AS pop_ok,"
         " c.price AS price_ok, c.cost AS cost_ok,"
         f" w.ghg[{b}] / sum(w.ghg[{b}]) OVER sc AS gf, w.pop[p.i_to] / sum(w.pop[p.i_to]) OVER sc AS pc,"
         f" {w} AS weight, m.ghg[p.i_to] AS cap, w.ghg[p.i_to] AS emitted, m.price[p.i_to] AS price,"
         " w.cost[p.i_to] AS cost"
-        f" FROM ({_complete(t)}) c JOIN {t.market} r ON r.market = c.region"
+        f" FROM {COMPLETE} c JOIN {t.market} r ON r.market = c.region"
         " JOIN (SELECT DISTINCT market FROM {market}) k ON k.market = c.region".format(market=t.market)
         + f" JOIN {t.inputs} m ON m.model = c.model AND m.scenario = c.scenario AND m.region = c.region"
         f" JOIN {t.inputs} w ON w.model = c.model AND w.scenario = c.scenario AND w.region = r.region"
-        f" JOIN {t.selection} x ON x.kind = {literal(kind)} AND x.variable = {literal(SELECTED_BY)}"
-        f" JOIN {t.periods} p ON p.kind = {literal(kind)}"
+        f" JOIN {t.selection} x ON list_contains({literal_list(NEEDS)}, x.kind) AND x.variable = {literal(SELECTED_BY)}"
+        f" JOIN {t.periods} p ON p.kind = x.kind"
         " WHERE c.ghg"
-        " WINDOW sc AS (PARTITION BY c.model, c.scenario, p.year_to)"
+        " WINDOW sc AS (PARTITION BY p.kind, c.model, c.scenario, p.year_to)"
     )
     share = "CASE rule WHEN 'grandfathering' THEN gf WHEN 'per_capita' THEN pc ELSE (1 - weight) * gf + weight * pc END"
     allowance = f"({share}) * cap"
     return (
         f"SELECT *, {allowance} AS allowance, {allowance} - emitted AS permits,"
         f" ({allowance} - emitted) * price / 1000 AS transfer, cost - ({allowance} - emitted) * price / 1000"
-        f" AS cost_after FROM ({per_region}) CROSS JOIN (SELECT unnest({literal_rules()}) AS rule)"
+        f" AS cost_after FROM ({per_region}) CROSS JOIN (SELECT unnest({literal_list(RULES)}) AS rule)"
         " WHERE pop_ok OR rule = 'grandfathering'"
     )
-
-
-def literal_rules() -> str:
-    return "[" + ", ".join(literal(r) for r in RULES) + "]"
 
 
 def _note(t: Tables) -> str:
@@ -173,7 +186,7 @@ def gaps(t: Tables, kinds: tuple[str, ...]) -> str:
         for rule in RULES
         for role in ("ghg", *(() if rule == "grandfathering" else ("pop",)), *NEEDS[k])
     ]
-    return gaps_sql(wanted, f"({_complete(t)})", " for the market region or one of its parts")
+    return gaps_sql(wanted, COMPLETE, " for the market region or one of its parts")
 
 
 KINDS = (
