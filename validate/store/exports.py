@@ -226,7 +226,7 @@ def export(
             )  # fmt: skip
         else:
             sql, params = export_query(what, filters, con)
-        if what in ("indicators", "pairs"):
+        if what in ("indicators", "gaps", "pairs"):
             reason = outdated_reason(con)
             if reason is not None and on_warning is not None:
                 on_warning(f"Warning: {reason}.")
