@@ -18,6 +18,7 @@ cost_after_trade  the region's cost.abatement minus its transfer, billion USD_20
 and for the market region: market_permits (permits traded: the sum of the positive permits_sold, Mt CO2e) and
 market_value (money moved: the sum of the positive transfers, billion USD_2015/yr).
 
+A contract whose market region has no parts (the core contract's World, of countries) gets no burden rows.
 A scenario lacking an input (the cap, a region's emissions or population, the carbon price, a region's abatement
 cost) gets no rows of the kinds needing it and a gap row saying which input is missing. Allocation rules are
 illustrations of equity principles, not negotiated shares; costs exclude avoided damages and co-benefits.
