@@ -7,7 +7,7 @@ import pandas as pd
 
 from milepost.dashboard.charts import PALETTE, Chart, band_scale
 
-STEP_COLOURS = alt.Scale(domain=["level", "rise", "fall"], range=[PALETTE[5], PALETTE[3], PALETTE[0]])
+STEP_COLOURS = alt.Scale(domain=["level", "rise", "fall"], range=["#7f7f7f", PALETTE[2], PALETTE[0]])
 
 
 def waterfall(steps: pd.DataFrame, title: str, unit: str) -> Chart:
