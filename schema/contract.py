@@ -17,6 +17,7 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
 
+from milepost.schema.limits import Limits
 from milepost.validate.errors import ContractError as ContractError  # re-exported: raised here, imported from here
 
 CORE_DIR = Path(__file__).parent / "core"
@@ -174,6 +175,7 @@ class Contract:
     budgets: Budgets | None = None
     pairs: Pairing | None = None
     allocation: Allocation = Allocation()
+    limits: Limits = field(default=Limits(), compare=False)
     problems: tuple[str, ...] = field(default=(), compare=False)
     hash: str = ""
     units: Any = field(default=None, compare=False, repr=False)
@@ -611,6 +613,7 @@ def _resolve(
         budgets=_budgets(head.get("budgets"), where),
         pairs=_pairing(head.get("pairs"), where),
         allocation=_allocation(head.get("allocation", {}), where),
+        limits=Limits.from_table(head.get("limits"), where),
         problems=tuple(problems),
         units=units,
     )

@@ -9,7 +9,9 @@ after printing `Error: <message>` on one line (see `milepost.validate.cli.common
     ├── ContractError     a contract folder cannot be read or resolved (schema/contract.py)    2
     ├── UnitError         a unit string cannot be parsed or converted (schema/units.py)        2
     ├── ReadError         a file cannot be read as a table; the runner turns it into an        2
-    │                     `unreadable-file` finding, so it never reaches the command line
+    │   │                 `unreadable-file` finding, so it never reaches the command line
+    │   └── LimitExceeded a file goes beyond a limit of the run (schema/limits.py): a          2
+    │                     `limit-exceeded` finding
     ├── IndicatorSpecError  schema/indicators.toml cannot be used (store/indicators)           2
     ├── IndicatorDataError  rows that cannot be interpolated (store/indicators)                2
     ├── LoadError         the database cannot be opened, read, migrated, locked or written     3
@@ -63,6 +65,10 @@ class UnitError(MilepostError, ValueError):
 
 class ReadError(MilepostError):
     """A file that cannot be read as a submission table."""
+
+
+class LimitExceeded(ReadError):
+    """A file that goes beyond a limit of the check run (rows, columns, cell length, unzipped size)."""
 
 
 class IndicatorSpecError(MilepostError, ValueError):

@@ -30,6 +30,25 @@ RULES: dict[str, Rule] = {
             "A required column (model, scenario, region, variable, unit, year, value) is absent.",
         ),
         Rule("empty-table", "error", "data", "The file has a header but no data rows."),
+        Rule(
+            "limit-exceeded",
+            "error",
+            "data",
+            "The file goes beyond a limit of the check (rows, columns, cell or line length, unzipped size); "
+            "it was read only up to the limit.",
+        ),
+        Rule(
+            "control-character",
+            "error",
+            "data",
+            "A name holds a control character, NUL, byte-order mark or line break, which makes look-alike names.",
+        ),
+        Rule(
+            "ambiguous-decimal-comma",
+            "warning",
+            "data",
+            "In a file read with decimal commas, a value such as 51,169 may use the comma as a thousands separator.",
+        ),
         Rule("unexpected-column", "warning", "data", "A column the long format does not have; it is ignored."),
         Rule("bad-year", "error", "data", "The year is not a whole number inside the contract's year range."),
         Rule("bad-value", "error", "data", "The value is not a finite number."),

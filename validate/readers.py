@@ -10,17 +10,20 @@ from __future__ import annotations
 
 import codecs
 import csv
+import errno
 import hashlib
 import re
-import zipfile
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import duckdb
 
-from milepost.validate.errors import ReadError
+from milepost.schema.limits import Limits
+from milepost.validate.errors import LimitExceeded, ReadError
 from milepost.validate.sql import identifier, literal, literal_list
+from milepost.validate.xlsx import ZIP_ERRORS, open_workbook
 
 LONG_COLUMNS = ("model", "scenario", "region", "variable", "unit", "year", "value")
 KEY_TEXT = ("model", "scenario", "region", "variable", "unit")
@@ -47,6 +50,9 @@ class InputFile:
     error_line: int | None = None
     notes: list[str] = field(default_factory=list)
     rejects: list[tuple[int, str]] = field(default_factory=list)  # (line, why) rows the CSV parser could not split
+    reject_total: int = 0  # rejected lines in all; `rejects` keeps the first ones only
+    limits_hit: list[str] = field(default_factory=list)  # what stopped the reading early (limit-exceeded findings)
+    ambiguous_commas: tuple[int, int] = (0, 0)  # (count, first line) of values like 51,169 under decimal commas
     scenarios: Any = None  # pandas DataFrame for a scenarios table
 
 
@@ -154,17 +160,35 @@ def _head(path: Path) -> bytes:
         return f.read(SAMPLE_BYTES)
 
 
-def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table: str) -> None:
+def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table: str, limits: Limits) -> None:
     d = sniff_csv(path)
+    if len(d.header) > limits.max_columns:
+        raise LimitExceeded(
+            f"the header has {len(d.header):,} columns, more than the limit of {limits.max_columns:,} (max_columns)"
+        )
     found, extra = _match_columns(d.header)
+    shape = scan_lines(path)
+    # DuckDB's strict parser refuses a file whose lines end in both LF and CRLF; the lenient one reads it right.
+    lenient = ", strict_mode = false" if shape.mixed_endings else ""
+    if shape.mixed_endings:
+        inp.notes.append(
+            f"mixed line endings ({shape.crlf:,} CRLF, {shape.newlines - shape.crlf:,} LF): read either way"
+        )
+    options = (
+        f"header = true, all_varchar = true, delim = {literal(d.delimiter)}, encoding = {literal(d.encoding)}, "
+        f"max_line_size = {int(limits.max_line_bytes)}{lenient}"
+    )
     if _is_scenarios_table(found):
         inp.kind = "scenarios"
         inp.scenarios = _scenario_frame(
             con.execute(
-                "SELECT * FROM read_csv(?, header = true, all_varchar = true, delim = ?, encoding = ?)",
-                [str(path), d.delimiter, d.encoding],
+                f"SELECT * FROM read_csv(?, {options}) LIMIT ?",  # noqa: S608 - options from the code and validate.sql
+                [str(path), limits.max_rows + 1],
             ).df()
         )
+        if len(inp.scenarios) > limits.max_rows:
+            inp.scenarios = inp.scenarios.iloc[: limits.max_rows]
+            inp.limits_hit.append(_rows_hit(limits))
         inp.rows = len(inp.scenarios)
         return
     _set_columns(inp, found, extra)
@@ -176,37 +200,159 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
     if d.decimal_comma:
         inp.notes.append("decimal commas read as decimal points")
     if inp.missing_columns:
-        inp.rows = _count_lines(path) - 1
+        inp.rows = shape.lines - 1
         return
     rejects = f"{table}_rejects"
     src = (
-        f"read_csv({literal(str(path))}, header = true, all_varchar = true, delim = {literal(d.delimiter)}, "
-        f"encoding = {literal(d.encoding)}, store_rejects = true, rejects_table = {literal(rejects)}, "
-        f"rejects_scan = {literal(rejects + '_scan')}, "
-        f"names = {literal_list(positional)})"
+        f"(SELECT * FROM read_csv({literal(str(path))}, {options}, store_rejects = true, "  # noqa: S608 - options from the code and validate.sql
+        f"rejects_table = {literal(rejects)}, rejects_scan = {literal(rejects + '_scan')}, "
+        f"names = {literal_list(positional)}) LIMIT {int(limits.max_rows) + 1})"
     )
     con.execute(
         f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(by_position, src, 'NULL::BIGINT', d.decimal_comma)}"
     )
+    rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - generated names
+    if rows > limits.max_rows:
+        con.execute(f"DELETE FROM {table} WHERE rowid >= ?", [limits.max_rows])  # noqa: S608 - generated names
+        inp.limits_hit.append(_rows_hit(limits))
+    inp.reject_total = con.execute(f"SELECT count(DISTINCT line) FROM {rejects}").fetchall()[0][0]  # noqa: S608 - generated names
     bad = con.execute(
-        f"SELECT line, string_agg(DISTINCT error_message, '; ') FROM {rejects} GROUP BY line ORDER BY line"  # noqa: S608 - generated names; headers and paths via validate.sql
+        f"SELECT line, string_agg(DISTINCT error_message, '; ') FROM {rejects} GROUP BY line ORDER BY line LIMIT ?",  # noqa: S608 - generated names; headers and paths via validate.sql
+        [limits.findings_stored_per_rule],
     ).fetchall()
     inp.rejects = [(int(line), str(msg)) for line, msg in bad]
-    # Rows are stored in file order, so the row id gives the line (the runner's view adds 2 where `line` is
-    # empty); only rejected lines, which shift the rows after them, need the lines written out.
-    if inp.rejects:
+    if rows <= limits.max_rows and shape.lines != rows + inp.reject_total + 1:
+        # Quoted newlines or blank lines: DuckDB counts records, so the physical lines come from the file itself.
+        _physical_lines(con, inp, path, table, rejects)
+    elif inp.rejects:
+        # Rows are stored in file order, so the row id gives the line (the runner's view adds 2 where `line` is
+        # empty); only rejected lines, which shift the rows after them, need the lines written out.
         con.execute(f"UPDATE {table} SET line = rowid + 2")  # noqa: S608 - generated names; headers and paths via validate.sql
         con.execute(
             f"CREATE TEMP TABLE {table}_shift AS SELECT line - (row_number() OVER (ORDER BY line) - 1) AS at "  # noqa: S608 - generated names; headers and paths via validate.sql
             f"FROM (SELECT DISTINCT line FROM {rejects})"
         )
         con.execute(f"UPDATE {table} SET line = line + (SELECT count(*) FROM {table}_shift s WHERE s.at <= line)")  # noqa: S608 - generated names; headers and paths via validate.sql
+    if d.decimal_comma:
+        _ambiguous_commas(con, inp, path, options, positional, by_position["value"], table)
     inp.rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - generated names; headers and paths via validate.sql
 
 
-def _count_lines(path: Path) -> int:
+def _rows_hit(limits: Limits) -> str:
+    return f"more than {limits.max_rows:,} rows (max_rows): only the first {limits.max_rows:,} were read"
+
+
+def _physical_lines(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table: str, rejects: str) -> None:
+    """Set each row's (and each rejected line's) physical line, where records and lines differ."""
+    import numpy as np
+    import pyarrow as pa
+
+    first, blank = logical_lines(path)
+    rejected = np.array(
+        [r[0] for r in con.execute(f"SELECT DISTINCT line FROM {rejects}").fetchall()],  # noqa: S608 - generated names
+        dtype=np.int64,
+    )
+    keep = ~blank
+    keep[0] = False  # the header
+    keep[rejected[(rejected >= 1) & (rejected <= len(keep))] - 1] = False
+    lines = first[keep]
+    n = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - generated names
+    if len(lines) < n:  # a parse the scan cannot follow (another quote character): keep the record numbers
+        return
+    view = f"{table}_lines"
+    con.register(view, pa.table({"rid": pa.array(np.arange(n, dtype=np.int64)), "at": pa.array(lines[:n])}))
+    try:
+        con.execute(f"UPDATE {table} SET line = m.at FROM {view} m WHERE {table}.rowid = m.rid")  # noqa: S608 - generated names
+    finally:
+        con.unregister(view)
+    inp.rejects = [(int(first[k - 1]) if 0 < k <= len(first) else k, why) for k, why in inp.rejects]
+
+
+def _ambiguous_commas(
+    con: duckdb.DuckDBPyConnection,
+    inp: InputFile,
+    path: Path,
+    options: str,
+    positional: list[str],
+    value: str,
+    table: str,
+) -> None:
+    """Values like `51,169` in a file read with decimal commas: 51.169, or 51169 with a thousands separator?"""
+    row = con.execute(
+        f"SELECT count(*), min(n) FROM (SELECT row_number() OVER () AS n, {identifier(value)} AS v "  # noqa: S608 - options from the code and validate.sql
+        f"FROM read_csv(?, {options}, ignore_errors = true, names = {literal_list(positional)})) "
+        r"WHERE regexp_full_match(trim(v), '-?\d{1,3},\d{3}')",
+        [str(path)],
+    ).fetchall()[0]
+    if row[0]:
+        first = con.execute(
+            f"SELECT line FROM (SELECT coalesce(line, rowid + 2) AS line, rowid AS r FROM {table}) WHERE r = ?",  # noqa: S608 - generated names
+            [int(row[1]) - 1],
+        ).fetchall()
+        inp.ambiguous_commas = (int(row[0]), int(first[0][0]) if first else int(row[1]) + 1)
+
+
+@dataclass(frozen=True)
+class LineShape:
+    """What one pass over a text file tells: its lines, and how they end."""
+
+    newlines: int
+    crlf: int
+    lines: int  # newlines, plus one for a last line without its newline
+
+    @property
+    def mixed_endings(self) -> bool:
+        return 0 < self.crlf < self.newlines
+
+
+def scan_lines(path: Path) -> LineShape:
+    """Count LF and CRLF line ends in one pass of 16 MiB chunks (a chunk boundary between CR and LF is counted)."""
+    newlines = crlf = 0
+    last, prev = b"", b""
     with path.open("rb") as f:
-        return sum(chunk.count(b"\n") for chunk in iter(lambda: f.read(1 << 20), b""))
+        for chunk in iter(lambda: f.read(16 << 20), b""):
+            newlines += chunk.count(b"\n")
+            crlf += chunk.count(b"\r\n") + (prev == b"\r" and chunk[:1] == b"\n")
+            prev = last = chunk[-1:]
+    return LineShape(newlines, crlf, newlines + (last not in (b"", b"\n")))
+
+
+def logical_lines(path: Path, chunk_bytes: int = 4 << 20) -> tuple[Any, Any]:
+    """For every record of a CSV file (a line, or several joined by a newline inside double quotes): the
+    physical line it starts on, and whether it is blank. Vectorised per chunk: a newline ends a record when the
+    quotes before it are balanced."""
+    import numpy as np
+
+    ends, blanks = [], []
+    parity, seen, before_cr, since = 0, 0, False, 0  # quotes so far (mod 2), newlines so far, record length
+    last_len = 0
+    with path.open("rb") as f:
+        for chunk in iter(lambda: f.read(chunk_bytes), b""):
+            a = np.frombuffer(chunk, np.uint8)
+            par = (np.cumsum(a == 34, dtype=np.int32) + parity) & 1
+            nl = np.flatnonzero(a == 10)
+            ending = np.flatnonzero(par[nl] == 0)
+            at = nl[ending]
+            ends.append(seen + ending + 1)  # the physical line each record ends on
+            # a record is blank when nothing (or a lone CR) stands between its newline and the previous one
+            start = np.concatenate(([-1 - since], at[:-1])) if len(at) else at
+            length = at - start - 1
+            prev_cr = np.zeros(len(at), dtype=bool)
+            if len(at):
+                prev_cr = np.where(at > 0, a[np.maximum(at - 1, 0)] == 13, before_cr)
+            blanks.append((length == 0) | ((length == 1) & prev_cr))
+            since = len(a) - 1 - at[-1] if len(at) else since + len(a)
+            last_len = since
+            before_cr = bool(a[-1] == 13)
+            parity = int(par[-1])
+            seen += len(nl)
+    end_lines = np.concatenate(ends) if ends else np.zeros(0, np.int64)
+    blank = np.concatenate(blanks) if blanks else np.zeros(0, bool)
+    if last_len:  # a last record without its newline
+        end_lines = np.append(end_lines, seen + 1)
+        blank = np.append(blank, False)
+    first = np.concatenate(([1], end_lines[:-1] + 1)).astype(np.int64)
+    return first, blank
 
 
 def _set_columns(inp: InputFile, found: dict[str, str], extra: list[str]) -> None:
@@ -219,43 +365,42 @@ def _set_columns(inp: InputFile, found: dict[str, str], extra: list[str]) -> Non
 # --- XLSX ---------------------------------------------------------------------------------------------------------
 
 
-def _cell_text(v: Any) -> str | None:
-    if v is None:
-        return None
-    if isinstance(v, float) and v.is_integer():
-        return str(int(v))
-    return str(v)
-
-
-def _read_xlsx(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table: str) -> list[InputFile]:
-    import openpyxl
+def _read_xlsx(
+    con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table: str, limits: Limits
+) -> list[InputFile]:
     import pyarrow as pa
 
+    wb = open_workbook(str(path), limits)
     try:
-        wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
-    except (zipfile.BadZipFile, OSError, KeyError, ValueError) as e:
-        raise ReadError(f"not a readable XLSX workbook ({type(e).__name__}: {e})") from None
-    try:
-        names = wb.sheetnames
+        names = wb.worksheets()
+        if not names:
+            others = ", ".join(f"{s.name!r} ({s.kind})" for s in wb.sheets)
+            raise ReadError("the workbook has no worksheet" + (f", only {others}" if others else ""))
         data_sheet = "data" if "data" in names else names[0]
         extra_inputs: list[InputFile] = []
         if "scenarios" in names and data_sheet != "scenarios":
-            rows = list(wb["scenarios"].iter_rows(values_only=True))
+            sc = InputFile(path=inp.path, sha256=inp.sha256, kind="scenarios", sheet="scenarios")
+            rows = []
+            for _, r in wb.rows("scenarios"):
+                if len(rows) > limits.max_rows:
+                    sc.limits_hit.append(_rows_hit(limits))
+                    break
+                rows.append(r)
             if rows:
                 import pandas as pd
 
-                header = [str(h) if h is not None else "" for h in rows[0]]
-                frame = pd.DataFrame([[_cell_text(v) for v in r] for r in rows[1:]], columns=header, dtype="str")
-                sc = InputFile(path=inp.path, sha256=inp.sha256, kind="scenarios", sheet="scenarios")
-                sc.scenarios = _scenario_frame(frame)
+                width = max(len(r) for r in rows)
+                header = [h if h is not None else "" for h in rows[0]] + [""] * (width - len(rows[0]))
+                body = [r + [None] * (width - len(r)) for r in rows[1:]]
+                sc.scenarios = _scenario_frame(pd.DataFrame(body, columns=header, dtype="str"))
                 sc.rows = len(sc.scenarios)
                 extra_inputs.append(sc)
         inp.sheet = data_sheet
-        it = wb[data_sheet].iter_rows(values_only=True)
-        header_row = next(it, None)
-        if header_row is None:
+        it = wb.rows(data_sheet)
+        first = next(it, None)
+        if first is None:
             raise ReadError(f"sheet {data_sheet!r} is empty")
-        header = [str(h) if h is not None else "" for h in header_row]
+        header = [h if h is not None else "" for h in first[1]]
         found, extra = _match_columns(header)
         if _is_scenarios_table(found):
             raise ReadError(f"sheet {data_sheet!r} holds a scenarios table, but no data sheet was found")
@@ -263,15 +408,16 @@ def _read_xlsx(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table
         idx = {c: header.index(found[c]) for c in found}
         columns: dict[str, list[str | None]] = {c: [] for c in found}
         lines: list[int] = []
-        width = len(header)
-        for n, r in enumerate(it, start=2):
-            if not any(v is not None for v in r):
+        for n, r in it:
+            if all(v is None for v in r):
                 continue
-            r = tuple(r) + (None,) * (width - len(r))
+            if len(lines) >= limits.max_rows:
+                inp.limits_hit.append(_rows_hit(limits))
+                break
             lines.append(n)
             for c, i in idx.items():
-                columns[c].append(_cell_text(r[i]))
-    except (zipfile.BadZipFile, OSError, KeyError, EOFError) as e:
+                columns[c].append(r[i] if i < len(r) else None)
+    except ZIP_ERRORS as e:
         raise ReadError(f"the XLSX workbook is damaged ({type(e).__name__}: {e})") from None
     finally:
         wb.close()
@@ -291,11 +437,15 @@ def _read_xlsx(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table
 # --- Parquet ------------------------------------------------------------------------------------------------------
 
 
-def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table: str) -> None:
+def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table: str, limits: Limits) -> None:
     try:
         header = [r[0] for r in con.execute("DESCRIBE SELECT * FROM read_parquet(?)", [str(path)]).fetchall()]
     except duckdb.Error as e:
         raise ReadError(f"not a readable Parquet file ({str(e).splitlines()[0]})") from None
+    if len(header) > limits.max_columns:
+        raise LimitExceeded(
+            f"the file has {len(header):,} columns, more than the limit of {limits.max_columns:,} (max_columns)"
+        )
     found, extra = _match_columns(header)
     if _is_scenarios_table(found):
         inp.kind = "scenarios"
@@ -307,8 +457,11 @@ def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, ta
     if inp.missing_columns:
         inp.rows = con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0]
         return
-    src = f"read_parquet({literal(str(path))}, file_row_number = true)"
+    src = f"(SELECT * FROM read_parquet({literal(str(path))}, file_row_number = true) WHERE file_row_number < {int(limits.max_rows)})"  # noqa: S608 - path via validate.sql
     con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(found, src, 'file_row_number + 1')}")
+    total = con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0]
+    if total > limits.max_rows:
+        inp.limits_hit.append(_rows_hit(limits))
     inp.rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - generated names; headers and paths via validate.sql
 
 
@@ -329,24 +482,54 @@ def _scenario_frame(frame: Any) -> Any:
 # --- entry point --------------------------------------------------------------------------------------------------
 
 
-def read_file(con: duckdb.DuckDBPyConnection, path: Path, table: str, sha256: str | None = None) -> list[InputFile]:
+def not_a_file(path: Path) -> str | None:
+    """Why `path` cannot be read as a file (missing, a folder, a pipe, a link loop), or None when it can."""
+    try:
+        mode = path.stat().st_mode
+    except FileNotFoundError:
+        return "a link to a file that does not exist" if path.is_symlink() else "no such file"
+    except OSError as e:
+        if e.errno == errno.ELOOP:
+            return "a symbolic link that points back to itself (a link loop)"
+        return e.strerror or str(e)
+    if stat.S_ISDIR(mode):
+        return "a folder, not a file: give the files inside it"
+    if stat.S_ISFIFO(mode):
+        return "a named pipe (FIFO), not a file: save what it carries to a file first"
+    if not stat.S_ISREG(mode):
+        return "not a regular file (a device or socket)"
+    return None
+
+
+def read_file(
+    con: duckdb.DuckDBPyConnection,
+    path: Path,
+    table: str,
+    sha256: str | None = None,
+    limits: Limits | None = None,
+) -> list[InputFile]:
     """Read one file into `table` (data) or a scenarios frame; unreadable files come back with kind='unreadable'.
     `sha256`: the file's digest when the caller has it already (ingest hashes before it checks)."""
+    limits = limits or Limits()
     inp = InputFile(path=str(path), sha256="", kind="unreadable")
     out = [inp]
     try:
-        if not path.is_file():
-            raise ReadError("no such file")
+        why = not_a_file(path)
+        if why:
+            raise ReadError(why)
         inp.sha256 = sha256 or sha256_of(path)
         suffix = path.suffix.lower()
         if suffix in (".xlsx", ".xlsm"):
-            out += _read_xlsx(con, inp, path, table)
+            out += _read_xlsx(con, inp, path, table, limits)
         elif suffix in (".parquet", ".pq"):
-            _read_parquet(con, inp, path, table)
+            _read_parquet(con, inp, path, table, limits)
         elif suffix == ".xls":
             raise ReadError("old .xls workbooks are not supported; save the file as .xlsx or .csv")
         else:
-            _read_csv(con, inp, path, table)
+            _read_csv(con, inp, path, table, limits)
+    except LimitExceeded as e:
+        inp.kind, inp.error = "unreadable", str(e)
+        inp.limits_hit.append(str(e))
     except ReadError as e:
         inp.kind, inp.error = "unreadable", str(e)
     except duckdb.Error as e:

@@ -202,11 +202,57 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
         )
 
 
-def _insert(con: duckdb.DuckDBPyConnection, sql: str, severity: str) -> None:
-    # Most checks leave severity to the rule table; one names a finer one itself (the spelling-only unit note).
-    if " AS severity" not in sql:
-        sql = f"SELECT NULL::VARCHAR AS severity, * FROM ({sql})"  # noqa: S608 - names from the code; user text via validate.sql
-    con.execute(f"INSERT INTO findings BY NAME SELECT * REPLACE ({severity} AS severity) FROM ({sql})")  # noqa: S608 - names from the code; user text via validate.sql
+class _Store:
+    """Inserts findings into the TEMP table `findings`, at most `cap` per rule; `totals` counts every one, so
+    a million empty cells cost a million counts, not a million stored rows."""
+
+    def __init__(self, con: duckdb.DuckDBPyConnection, severity: str, cap: int) -> None:
+        self.con, self.severity, self.cap = con, severity, cap
+        self.totals: dict[tuple[str, str], int] = {}
+
+    def _stored(self, rule: str) -> int:
+        return min(self.cap, sum(n for (r, _), n in self.totals.items() if r == rule))
+
+    def insert(self, sql: str) -> None:
+        # Most checks leave severity to the rule table; one names a finer one itself (the spelling-only unit note).
+        if " AS severity" not in sql:
+            sql = f"SELECT NULL::VARCHAR AS severity, * FROM ({sql})"  # noqa: S608 - names from the code; user text via validate.sql
+        sql = f"SELECT * REPLACE ({self.severity} AS severity) FROM ({sql})"  # noqa: S608 - names from the code; user text via validate.sql
+        # Counting first reads only the rule column (DuckDB drops the unused message text), so a check with
+        # millions of findings stores its first `cap` without ever building the rest.
+        counts = self.con.execute(f"SELECT rule, severity, count(*) FROM ({sql}) GROUP BY ALL").fetchall()  # noqa: S608 - names from the code; user text via validate.sql
+        if not counts:
+            return
+        room = {r: self.cap - self._stored(r) for r, _, _ in counts}
+        per_rule: dict[str, int] = {}
+        for rule, sev, n in counts:
+            per_rule[rule] = per_rule.get(rule, 0) + int(n)
+            self.totals[(rule, sev)] = self.totals.get((rule, sev), 0) + int(n)
+        over = sorted(r for r, n in per_rule.items() if n > room[r])
+        if len(over) < len(per_rule):
+            keep = f"WHERE rule NOT IN ({', '.join(literal(r) for r in over)})" if over else ""
+            self.con.execute(f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) {keep}")  # noqa: S608 - names from the code; user text via validate.sql
+        for rule in over:
+            if room[rule] > 0:
+                self.con.execute(
+                    f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) WHERE rule = ? "  # noqa: S608 - names from the code; user text via validate.sql
+                    "ORDER BY path, line, year LIMIT ?",
+                    [rule, room[rule]],
+                )
+
+    def insert_findings(self, found: list[Finding], severity: dict[str, str]) -> None:
+        """Findings made in Python (file problems, scenarios tables), under the same cap."""
+        rows = []
+        for f in found:
+            sev = severity.get(f.rule, f.severity)
+            if self._stored(f.rule) < self.cap:
+                rows.append(tuple(f.to_dict()[c] if c != "severity" else sev for c in FINDING_COLUMNS))
+            self.totals[(f.rule, sev)] = self.totals.get((f.rule, sev), 0) + 1
+        if rows:
+            self.con.executemany(
+                f"INSERT INTO findings ({', '.join(FINDING_COLUMNS)}) VALUES ({', '.join('?' * len(FINDING_COLUMNS))})",  # noqa: S608 - names from the code; user text via validate.sql
+                rows,
+            )
 
 
 def _scenario_attributes(inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
@@ -264,6 +310,7 @@ def run_check(
     files = [Path(p) for p in paths]
     big = progress and sum(p.stat().st_size for p in files if p.is_file()) > PROGRESS_BYTES
     con.execute(f"CREATE OR REPLACE TEMP TABLE findings ({finding_columns_ddl()})")
+    limits = contract.limits
     timings: dict[str, float] = {}
     clock = [time.perf_counter()]
 
@@ -277,7 +324,7 @@ def run_check(
         lap("contract tables")
         inputs: list[InputFile] = []
         for n, path in enumerate(files):
-            inputs += read_file(con, path, f"obs_{os.getpid()}_{n}", digests[n] if digests else None)
+            inputs += read_file(con, path, f"obs_{os.getpid()}_{n}", digests[n] if digests else None, limits)
         lap("read")
         step("checking rows")
         _obs_view(con, inputs)
@@ -290,36 +337,23 @@ def run_check(
         lap("combos")
         ctx = Context(con, contract, inputs)
         pre = file_findings(ctx)
-        severity_case = _severity_case(contract)
+        store = _Store(con, _severity_case(contract), limits.findings_stored_per_rule)
         for check in ROW_CHECKS:
             for sql in check(ctx):
-                _insert(con, sql, severity_case)
+                store.insert(sql)
             lap(check.__name__)
         step("checking sums and coverage")
         _build_checked(con, contract)
         lap("checked")
         for check in TABLE_CHECKS:
             for sql in check(ctx):
-                _insert(con, sql, severity_case)
+                store.insert(sql)
             lap(check.__name__)
         step("collecting findings")
         attributes, scen_findings = _scenario_attributes(inputs)
         extra = pre + scen_findings
-        if extra:
-            eff = effective_severity(contract)
-            con.executemany(
-                f"INSERT INTO findings ({', '.join(FINDING_COLUMNS)}) VALUES ({', '.join('?' * len(FINDING_COLUMNS))})",  # noqa: S608 - names from the code; user text via validate.sql
-                [
-                    tuple(f.to_dict()[c] if c != "severity" else eff.get(f.rule, f.severity) for c in FINDING_COLUMNS)
-                    for f in extra
-                ],
-            )
-    rule_counts = [
-        (r, s, int(n))
-        for r, s, n in con.execute(
-            "SELECT rule, severity, count(*) FROM findings GROUP BY 1, 2 ORDER BY 1, 2"
-        ).fetchall()
-    ]
+        store.insert_findings(extra, effective_severity(contract))
+    rule_counts = sorted((r, s, n) for (r, s), n in store.totals.items() if n)
     counts = {s: 0 for s in SEVERITIES}
     for _, s, n in rule_counts:
         counts[s] = counts.get(s, 0) + n

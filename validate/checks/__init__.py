@@ -21,6 +21,7 @@ ROW_CHECKS: tuple[Check, ...] = (
     structure.check_bad_value,
     names.check_unknown_region,
     names.check_unknown_variable,
+    names.check_control_characters,
     units.check_units,
 )
 TABLE_CHECKS: tuple[Check, ...] = (

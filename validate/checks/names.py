@@ -1,9 +1,9 @@
-"""Names: regions and variables the contract does not know, with a did-you-mean hint."""
+"""Names: regions and variables the contract does not know (with a did-you-mean hint), and names holding
+control characters."""
 
 from __future__ import annotations
 
 import difflib
-from collections.abc import Callable
 
 from milepost.validate.checks.context import Context
 from milepost.validate.sql import literal
@@ -24,25 +24,32 @@ def suggest(name: str, known: list[str]) -> str | None:
     return close[0] if close else None
 
 
-def _hints_table(ctx: Context, table: str, column: str, known: list[str], is_known: Callable[[str], bool]) -> bool:
-    names = [
+def _hints_table(ctx: Context, table: str, column: str, known_sql: str, known: list[str]) -> bool:
+    """`table` (name, suggestion): the distinct names of `column` that `known_sql` (a one-column SELECT of the
+    contract's names) does not hold. Only the first `hinted_names` get a suggestion, so 300,000 made-up names
+    cost one anti-join, not 300,000 fuzzy searches."""
+    con = ctx.con
+    con.execute(
+        f"CREATE OR REPLACE TEMP TABLE {table} AS SELECT DISTINCT {column} AS name, NULL::VARCHAR AS suggestion "  # noqa: S608 - names from the code; contract text via validate.sql
+        f"FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> '' AND {column} NOT IN ({known_sql})"
+    )
+    sample = [
         r[0]
-        for r in ctx.con.execute(
-            f"SELECT DISTINCT {column} FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> ''"  # noqa: S608 - names from the code; contract text via validate.sql
+        for r in con.execute(
+            f"SELECT name FROM {table} ORDER BY name LIMIT ?",  # noqa: S608 - names from the code
+            [ctx.contract.limits.hinted_names],
         ).fetchall()
     ]
-    unknown = [n for n in names if not is_known(n)]
-    rows = [(n, suggest(n, known)) for n in unknown]
-    ctx.con.execute(f"CREATE OR REPLACE TEMP TABLE {table} (name VARCHAR, suggestion VARCHAR)")
-    if rows:
-        ctx.con.executemany(f"INSERT INTO {table} VALUES (?, ?)", rows)  # noqa: S608 - names from the code; contract text via validate.sql
-    return bool(rows)
+    hints = [(h, n) for n in sample if (h := suggest(n, known)) is not None]
+    if hints:
+        con.executemany(f"UPDATE {table} SET suggestion = ? WHERE name = ?", hints)  # noqa: S608 - names from the code
+    return bool(con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0])  # noqa: S608 - names from the code
 
 
 def check_unknown_region(ctx: Context) -> list[str]:
     """unknown-region: the region is neither a contract region nor (where allowed) an ISO 3166-1 alpha-3 code."""
     c = ctx.contract
-    if not _hints_table(ctx, "unknown_regions", "region", list(c.regions), c.is_region):
+    if not _hints_table(ctx, "unknown_regions", "region", "SELECT region FROM c_regions", list(c.regions)):
         return []
     allowed = sorted(c.regions)
     listing = ", ".join(allowed[:8]) + (" …" if len(allowed) > 8 else "")
@@ -61,7 +68,7 @@ def check_unknown_region(ctx: Context) -> list[str]:
 def check_unknown_variable(ctx: Context) -> list[str]:
     """unknown-variable: the variable name is not in the contract."""
     known = list(ctx.contract.variables)
-    if not _hints_table(ctx, "unknown_variables", "variable", known, lambda n: n in ctx.contract.variables):
+    if not _hints_table(ctx, "unknown_variables", "variable", "SELECT variable FROM c_variables", known):
         return []
     return [
         f"SELECT 'unknown-variable' AS rule, 'variable' AS column_name, {_ROW}, o.variable AS value, "  # noqa: S608 - names from the code; contract text via validate.sql
@@ -70,4 +77,28 @@ def check_unknown_variable(ctx: Context) -> list[str]:
         "CASE WHEN h.suggestion IS NOT NULL THEN 'Did you mean ' || h.suggestion || '?' "
         "ELSE 'See `milepost contract show` for the variable names.' END AS hint "
         "FROM obs o JOIN unknown_variables h ON o.variable = h.name"
+    ]
+
+
+# C0 controls (tab, CR, LF and NUL among them), DEL, C1 controls, and the byte-order mark / zero-width no-break
+# space: invisible or layout-breaking in a name, so two names that print alike can differ.
+_CONTROL = "[\\x00-\\x1f\\x7f-\\x9f\\x{feff}]"
+
+
+def check_control_characters(ctx: Context) -> list[str]:
+    """control-character: a key cell (model, scenario, region, variable, unit) holding a control character."""
+    cols = ("model", "scenario", "region", "variable", "unit")
+    test = " OR ".join(f"regexp_matches({c}, {literal(_CONTROL)})" for c in cols)
+    if not ctx.con.execute(f"SELECT count(*) FROM combos WHERE {test}").fetchall()[0][0]:  # noqa: S608 - names from the code
+        return []
+    return [
+        f"SELECT 'control-character' AS rule, {literal(c)} AS column_name, {_ROW}, "  # noqa: S608 - names from the code; contract text via validate.sql
+        f"o.{c} AS value, 'a name of printable characters' AS expected, "
+        f"'{c} holds a control character (code ' || "
+        f"CAST(unicode(regexp_extract(o.{c}, {literal(_CONTROL)})) AS VARCHAR) || ')' AS message, "
+        "'Remove invisible characters (tabs, line breaks, NUL, byte-order marks) from names: they make "
+        "names that look alike but differ.' AS hint "
+        f"FROM obs o SEMI JOIN (SELECT src, {c} FROM combos WHERE regexp_matches({c}, {literal(_CONTROL)})) k "
+        f"ON o.src = k.src AND o.{c} = k.{c}"
+        for c in cols
     ]

@@ -15,6 +15,20 @@ def file_findings(ctx: Context) -> list[Finding]:
     """unreadable-file, missing-column, empty-table, unexpected-column: per file (or per unparseable line)."""
     out: list[Finding] = []
     for inp in ctx.inputs:
+        for why in inp.limits_hit:
+            out.append(
+                Finding(
+                    "limit-exceeded",
+                    "error",
+                    path=inp.path,
+                    sheet=inp.sheet,
+                    message=f"{inp.path}: {why}",
+                    hint="Split the submission into smaller files, or raise the limit in the contract's [limits] "
+                    "table if the file is genuine (see README, Limits).",
+                )
+            )
+        if inp.kind == "unreadable" and inp.limits_hit:
+            continue
         if inp.kind == "unreadable":
             out.append(
                 Finding(
@@ -38,6 +52,34 @@ def file_findings(ctx: Context) -> list[Finding]:
                     line=line,
                     message=f"line {line} cannot be split into columns: {why}",
                     hint="Check quoting and the number of delimiters on this line.",
+                )
+            )
+        if inp.reject_total > len(inp.rejects):
+            more = inp.reject_total - len(inp.rejects)
+            out.append(
+                Finding(
+                    "unreadable-file",
+                    "error",
+                    path=inp.path,
+                    message=f"{more:,} more lines cannot be split into columns (not listed one by one)",
+                    hint="Check quoting and the number of delimiters; the lines listed show the pattern.",
+                )
+            )
+        n, first = inp.ambiguous_commas
+        if n:
+            out.append(
+                Finding(
+                    "ambiguous-decimal-comma",
+                    "warning",
+                    path=inp.path,
+                    line=first,
+                    column_name="value",
+                    value=f"{n:,} values",
+                    expected="a value whose decimal separator is unambiguous",
+                    message=f"{n:,} values such as the one on line {first} look like 51,169: read as 51.169 "
+                    "(decimal comma), but a thousands separator would make it 51169",
+                    hint="Write values without thousands separators, or save the file with decimal points and "
+                    "comma delimiters.",
                 )
             )
         if inp.missing_columns:
