@@ -277,11 +277,19 @@ def _read_toml(path: Path) -> dict[str, Any]:
 def _read_csv(path: Path, columns: tuple[str, ...]) -> list[dict[str, str]]:
     if not path.exists():
         return []
-    with path.open(encoding="utf-8-sig", newline="") as f:
-        rows = list(csv.DictReader(f))
+    try:
+        with path.open(encoding="utf-8-sig", newline="") as f:
+            rows = list(csv.DictReader(f))
+    except UnicodeDecodeError as e:
+        raise ContractError(f"{path}: not UTF-8 text (byte {e.start}); save it as UTF-8") from None
+    except csv.Error as e:
+        raise ContractError(f"{path}: not a readable CSV file: {e}") from None
     if rows and not set(columns) <= set(rows[0]):
         missing = sorted(set(columns) - set(rows[0]))
         raise ContractError(f"{path}: missing columns {', '.join(missing)} (expected {', '.join(columns)})")
+    for i, row in enumerate(rows, start=2):
+        if any(row.get(c) is None for c in columns) or None in row:
+            raise ContractError(f"{path}:{i}: the line has {'too few' if None not in row else 'too many'} cells")
     return rows
 
 
@@ -317,6 +325,24 @@ def _optional_text(value: Any, where: str) -> str | None:
         return None
     if not isinstance(value, str):
         raise ContractError(f"{where}: expected a text, got {value!r}")
+    return value
+
+
+def _table(value: Any, where: str) -> dict[str, Any]:
+    if not isinstance(value, dict):
+        raise ContractError(f"{where} must be a table, got {value!r}")
+    return value
+
+
+def _list(value: Any, where: str) -> list[Any]:
+    if not isinstance(value, list):
+        raise ContractError(f"{where} must be a list, got {value!r}")
+    return value
+
+
+def _year(value: Any, where: str) -> int:
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise ContractError(f"{where}: expected a whole year, got {value!r}")
     return value
 
 
@@ -506,29 +532,35 @@ def _resolve(
     from milepost.schema.units import Deflator, LazyUnits, UnitError, as_co2e, scale_factor
 
     where = str(layers[-1] / "contract.toml")
-    years = head.get("years", {})
-    try:
-        first, last, base = int(years["first"]), int(years["last"]), int(years["base"])
-        milestones = tuple(int(y) for y in years.get("milestones", ()))
-    except (KeyError, TypeError, ValueError) as e:
-        raise ContractError(f"{where}: [years] needs whole numbers first, last, base (and milestones): {e}") from None
-    tol = head.get("tolerance", {})
+    years = _table(head.get("years", {}), f"{where}: [years]")
+    missing = [k for k in ("first", "last", "base") if k not in years]
+    if missing:
+        raise ContractError(f"{where}: [years] needs whole numbers first, last, base (missing {', '.join(missing)})")
+    first, last, base = (_year(years[k], f"{where}: [years] {k}") for k in ("first", "last", "base"))
+    if not isinstance(years.get("milestones", []), list):
+        raise ContractError(f"{where}: [years] milestones must be a list of whole years")
+    milestones = tuple(_year(y, f"{where}: [years] milestones") for y in years.get("milestones", ()))
+    tol = _table(head.get("tolerance", {}), f"{where}: [tolerance]")
     tolerance = Tolerance(
         **{k: _number(v, f"{where} [tolerance] {k}") for k, v in tol.items() if k in Tolerance.__dataclass_fields__}
     )
     unknown_tol = sorted(set(tol) - set(Tolerance.__dataclass_fields__))
     if unknown_tol:
         raise ContractError(f"{where}: [tolerance] has unknown keys {', '.join(unknown_tol)}")
-    units_cfg = head.get("units", {})
+    units_cfg = _table(head.get("units", {}), f"{where}: [units]")
     unknown_units = sorted(set(units_cfg) - {"carbon_to_co2", "nitrogen_to_n2o", "deflators"})
     if unknown_units:
         raise ContractError(
             f"{where}: [units] has unknown keys {', '.join(unknown_units)} (known: carbon_to_co2, nitrogen_to_n2o, "
             "deflators)"
         )
+    raw_deflators = units_cfg.get("deflators", [])
+    if not isinstance(raw_deflators, list) or not all(
+        isinstance(d, dict) and {"from", "to", "factor"} <= set(d) for d in raw_deflators
+    ):
+        raise ContractError(f"{where}: [[units.deflators]] entries need from, to and factor")
     deflators = tuple(
-        (str(d["from"]), str(d["to"]), _number(d["factor"], f"{where} [[units.deflators]]"))
-        for d in units_cfg.get("deflators", ())
+        (str(d["from"]), str(d["to"]), _number(d["factor"], f"{where} [[units.deflators]]")) for d in raw_deflators
     )
     carbon = bool(units_cfg.get("carbon_to_co2", False))
     nitrogen = bool(units_cfg.get("nitrogen_to_n2o", False))
@@ -550,6 +582,10 @@ def _resolve(
         if "unit" not in spec:
             raise ContractError(f"{vfile}: [{name}] has no unit")
         parts = []
+        if not isinstance(spec.get("parts", []), list):
+            raise ContractError(f"{vfile}: [{name}] parts must be a list of names or {{variable = ..., factor = ...}}")
+        if not isinstance(spec["unit"], str):
+            raise ContractError(f"{vfile}: [{name}] unit must be a text, got {spec['unit']!r}")
         for p in spec.get("parts", ()):
             if isinstance(p, str):
                 p = {"variable": p}
@@ -582,11 +618,14 @@ def _resolve(
             harmonise=_optional_text(spec.get("harmonise"), f"{vfile}: [{name}] harmonise"),
             converge_year=_optional_year(spec.get("converge_year"), f"{vfile}: [{name}] converge_year"),
         )
+    for name, spec in regions.items():
+        if not isinstance(spec.get("parts", []), list):
+            raise ContractError(f"regions.toml: [{name}] parts must be a list of region names, got {spec['parts']!r}")
     resolved_regions = {
         name: Region(name, tuple(str(x) for x in spec.get("parts", ())), str(spec.get("description", "")))
         for name, spec in regions.items()
     }
-    severity = {str(k): str(v) for k, v in head.get("severity", {}).items()}
+    severity = {str(k): str(v) for k, v in _table(head.get("severity", {}), f"{where}: [severity]").items()}
     contract = Contract(
         name=str(head.get("name", layers[-1].name)),
         description=str(head.get("description", "")),
@@ -595,7 +634,7 @@ def _resolve(
         last_year=last,
         base_year=base,
         milestones=milestones,
-        required_regions=tuple(years.get("required_regions", ("World",))),
+        required_regions=tuple(str(r) for r in _list(years.get("required_regions", ["World"]), f"{where}: [years] required_regions")),
         variables=resolved,
         regions=resolved_regions,
         countries=countries,

@@ -153,8 +153,8 @@ class Units:
         try:
             self._prepare(s)
             return self.reg.parse_units(s)
-        except (self.pint.errors.PintError, TypeError, ValueError, AttributeError, SyntaxError) as e:
-            raise UnitError(f"unknown unit {unit!r}: {e}") from None
+        except Exception as e:  # noqa: BLE001 - pint's parser lets tokenizer and arithmetic errors through (`Mt CO2/(`, `1/0`)
+            raise UnitError(f"unknown unit {unit!r}: {type(e).__name__}: {e}") from None
 
     @functools.lru_cache(maxsize=4096)  # noqa: B019 - one registry per contract, kept for the process
     def factor(self, source: str, target: str) -> float:
@@ -164,6 +164,8 @@ class Units:
             return float(self.reg.Quantity(1.0, src).to(dst, *self._context).magnitude)
         except self.pint.errors.DimensionalityError:
             raise UnitError(f"{source!r} does not convert to {target!r}") from None
+        except (self.pint.errors.PintError, ArithmeticError) as e:
+            raise UnitError(f"{source!r} does not convert to {target!r}: {type(e).__name__}: {e}") from None
 
     def compatible(self, source: str, target: str) -> bool:
         """True if `source` converts into `target` under this contract."""

@@ -3,6 +3,9 @@
 from __future__ import annotations
 
 import fnmatch
+import hashlib
+import math
+from dataclasses import asdict
 import itertools
 import os
 from pathlib import Path
@@ -94,6 +97,12 @@ def lint(contract: Contract) -> list[Finding]:
                     variable=v.name,
                 )
             )
+        if not v.unit.strip():
+            out.append(
+                _f("contract-unit", f"{v.name}: the unit is empty", 'Give a unit, e.g. "Mt CO2/yr" or "1" for a ratio.',
+                   path=src, variable=v.name)
+            )
+            continue
         try:
             units.parse(v.unit)
         except UnitError as e:
@@ -201,6 +210,32 @@ def lint(contract: Contract) -> list[Finding]:
                 )
             )
     out += _harmonise_problems(c, src)
+    out += _number_problems(c, src)
+    return out
+
+
+def _number_problems(c: Contract, src: str | None) -> list[Finding]:
+    """contract-number: settings that must be finite (and tolerances not negative); NaN passes every comparison,
+    so a NaN tolerance or reference would silently accept anything."""
+    out: list[Finding] = []
+    for name, value in asdict(c.tolerance).items():
+        if not math.isfinite(value) or value < 0:
+            out.append(_f("contract-number", f"[tolerance] {name} = {value!r}: a tolerance is a finite number ≥ 0",
+                          path=src))
+    if not math.isfinite(c.discount_rate):
+        out.append(_f("contract-number", f"discount_rate = {c.discount_rate!r} is not a finite number (% per year)",
+                      path=src))
+    for ref in c.reference:
+        if not math.isfinite(ref.value):
+            out.append(
+                _f("contract-number", f"reference value {ref.value!r} for {ref.variable} in {ref.region} at {ref.year} "
+                   "is not a finite number", path=src, region=ref.region, variable=ref.variable, year=ref.year)
+            )
+    for b in c.bounds:
+        for side, value in (("low", b.low), ("high", b.high)):
+            if value is not None and math.isnan(value):
+                out.append(_f("contract-number", f"bound {side} of {b.variable} is NaN; leave it empty for none",
+                              path=src, variable=b.variable))
     return out
 
 
@@ -304,7 +339,9 @@ def lint_once(contract: Contract) -> list[Finding]:
     pint, which costs more start-up time than checking a small file. Failures are never cached."""
     from milepost.validate import __version__
 
-    marker = _cache_dir() / f"contract-ok-{contract.hash[:32]}-{__version__}"
+    # the rule ids stand for the lint's own version: a release that adds a contract rule lints every contract again
+    rules = hashlib.sha256(" ".join(sorted(RULES)).encode()).hexdigest()[:8]
+    marker = _cache_dir() / f"contract-ok-{contract.hash[:32]}-{__version__}-{rules}"
     if marker.exists():
         return []
     problems = lint(contract)

@@ -143,6 +143,12 @@ RULES: dict[str, Rule] = {
         ),
         Rule("contract-severity", "error", "contract", "A severity override names an unknown rule or severity."),
         Rule(
+            "contract-number",
+            "error",
+            "contract",
+            "A tolerance, discount rate, reference value or bound is negative where it cannot be, NaN or infinite.",
+        ),
+        Rule(
             "contract-harmonise",
             "error",
             "contract",
