@@ -1,47 +1,76 @@
-"""The self-check of uploaded files: run the real checker in memory on temporary copies, never on the database."""
+"""The self-check of uploaded files: the real checker in a child process with a memory and time budget (one upload
+can never take the server down), on temporary copies, never on the database."""
 
 from __future__ import annotations
 
+import shutil
 import tempfile
 from pathlib import Path
+from typing import Any
 
+import duckdb
 import pandas as pd
 
 from milepost.schema.contract import Contract
-from milepost.validate.store.database import connect_memory
+from milepost.validate.findings import FINDING_COLUMNS, SEVERITIES
+from milepost.validate.isolated import check_in_child
 
 
 class CheckedUpload:
-    """One uploaded submission, checked. Kept for the session: the XLSX report copies the uploaded files with
-    the offending cells marked, so the files must outlive the check until the report is asked for."""
+    """One uploaded submission, checked. Its folder (the uploads and the child's reports) is kept for the session
+    so the XLSX report can be downloaded, and removed by `close`, or at once if anything fails on the way."""
 
     def __init__(self, files: list[tuple[str, bytes]], contract: Contract) -> None:
-        from milepost.validate import reports
-        from milepost.validate.runner import run_check
+        self.dir = tempfile.mkdtemp(prefix="milepost-selfcheck-")
+        try:
+            self._check(files, contract)
+        except BaseException:
+            self.close()
+            raise
 
-        self.dir = tempfile.TemporaryDirectory(prefix="milepost-selfcheck-")
+    def _check(self, files: list[tuple[str, bytes]], contract: Contract) -> None:
+        inputs = Path(self.dir) / "in"
+        inputs.mkdir()
         paths = []
         for name, data in files:
-            p = Path(self.dir.name) / Path(name).name
+            p = inputs / (Path(name).name or "upload")
             p.write_bytes(data)
             paths.append(p)
-        self.con = connect_memory()
-        self.result = run_check(paths, contract, con=self.con)
-        self.findings: pd.DataFrame = self.con.execute("SELECT * FROM findings").df()
+        child = check_in_child(paths, Path(contract.sources[-1]), Path(self.dir) / "out")
+        self.failure = child.failure
+        self._xlsx = child.xlsx_path
+        if child.failure is not None:
+            self.counts = {s: 0 for s in SEVERITIES} | {"error": 1}
+            self.rows = 0
+            self.findings = pd.DataFrame(
+                [{c: None for c in FINDING_COLUMNS} | _failure_finding(child.failure, [n for n, _ in files])]
+            )
+            self.json = ""
+            return
+        summary: dict[str, Any] = child.summary
+        self.counts, self.rows = summary["counts"], summary["rows"]
+        con = duckdb.connect(":memory:")
+        try:
+            self.findings = con.execute("SELECT * FROM read_parquet(?)", [str(child.findings_path)]).df()
+        finally:
+            con.close()
         # the temporary folder means nothing to the user: show the uploaded file names
-        self.findings["path"] = self.findings["path"].str.replace(f"{self.dir.name}/", "", regex=False)
-        self.json = reports.to_json(self.result)
+        self.findings["path"] = self.findings["path"].str.replace(f"{inputs}/", "", regex=False)
+        self.json = child.json_path.read_text(encoding="utf-8") if child.json_path else ""
 
     def xlsx(self) -> bytes:
-        """The XLSX report (summary, findings, marked copies of the files), built on demand."""
-        from milepost.validate import reports
-
-        # A folder of its own: an upload may be called report.xlsx too, and a report never replaces an input.
-        out = Path(self.dir.name) / "report" / "milepost-check.xlsx"
-        out.parent.mkdir(exist_ok=True)
-        reports.to_xlsx(self.result, out, force=True)
-        return out.read_bytes()
+        """The XLSX report (summary, findings, marked copies of the files) the child wrote, or nothing."""
+        return self._xlsx.read_bytes() if self._xlsx is not None and self._xlsx.exists() else b""
 
     def close(self) -> None:
-        self.con.close()
-        self.dir.cleanup()
+        shutil.rmtree(self.dir, ignore_errors=True)
+
+
+def _failure_finding(why: str, names: list[str]) -> dict[str, Any]:
+    return {
+        "rule": "limit-exceeded",
+        "severity": "error",
+        "path": ", ".join(names),
+        "message": why,
+        "hint": "Split the submission into smaller files, or check it with `milepost check` on your own machine.",
+    }

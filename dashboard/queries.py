@@ -422,6 +422,13 @@ def contract_name(con: duckdb.DuckDBPyConnection) -> str | None:
     return rows[0][0] if rows else None
 
 
+def contract_names(con: duckdb.DuckDBPyConnection) -> list[str]:
+    """Every contract the database's submissions name, the most recently used first."""
+    rows = con.execute("""SELECT contract_name FROM submissions WHERE contract_name IS NOT NULL
+                          GROUP BY 1 ORDER BY max(submitted_at) DESC, 1""").fetchall()
+    return [r[0] for r in rows]
+
+
 def submissions(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
     """Every submission, newest first, with its version per model (the `submission_versions` view; none if rejected)."""
     versions = view_or_definition(con, "submission_versions")  # a database not yet migrated lacks the view

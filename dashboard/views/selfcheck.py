@@ -14,30 +14,49 @@ from milepost.validate.errors import LoadError
 st.title("Self-check")
 st.write(
     "Upload a submission (CSV, TSV, XLSX or Parquet; a scenarios table may come with it) to see what the "
-    "checks find before you submit. The files are checked in memory and nothing is stored."
+    "checks find before you submit. The files are checked in a separate process, within a memory and time "
+    "budget, and nothing is stored."
 )
 
-name = None
+known: list[str] = []
+newest = None
 if connection.db_path().exists():
     try:
-        name = ui.query(queries.contract_name)
+        known = ui.query(queries.contract_names)
+        newest = ui.query(queries.contract_name)
     except (duckdb.Error, LoadError):
-        name = None
-found = contracts.find(name)
-if found.contract is None:
+        known = []
+found_by_name = {n: contracts.find(n) for n in known}
+usable = [n for n, f in found_by_name.items() if f.contract is not None]
+if usable:
+    default = usable.index(newest) if newest in usable else 0
+    picked = st.selectbox(
+        "Contract",
+        usable,
+        index=default,
+        key="check_contract",
+        help="The contracts the database's submissions were checked against; the newest accepted one first.",
+    )
+    found = found_by_name[picked]
+else:
     found = contracts.find("core")
-    st.warning("Using the core contract: the database's contract is not available here.")
+    if known:
+        st.warning(
+            "Using the core contract: none of the database's contracts (" + ", ".join(known) + ") is available here."
+        )
 contract = found.contract
 if contract is None:
     st.error(f"No contract to check against: {found.source}.")
     ui.stop()
-st.caption(f"Contract: {found.source}.")
+st.caption(f"Checked against contract **{contract.name}** ({found.source}; hash {contract.hash[:12]}).")
 
 files = st.file_uploader("Files", type=["csv", "tsv", "xlsx", "parquet"], accept_multiple_files=True, key="check_files")
 if not files:
     ui.stop()
 
-digest = hashlib.sha256(b"".join(hashlib.sha256(f.getvalue()).digest() + f.name.encode() for f in files)).hexdigest()
+digest = hashlib.sha256(
+    contract.hash.encode() + b"".join(hashlib.sha256(f.getvalue()).digest() + f.name.encode() for f in files)
+).hexdigest()
 held = st.session_state.get("_checked")
 if held is None or held[0] != digest:
     if held is not None:
@@ -45,7 +64,9 @@ if held is None or held[0] != digest:
     with st.spinner("Checking..."):
         st.session_state["_checked"] = (digest, CheckedUpload([(f.name, f.getvalue()) for f in files], contract))
 checked: CheckedUpload = st.session_state["_checked"][1]
-counts, rows, table = checked.result.counts, checked.result.rows, checked.findings
+counts, rows, table = checked.counts, checked.rows, checked.findings
+if checked.failure:
+    st.error(f"The check could not finish: {checked.failure}. The server is unaffected; nothing was stored.")
 
 c1, c2, c3, c4 = st.columns(4)
 c1.metric("Rows read", f"{rows:,}")
