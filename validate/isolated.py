@@ -60,6 +60,9 @@ def check_in_child(
         stdout=subprocess.DEVNULL,
         stderr=subprocess.PIPE,
         start_new_session=True,
+        # Thread pools reserve address space per thread (OpenBLAS through numpy, glibc's malloc arenas): with a
+        # budget on address space, one thread each leaves the budget to the data.
+        env={**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MALLOC_ARENA_MAX": "2"},
     )
     try:
         _, err = proc.communicate(timeout=seconds)
@@ -72,7 +75,10 @@ def check_in_child(
         )
     tail = err.decode("utf-8", "replace").strip().splitlines()[-1:] if err else []
     if proc.returncode != 0 or not (out_dir / "summary.json").exists():
-        if proc.returncode in (-signal.SIGKILL, -signal.SIGSEGV) or any("MemoryError" in t or "Out of Memory" in t for t in tail):
+        text = " ".join(tail).lower()
+        if proc.returncode in (-signal.SIGKILL, -signal.SIGSEGV) or any(
+            w in text for w in ("memoryerror", "out of memory", "cannot allocate", "memory allocation")
+        ):
             why = f"the check needed more than its memory budget of {memory_bytes >> 20:,} MB (${ENV_MEMORY} raises it)"
         else:
             why = f"the check stopped (exit {proc.returncode}{': ' + tail[0] if tail else ''})"

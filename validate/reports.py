@@ -155,14 +155,17 @@ def _raw_rows(
     p = Path(path)
     rows: list[tuple[int, list[Any]]] = []
     if p.suffix.lower() in (".xlsx", ".xlsm"):
-        import openpyxl
+        from milepost.validate.xlsx import open_workbook
 
-        wb = openpyxl.load_workbook(p, read_only=True, data_only=True)
+        # The checker's own streaming reader: the same rows and lines as the check, within the same limits
+        # (a sheet that claims a million rows is not expanded here either).
+        wb = open_workbook(str(p), result.contract.limits)
         try:
-            it = wb[sheet or wb.sheetnames[0]].iter_rows(values_only=True)
-            header = [str(h) if h is not None else "" for h in next(it)]
-            for n, r in enumerate(it, start=2):
-                if n > limit + 1:
+            it = wb.rows(sheet or wb.worksheets()[0])
+            first = next(it, None)
+            header = [h if h is not None else "" for h in first[1]] if first else []
+            for n, r in it:
+                if len(rows) >= limit:
                     break
                 rows.append((n, list(r)))
         finally:
@@ -180,10 +183,13 @@ def _raw_rows(
     with p.open(encoding="utf-8-sig" if d.encoding == "utf-8" else d.encoding, newline="") as f:
         reader = csv.reader(f, delimiter=d.delimiter)
         header = next(reader, [])
-        for cells in reader:
-            if len(rows) >= limit:
+        while len(rows) < limit:
+            start = reader.line_num + 1  # a record with a quoted newline is marked on its first line, as found
+            cells = next(reader, None)
+            if cells is None:
                 break
-            rows.append((reader.line_num, cells))
+            if cells:
+                rows.append((start, cells))
     return header, rows
 
 
