@@ -535,6 +535,11 @@ def read_file(
     except duckdb.Error as e:
         inp.kind, inp.error = "unreadable", _duckdb_reason(e)
         inp.error_line = _error_line(str(e))
+        if "Maximum line size" in str(e):
+            inp.error_line = None  # DuckDB names the line it was in, not the long one
+            inp.limits_hit.append(
+                f"a line is longer than {limits.max_line_bytes:,} bytes (max_line_bytes); the file was not read"
+            )
     except (UnicodeDecodeError, csv.Error, StopIteration) as e:
         inp.kind, inp.error = "unreadable", f"{type(e).__name__}: {e}"
     except OSError as e:  # no permission, a read error of the disk: the file cannot be read, as any other

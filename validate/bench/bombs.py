@@ -83,7 +83,7 @@ def write_xlsx(
         z.writestr("[Content_Types].xml", _CONTENT_TYPES.format(sheets=overrides))
         z.writestr("_rels/.rels", _ROOT_RELS)
         entries, rels = [], []
-        names = [*sheets, *chartsheets]
+        names = [*chartsheets, *sheets]  # chartsheets first: a reader must skip them to find the data
         for i, name in enumerate(names, start=1):
             entries.append(f'<sheet name="{escape(name, {chr(34): "&quot;"})}" sheetId="{i}" r:id="rId{i}"/>')
             if name in sheets:
