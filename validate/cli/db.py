@@ -64,8 +64,6 @@ def ingest_cmd(
         list[Path],
         typer.Argument(
             help="The files of one submission: data tables (CSV/TSV, XLSX, Parquet) and optionally a scenarios table.",
-            exists=True,
-            dir_okay=False,
             show_default=False,
         ),
     ],

@@ -188,9 +188,11 @@ def ingest(
     files = [Path(p) for p in paths]
     if not files:
         raise UsageError("no files given")
-    missing = [str(p) for p in files if not p.is_file()]
+    from milepost.validate.readers import not_a_file
+
+    missing = [f"{p} ({why})" for p in files if (why := not_a_file(p))]
     if missing:
-        raise UsageError(f"not a file: {', '.join(missing)}")
+        raise UsageError(f"not a file: {'; '.join(missing)}")
     resolved = [p.resolve() for p in files]
     if len(set(resolved)) != len(resolved):
         raise UsageError("the same file is given more than once")
