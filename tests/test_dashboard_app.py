@@ -471,3 +471,43 @@ def test_an_outdated_database_is_shown_with_a_warning(demo_db, tmp_path):
         assert "band_basis" not in [r.key for r in at.radio]  # no raw/harmonised switch without harmonised values
     at = open_app(demo_db)
     assert not any("older conventions" in w.value for w in at.warning)
+
+
+def test_selfcheck_bomb_upload_gives_a_finding_and_the_app_stays_responsive(demo, sql, tmp_path, monkeypatch):
+    from milepost.validate.bench import bombs
+
+    db, files = demo
+    at = open_app(db, "views/selfcheck.py")
+    names = sql.execute("SELECT DISTINCT contract_name FROM submissions").fetchall()
+    picker = at.selectbox(key="check_contract")
+    assert picker.value == names[0][0] and set(picker.options) == {n for (n,) in names}
+    assert any(f"contract **{picker.value}**" in c.value for c in at.caption)
+
+    # a cell beyond Excel's limit: the child stops at the limit and says so
+    bomb = bombs.huge_cell_xlsx(tmp_path / "cell.xlsx", chars=40_000)
+    at.file_uploader(key="check_files").set_value([(bomb.name, bomb.read_bytes(), "application/octet-stream")]).run()
+    assert not at.exception, [e.message for e in at.exception]
+    shown = frame(at, "hint")
+    assert shown["rule"].tolist() == ["limit-exceeded"] and "32,767 characters" in shown["message"][0]
+    first_dir = at.session_state["_checked"][1].dir
+
+    # a check that outruns its time budget is stopped: one finding, and the page goes on
+    monkeypatch.setenv("MILEPOST_SELFCHECK_SECONDS", "0.05")
+    slow = bombs.empty_rows_csv(tmp_path / "empty.csv", rows=20_000)
+    at.file_uploader(key="check_files").set_value([(slow.name, slow.read_bytes(), "text/csv")]).run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert any("time budget" in e.value for e in at.error)
+    assert frame(at, "hint")["rule"].tolist() == ["limit-exceeded"]
+    assert not Path(first_dir).exists()  # the previous upload's folder is gone
+    monkeypatch.delenv("MILEPOST_SELFCHECK_SECONDS")
+
+    # still responsive: a good submission checks as before, another page renders
+    at.file_uploader(key="check_files").set_value(
+        [(p.name, p.read_bytes(), "text/csv") for p in files.submissions["Ferrow"]]
+    ).run()
+    assert any("would be accepted" in s.value for s in at.success)
+    held = Path(at.session_state["_checked"][1].dir)
+    at.switch_page("views/screen.py").run()
+    assert not at.exception
+    at.session_state["_checked"][1].close()
+    assert not held.exists()

@@ -199,8 +199,8 @@ def run(workdir: Path, repeat: int = 1) -> list[dict[str, Any]]:
         rules = sorted({f["rule"] for f in json.loads(report.read_text())["findings"]}) if report.exists() else []
         results.append(
             {
-                "step": f"milepost check, bomb {name} ({path.stat().st_size / 1e6:.1f} MB; exit {got['exit']}; "
-                f"{', '.join(rules[:3]) or 'no report'})",
+                "step": f"milepost check, bomb {name} ({path.stat().st_size / 1e6:.1f} MB on disk; exit {got['exit']}; "
+                f"{', '.join(rules[:3]) or 'no report'}; memory target {MEMORY_TARGET_MB} MB)",
                 "seconds": got["seconds"],
                 "floor_seconds": floor["seconds"],
                 "ratio": got["seconds"] / floor["seconds"],

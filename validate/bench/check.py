@@ -112,6 +112,7 @@ SECTIONS = {
     "check": "milepost.validate.bench.check:bench_check",
     "ingest": "milepost.validate.bench.ingest:run",
     "dashboard": "milepost.validate.bench.dashboard:run",
+    "bombs": "milepost.validate.bench.bombs:run",
 }
 
 
