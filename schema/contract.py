@@ -634,7 +634,9 @@ def _resolve(
         last_year=last,
         base_year=base,
         milestones=milestones,
-        required_regions=tuple(str(r) for r in _list(years.get("required_regions", ["World"]), f"{where}: [years] required_regions")),
+        required_regions=tuple(
+            str(r) for r in _list(years.get("required_regions", ["World"]), f"{where}: [years] required_regions")
+        ),
         variables=resolved,
         regions=resolved_regions,
         countries=countries,

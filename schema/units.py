@@ -153,7 +153,7 @@ class Units:
         try:
             self._prepare(s)
             return self.reg.parse_units(s)
-        except Exception as e:  # noqa: BLE001 - pint's parser lets tokenizer and arithmetic errors through (`Mt CO2/(`, `1/0`)
+        except Exception as e:  # pint lets tokenizer and arithmetic errors through (`Mt CO2/(`, `1/0`)
             raise UnitError(f"unknown unit {unit!r}: {type(e).__name__}: {e}") from None
 
     @functools.lru_cache(maxsize=4096)  # noqa: B019 - one registry per contract, kept for the process

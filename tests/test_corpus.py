@@ -10,6 +10,7 @@ import sys
 
 import pandas as pd
 import pytest
+from hostile import BROKEN_CONTRACTS, broken_contract
 from typer.testing import CliRunner
 
 from milepost.validate.bench import bombs
@@ -17,8 +18,6 @@ from milepost.validate.cli import app
 
 from builders import consistent_rows, write_csv
 from conftest import BASIC_CONTRACT
-from hostile import BROKEN_CONTRACTS, broken_contract
-
 
 # A control character cannot be written into XLSX as it is; escaping it in reports is the output side's work
 # (another branch). Until that lands, these files skip the XLSX report here.
@@ -75,7 +74,9 @@ def _hostile(tmp_path, basic, lines):
             "unreadable-file",
         ),
         "dtd.xlsx": (
-            lambda p: bombs.write_xlsx(p, {"data": good_sheet.replace("<worksheet", '<!DOCTYPE w [<!ENTITY a "b">]><worksheet', 1)}),
+            lambda p: bombs.write_xlsx(
+                p, {"data": good_sheet.replace("<worksheet", '<!DOCTYPE w [<!ENTITY a "b">]><worksheet', 1)}
+            ),
             "unreadable-file",
         ),
         "bob.xlsx": (lambda p: bombs.write_xlsx(p, {"Bob's data": good_sheet}), "unknown-variable"),

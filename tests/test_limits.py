@@ -75,7 +75,9 @@ def test_a_shared_text_longer_than_the_limit_stops_the_reading(tmp_path, check, 
     row = "".join(bombs.sheet_xml([bombs.HEADER])).replace(
         "</sheetData>", '<row r="2"><c r="A2" t="s"><v>0</v></c></row></sheetData>'
     )
-    shared = f'<sst xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><si><t>{"x" * 40_000}</t></si></sst>'
+    shared = (
+        f'<sst xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><si><t>{"x" * 40_000}</t></si></sst>'
+    )
     path = bombs.write_xlsx(tmp_path / "shared.xlsx", {"data": row}, extra={"xl/sharedStrings.xml": shared})
     assert "limit-exceeded" in {f.rule for f in check(path, basic).findings}
 

@@ -86,9 +86,7 @@ def test_a_value_like_a_thousands_separator_under_decimal_commas_is_a_warning(tm
     assert found[0].line == 5 and "51,169" in found[0].message and "1 values" in found[0].message
 
 
-@pytest.mark.parametrize(
-    ("text", "code"), [("\x07", 7), ("\t", 9), ("\ufeff", 0xFEFF), ("\x1b", 27), ("\x85", 0x85)]
-)
+@pytest.mark.parametrize(("text", "code"), [("\x07", 7), ("\t", 9), ("\ufeff", 0xFEFF), ("\x1b", 27), ("\x85", 0x85)])
 def test_names_with_control_characters_get_their_own_finding(tmp_path, check, basic, text, code):
     rows = consistent_rows(basic)
     for r in rows:

@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import fnmatch
 import hashlib
-import math
-from dataclasses import asdict
 import itertools
+import math
 import os
+from dataclasses import asdict
 from pathlib import Path
 from typing import Any
 
@@ -99,8 +99,13 @@ def lint(contract: Contract) -> list[Finding]:
             )
         if not v.unit.strip():
             out.append(
-                _f("contract-unit", f"{v.name}: the unit is empty", 'Give a unit, e.g. "Mt CO2/yr" or "1" for a ratio.',
-                   path=src, variable=v.name)
+                _f(
+                    "contract-unit",
+                    f"{v.name}: the unit is empty",
+                    'Give a unit, e.g. "Mt CO2/yr" or "1" for a ratio.',
+                    path=src,
+                    variable=v.name,
+                )
             )
             continue
         try:
@@ -220,22 +225,37 @@ def _number_problems(c: Contract, src: str | None) -> list[Finding]:
     out: list[Finding] = []
     for name, value in asdict(c.tolerance).items():
         if not math.isfinite(value) or value < 0:
-            out.append(_f("contract-number", f"[tolerance] {name} = {value!r}: a tolerance is a finite number ≥ 0",
-                          path=src))
+            out.append(
+                _f("contract-number", f"[tolerance] {name} = {value!r}: a tolerance is a finite number ≥ 0", path=src)
+            )
     if not math.isfinite(c.discount_rate):
-        out.append(_f("contract-number", f"discount_rate = {c.discount_rate!r} is not a finite number (% per year)",
-                      path=src))
+        out.append(
+            _f("contract-number", f"discount_rate = {c.discount_rate!r} is not a finite number (% per year)", path=src)
+        )
     for ref in c.reference:
         if not math.isfinite(ref.value):
             out.append(
-                _f("contract-number", f"reference value {ref.value!r} for {ref.variable} in {ref.region} at {ref.year} "
-                   "is not a finite number", path=src, region=ref.region, variable=ref.variable, year=ref.year)
+                _f(
+                    "contract-number",
+                    f"reference value {ref.value!r} for {ref.variable} in {ref.region} at {ref.year} "
+                    "is not a finite number",
+                    path=src,
+                    region=ref.region,
+                    variable=ref.variable,
+                    year=ref.year,
+                )
             )
     for b in c.bounds:
         for side, value in (("low", b.low), ("high", b.high)):
             if value is not None and math.isnan(value):
-                out.append(_f("contract-number", f"bound {side} of {b.variable} is NaN; leave it empty for none",
-                              path=src, variable=b.variable))
+                out.append(
+                    _f(
+                        "contract-number",
+                        f"bound {side} of {b.variable} is NaN; leave it empty for none",
+                        path=src,
+                        variable=b.variable,
+                    )
+                )
     return out
 
 

@@ -380,7 +380,7 @@ def _read_xlsx(
         extra_inputs: list[InputFile] = []
         if "scenarios" in names and data_sheet != "scenarios":
             sc = InputFile(path=inp.path, sha256=inp.sha256, kind="scenarios", sheet="scenarios")
-            rows = []
+            rows: list[list[str | None]] = []
             for _, r in wb.rows("scenarios"):
                 if len(rows) > limits.max_rows:
                     sc.limits_hit.append(_rows_hit(limits))
@@ -457,7 +457,10 @@ def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, ta
     if inp.missing_columns:
         inp.rows = con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0]
         return
-    src = f"(SELECT * FROM read_parquet({literal(str(path))}, file_row_number = true) WHERE file_row_number < {int(limits.max_rows)})"  # noqa: S608 - path via validate.sql
+    src = (
+        f"(SELECT * FROM read_parquet({literal(str(path))}, file_row_number = true) "  # noqa: S608 - path via validate.sql
+        f"WHERE file_row_number < {int(limits.max_rows)})"
+    )
     con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(found, src, 'file_row_number + 1')}")
     total = con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0]
     if total > limits.max_rows:

@@ -228,10 +228,9 @@ class Workbook:
                     value = raw
                 if value != "" or kind in ("s", "str", "inlineStr"):
                     row[state["col"]] = value
-            elif tag == "row":
-                if row:
-                    width = max(row) + 1
-                    ready.append((state["row"], [row.get(i) for i in range(width)]))
+            elif tag == "row" and row:
+                width = max(row) + 1
+                ready.append((state["row"], [row.get(i) for i in range(width)]))
 
         def text(data: str) -> None:
             if state["in"]:
