@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import functools
 import os
+import re
 import time
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
@@ -209,6 +210,9 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
         )
 
 
+_RULE = re.compile(r"'([a-z0-9-]+)' AS rule\b")
+
+
 class _Store:
     """Inserts findings into the TEMP table `findings`, at most `cap` per rule; `totals` counts every one, so
     a million empty cells cost a million counts, not a million stored rows."""
@@ -216,29 +220,35 @@ class _Store:
     def __init__(self, con: duckdb.DuckDBPyConnection, severity: str, cap: int) -> None:
         self.con, self.severity, self.cap = con, severity, cap
         self.totals: dict[tuple[str, str], int] = {}
+        self.stored: dict[str, int] = {}
 
-    def _stored(self, rule: str) -> int:
-        return min(self.cap, sum(n for (r, _), n in self.totals.items() if r == rule))
+    def _add(self, counts: dict[tuple[str, str], int]) -> None:
+        for key, n in counts.items():
+            self.totals[key] = self.totals.get(key, 0) + n
 
     def insert(self, sql: str) -> None:
         # Most checks leave severity to the rule table; one names a finer one itself (the spelling-only unit note).
         if " AS severity" not in sql:
             sql = f"SELECT NULL::VARCHAR AS severity, * FROM ({sql})"  # noqa: S608 - names from the code; user text via validate.sql
+        rules = set(_RULE.findall(sql))
         sql = f"SELECT * REPLACE ({self.severity} AS severity) FROM ({sql})"  # noqa: S608 - names from the code; user text via validate.sql
-        # Counting first reads only the rule column (DuckDB drops the unused message text), so a check with
-        # millions of findings stores its first `cap` without ever building the rest.
-        counts = self.con.execute(f"SELECT rule, severity, count(*) FROM ({sql}) GROUP BY ALL").fetchall()  # noqa: S608 - names from the code; user text via validate.sql
-        if not counts:
+        if len(rules) == 1 and self._insert_one(sql, rules.pop()):
             return
-        room = {r: self.cap - self._stored(r) for r, _, _ in counts}
+        # Counting reads only the rule column (DuckDB drops the unused message text), so a check with millions
+        # of findings stores its first `cap` without ever building the rest.
+        counts = self.con.execute(f"SELECT rule, severity, count(*) FROM ({sql}) GROUP BY ALL").fetchall()  # noqa: S608 - names from the code; user text via validate.sql
+        self._add({(r, sev): int(n) for r, sev, n in counts})
         per_rule: dict[str, int] = {}
-        for rule, sev, n in counts:
+        for rule, _, n in counts:
             per_rule[rule] = per_rule.get(rule, 0) + int(n)
-            self.totals[(rule, sev)] = self.totals.get((rule, sev), 0) + int(n)
+        room = {r: self.cap - self.stored.get(r, 0) for r in per_rule}
         over = sorted(r for r, n in per_rule.items() if n > room[r])
         if len(over) < len(per_rule):
             keep = f"WHERE rule NOT IN ({', '.join(literal(r) for r in over)})" if over else ""
             self.con.execute(f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) {keep}")  # noqa: S608 - names from the code; user text via validate.sql
+            for r, n in per_rule.items():
+                if r not in over:
+                    self.stored[r] = self.stored.get(r, 0) + n
         for rule in over:
             if room[rule] > 0:
                 self.con.execute(
@@ -246,14 +256,37 @@ class _Store:
                     f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) WHERE rule = ? LIMIT ?",  # noqa: S608 - names from the code; user text via validate.sql
                     [rule, room[rule]],
                 )
+                self.stored[rule] = self.cap
+
+    def _insert_one(self, sql: str, rule: str) -> bool:
+        """A check of one rule in one pass: insert up to the room left and count what went in. False (nothing
+        inserted) when the room is gone, or (all of it inserted) when the result may go on beyond it: then the
+        caller counts the whole result, and inserts no more of this rule."""
+        room = self.cap - self.stored.get(rule, 0)
+        if room <= 0:
+            return False
+        n = self.con.execute(f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) LIMIT ?", [room]).fetchall()[0][0]  # noqa: S608 - names from the code; user text via validate.sql
+        self.stored[rule] = self.stored.get(rule, 0) + int(n)
+        if n >= room:
+            return False
+        # under the cap: every finding of this check is in the table, so its counts come from there
+        if n:
+            rows = self.con.execute(
+                "SELECT severity, count(*) FROM (SELECT severity FROM findings WHERE rule = ? "
+                "ORDER BY rowid DESC LIMIT ?) GROUP BY 1",
+                [rule, int(n)],
+            ).fetchall()
+            self._add({(rule, sev): int(k) for sev, k in rows})
+        return True
 
     def insert_findings(self, found: list[Finding], severity: dict[str, str]) -> None:
         """Findings made in Python (file problems, scenarios tables), under the same cap."""
         rows = []
         for f in found:
             sev = severity.get(f.rule, f.severity)
-            if self._stored(f.rule) < self.cap:
+            if self.stored.get(f.rule, 0) < self.cap:
                 rows.append(tuple(f.to_dict()[c] if c != "severity" else sev for c in FINDING_COLUMNS))
+                self.stored[f.rule] = self.stored.get(f.rule, 0) + 1
             self.totals[(f.rule, sev)] = self.totals.get((f.rule, sev), 0) + 1
         if rows:
             self.con.executemany(
