@@ -487,7 +487,7 @@ def test_selfcheck_bomb_upload_gives_a_finding_and_the_app_stays_responsive(demo
     bomb = bombs.huge_cell_xlsx(tmp_path / "cell.xlsx", chars=40_000)
     at.file_uploader(key="check_files").set_value([(bomb.name, bomb.read_bytes(), "application/octet-stream")]).run()
     assert not at.exception, [e.message for e in at.exception]
-    shown = frame(at, "hint")
+    shown = frame(at, "how to fix")
     assert shown["rule"].tolist() == ["limit-exceeded"] and "32,767 characters" in shown["message"][0]
     first_dir = at.session_state["_checked"][1].dir
 
@@ -497,7 +497,7 @@ def test_selfcheck_bomb_upload_gives_a_finding_and_the_app_stays_responsive(demo
     at.file_uploader(key="check_files").set_value([(slow.name, slow.read_bytes(), "text/csv")]).run()
     assert not at.exception, [e.message for e in at.exception]
     assert any("time budget" in e.value for e in at.error)
-    assert frame(at, "hint")["rule"].tolist() == ["limit-exceeded"]
+    assert frame(at, "how to fix")["rule"].tolist() == ["limit-exceeded"]
     assert not Path(first_dir).exists()  # the previous upload's folder is gone
     monkeypatch.delenv("MILEPOST_SELFCHECK_SECONDS")
 
