@@ -30,6 +30,12 @@ RULES: dict[str, Rule] = {
             "A required column (model, scenario, region, variable, unit, year, value) is absent.",
         ),
         Rule("empty-table", "error", "data", "The file has a header but no data rows."),
+        Rule(
+            "wide-table",
+            "note",
+            "data",
+            "The table has one column per year; it was read as the long table (one row per non-empty year cell).",
+        ),
         Rule("unexpected-column", "warning", "data", "A column the long format does not have; it is ignored."),
         Rule("bad-year", "error", "data", "The year is not a whole number inside the contract's year range."),
         Rule("bad-value", "error", "data", "The value is not a finite number."),

@@ -20,6 +20,7 @@ from milepost.validate.checks.structure import file_findings
 from milepost.validate.findings import FINDING_COLUMNS, RULES, SEVERITIES, Finding, finding_columns_ddl, findings_from
 from milepost.validate.readers import InputFile, read_file
 from milepost.validate.sql import enum_type, literal
+from milepost.validate.wide import locate_findings
 
 FINDINGS_PER_RULE = 1000
 PROGRESS_BYTES = 40 << 20  # about a million long-format rows
@@ -314,6 +315,7 @@ def run_check(
                     for f in extra
                 ],
             )
+        locate_findings(con, inputs)
     rule_counts = [
         (r, s, int(n))
         for r, s, n in con.execute(
