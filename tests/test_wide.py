@@ -53,7 +53,9 @@ def twins(tmp_path_factory, basic):
     wide_xlsx = d / "wide.xlsx"
     with pd.ExcelWriter(wide_xlsx) as xw:
         # year headers as numbers, as a spreadsheet keeps them
-        wide.rename(columns={c: int(c) for c in wide.columns if c.isdigit()}).to_excel(xw, sheet_name="data", index=False)
+        wide.rename(columns={c: int(c) for c in wide.columns if c.isdigit()}).to_excel(
+            xw, sheet_name="data", index=False
+        )
     wide_parquet = d / "wide.parquet"
     wide.to_parquet(wide_parquet)
     return rows, wide, {"long": long_csv, "csv": wide_csv, "xlsx": wide_xlsx, "parquet": wide_parquet}
