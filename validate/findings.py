@@ -82,6 +82,32 @@ RULES: dict[str, Rule] = {
             "The base-year value is further from the contract's reference value than the tolerance.",
         ),
         Rule("out-of-bounds", "warning", "data", "The value is outside the contract's plausibility bounds."),
+        Rule("no-data-rows", "error", "data", "The submission holds no data rows (only scenarios tables)."),
+        Rule(
+            "unknown-reference",
+            "error",
+            "data",
+            "A scenario's reference names no scenario of the submission (nor, at ingest, a stored one).",
+        ),
+        Rule("scenario-without-data", "warning", "data", "The scenarios table lists a scenario that has no data rows."),
+        Rule(
+            "scenario-not-listed",
+            "warning",
+            "data",
+            "Data for a scenario the scenarios table does not list (checked where a scenarios table is given).",
+        ),
+        Rule(
+            "missing-reference",
+            "error",
+            "data",
+            "The contract requires a reference for cost indicators ([costs] reference_required) and none is named.",
+        ),
+        Rule(
+            "reference-cycle",
+            "error",
+            "data",
+            "A scenario names itself as its reference, or its references lead back to it: no costs are computed.",
+        ),
         Rule(
             "harmonise-no-base-year",
             "warning",

@@ -210,8 +210,13 @@ def _insert(con: duckdb.DuckDBPyConnection, sql: str, severity: str) -> None:
     con.execute(f"INSERT INTO findings BY NAME SELECT * REPLACE ({severity} AS severity) FROM ({sql})")  # noqa: S608 - names from the code; user text via validate.sql
 
 
-def _scenario_attributes(inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
-    """The scenarios tables given (validated), merged into one frame; None when there are none."""
+def _scenario_attributes(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
+    """The scenarios tables given (validated), merged into one frame; None when there are none. Their rows also
+    go into the TEMP table `s_listed` (path, sheet, line, model, scenario, reference) the scenario checks read."""
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE s_listed (path VARCHAR, sheet VARCHAR, line BIGINT, model VARCHAR, "
+        "scenario VARCHAR, reference VARCHAR)"
+    )
     tables = [i for i in inputs if i.kind == "scenarios" and i.scenarios is not None]
     if not tables:
         return None, []
@@ -224,6 +229,20 @@ def _scenario_attributes(inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
         clean, found = validate_scenarios(inp.scenarios, inp.path, inp.sheet)
         findings += found
         frames.append(clean)
+        listed = clean.assign(
+            path=inp.path,
+            sheet=inp.sheet,
+            line=clean.index + 2,  # the line numbering validate_scenarios uses
+            reference=clean["reference"] if "reference" in clean.columns else None,
+        )[["path", "sheet", "line", "model", "scenario", "reference"]]
+        con.register("s_listed_frame", listed)
+        try:
+            con.execute(
+                "INSERT INTO s_listed SELECT path, sheet, line, model, scenario, "
+                "CASE WHEN trim(reference) <> '' THEN trim(reference) END FROM s_listed_frame"
+            )
+        finally:
+            con.unregister("s_listed_frame")
     attrs = pd.concat(frames, ignore_index=True).drop_duplicates(["model", "scenario"], keep="first")
     if "reference" not in attrs.columns:
         attrs["reference"] = None
@@ -258,9 +277,12 @@ def run_check(
     progress: bool = False,
     findings_per_rule: int = FINDINGS_PER_RULE,
     digests: Sequence[str] | None = None,
+    known_scenarios: Sequence[tuple[str, str, str | None]] = (),
 ) -> CheckResult:
     """Check submission files against a contract. Bad data becomes findings; this raises only for broken programs.
-    `digests`: the files' sha256, in the order of `paths`, when the caller has computed them already."""
+    `digests`: the files' sha256, in the order of `paths`, when the caller has computed them already.
+    `known_scenarios`: (model, scenario, reference) stored already (ingest passes the database's current ones), so
+    a reference may name a scenario submitted before."""
     con = con if con is not None else duckdb.connect(config={"autoinstall_known_extensions": False})
     files = [Path(p) for p in paths]
     big = progress and sum(p.stat().st_size for p in files if p.is_file()) > PROGRESS_BYTES
@@ -290,6 +312,10 @@ def run_check(
         )
         lap("combos")
         ctx = Context(con, contract, inputs)
+        attributes, scen_findings = _scenario_attributes(con, inputs)
+        con.execute("CREATE OR REPLACE TEMP TABLE s_known (model VARCHAR, scenario VARCHAR, reference VARCHAR)")
+        if known_scenarios:
+            con.executemany("INSERT INTO s_known VALUES (?, ?, ?)", [tuple(k) for k in known_scenarios])
         pre = file_findings(ctx)
         severity_case = _severity_case(contract)
         for check in ROW_CHECKS:
@@ -304,7 +330,6 @@ def run_check(
                 _insert(con, sql, severity_case)
             lap(check.__name__)
         step("collecting findings")
-        attributes, scen_findings = _scenario_attributes(inputs)
         extra = pre + scen_findings
         if extra:
             eff = effective_severity(contract)
