@@ -359,10 +359,14 @@ def diff_cmd(
         bool,
         typer.Option("--common", help="Compare only the scenarios both submissions have (for a partial revision)."),
     ] = False,
+    any_model: Annotated[
+        bool, typer.Option("--any-model", help="Allow comparing submissions of two different models.")
+    ] = False,
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Output format.")] = TextJson.text,
     limit: Annotated[int, typer.Option(help="Rows listed per kind of change (0 = all).", min=0)] = 20,
 ) -> None:
-    """Rows added, removed and changed beyond tolerance between two submissions. Exit 0 either way."""
+    """Rows added, removed and changed beyond tolerance between two versions of one model's submissions; rows
+    of scenarios the newer one does not hold are untouched (still current), not removed. Exit 0 either way."""
     from milepost.validate.store.database import default_db_path
     from milepost.validate.store.exports import diff
 
@@ -371,18 +375,29 @@ def diff_cmd(
     c = load_contract(contract, strict=False)
     rel = c.tolerance.sum_relative if relative is None else relative
     ab = c.tolerance.sum_absolute if absolute is None else absolute
-    d = diff(default_db_path(db), a, b, rel, ab, limit, common_only=common)
+    d = diff(default_db_path(db), a, b, rel, ab, limit, common_only=common, any_model=any_model)
     if fmt is TextJson.json:
         _echo_json(d.to_dict())
         return
     n = d.counts
+
+    def named(sid: int, model: str | None, version: int | None) -> str:
+        return f"submission {sid} ({model or '-'}{f' v{version}' if version else ''})"
+
+    echo(f"Compared {named(a, d.models[0], d.versions[0])} with {named(b, d.models[1], d.versions[1])}.")
+    untouched = f", {n['untouched']:,} untouched" if n["untouched"] else ""
     echo(
         f"Submission {a} -> {b}: {n['added']:,} added, {n['removed']:,} removed, {n['changed']:,} changed "
-        f"beyond tolerance (relative {rel:g}, absolute {ab:g}), {n['same']:,} unchanged."
+        f"beyond tolerance (relative {rel:g}, absolute {ab:g}), {n['same']:,} unchanged{untouched}."
     )
     for side, names in ((a, d.only_a), (b, d.only_b)):
         if names:
-            note = " (not compared: --common)" if common else ""
+            if common:
+                note = " (not compared: --common)"
+            elif side == a:
+                note = f" (untouched by {b}: still current, not removed)"
+            else:
+                note = " (new)"
             echo(f"Scenarios only in {side}{note}: {_scenario_list(names)}")
     for kind, sign in (("added", "+"), ("removed", "-")):
         for r in getattr(d, kind):

@@ -144,6 +144,21 @@ def _check_repeat_before_lock(
         return _find_repeat(reader.con, "db", sha, contract_hash, accept_warnings, harmonise)
 
 
+def known_scenarios(db: Path) -> list[tuple[str, str, str | None]]:
+    """The database's current (model, scenario, reference), so that a partial revision may name a reference
+    submitted before (rule unknown-reference); [] without a database."""
+    if not db.exists():
+        return []
+    from milepost.validate.store.database import view_or_definition
+
+    with Reader(db, check_version=False) as reader:
+        if reader.version == 0:
+            return []
+        view = view_or_definition(reader.con, "current_scenarios")
+        rows = reader.con.execute(f"SELECT model, scenario, reference FROM {view}").fetchall()  # noqa: S608 - the view or its definition in database.sql
+    return [(str(m), str(s), r) for m, s, r in rows]
+
+
 def _unchanged(db: Path, sha: str, row: tuple[Any, ...], files: list[dict[str, Any]]) -> IngestResult:
     sid, status = row[0], row[1]
     return IngestResult(
@@ -217,7 +232,9 @@ def ingest(
     con = connect_memory()
     try:
         t = time.perf_counter()
-        result = run_check(files, contract, con=con, progress=progress, digests=digests)
+        result = run_check(
+            files, contract, con=con, progress=progress, digests=digests, known_scenarios=known_scenarios(db_path)
+        )
         timings["check"] = time.perf_counter() - t
         file_rows = [
             # An XLSX file may hold both the data and the scenarios sheet: name the sheet so the two read apart.
