@@ -59,7 +59,7 @@ def test_unknown_reference(data, basic, check, tmp_path):
 def test_a_reference_stored_before_is_known(data, basic, tmp_path):
     from milepost.validate.runner import run_check
 
-    d, _, rows = data
+    _, _, rows = data
     policy = write_csv(tmp_path / "p.csv", [r for r in rows if r["scenario"] == "policy"])
     table = _scenarios(tmp_path / "s.csv", [("M1", "policy", "base")])
     result = run_check([policy, table], basic, known_scenarios=[("M1", "base", None)])

@@ -313,7 +313,7 @@ def test_diff_matches_a_pandas_comparison(db, source, contract) -> None:
 
 
 def test_diff_compares_one_model_unless_told(db) -> None:
-    with pytest.raises(UsageError, match="submission 1 is of model Ferrow, 2 of model Halvik.*--any-model"):
+    with pytest.raises(UsageError, match=r"submission 1 is of model Ferrow, 2 of model Halvik.*--any-model"):
         diff(db, 1, 2, 0.01, 0.001)
     d = diff(db, 1, 2, 0.01, 0.001, any_model=True)
     assert d.models == ("Ferrow", "Halvik") and d.counts["same"] == 0

@@ -114,7 +114,8 @@ def check_reference_cycle(ctx: Context) -> list[str]:
         f"WITH RECURSIVE links AS ({links}), walk(model, start, cur, steps) AS ("  # noqa: S608 - names from the code
         "SELECT model, scenario, reference, 1 FROM links UNION ALL "
         "SELECT w.model, w.start, k.reference, w.steps + 1 FROM walk w JOIN links k "
-        "ON k.model = w.model AND k.scenario = w.cur WHERE w.cur <> w.start AND w.steps <= (SELECT count(*) FROM links)) "
+        "ON k.model = w.model AND k.scenario = w.cur "
+        "WHERE w.cur <> w.start AND w.steps <= (SELECT count(*) FROM links)) "
         "SELECT model, start AS scenario, min(steps) AS steps FROM walk WHERE cur = start GROUP BY ALL"
     )
     return [
