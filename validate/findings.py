@@ -243,6 +243,16 @@ def _clean(v: Any) -> Any:
     return None if isinstance(v, float) and v != v else v
 
 
+def plural(n: int, word: str) -> str:
+    """'1 error', '2 errors', '1,234 rows': a count with its noun in the right number."""
+    return f"{n:,} {word}{'' if n == 1 else 's'}"
+
+
+def tally(counts: Mapping[str, int]) -> str:
+    """'1 error, 2 warnings, 0 notes' from counts by severity."""
+    return ", ".join(plural(int(counts.get(s, 0)), s) for s in SEVERITIES)
+
+
 def shorten(values: list[str], limit: int = 5) -> str:
     """'a, b, c … +N more' for long lists in messages."""
     head = ", ".join(values[:limit])

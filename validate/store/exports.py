@@ -559,10 +559,14 @@ def diff(
 
 
 def submissions(db: str | Path) -> list[dict[str, Any]]:
-    """Every submission, oldest first, with its version per model (the `submission_versions` view) and scenarios."""
+    """Every submission, oldest first, with its version per model (the `submission_versions` view) and scenarios.
+    `retried`: a rejected submission after which the same model (or the same files) was submitted again, so the
+    attempt is history rather than something to act on (`milepost submissions` folds those away)."""
     with reading(db) as con:
         cur = con.execute(f"""
             SELECT b.id, b.model, b.status, v.version, b.superseded_by, b.rows, b.errors, b.warnings, b.notes,
+                   b.status = 'rejected' AND EXISTS (SELECT 1 FROM submissions AS n WHERE n.id > b.id
+                       AND (n.model = b.model OR n.sha256 = b.sha256)) AS retried,
                    b.submitted_at, b.submitted_by, b.note,
                    b.contract_name, b.contract_hash, b.milepost_version, b.sha256, b.files,
                    (SELECT list(s.scenario ORDER BY s.scenario) FROM scenarios AS s WHERE s.submission_id = b.id)

@@ -20,7 +20,7 @@ from typing import Any
 import duckdb
 
 from milepost.validate.errors import LoadError, UsageError
-from milepost.validate.findings import FINDING_COLUMNS
+from milepost.validate.findings import FINDING_COLUMNS, plural
 from milepost.validate.sql import identifier
 from milepost.validate.store import recompute
 from milepost.validate.store.database import NEW, Reader, Writer, connect_memory, default_db_path
@@ -285,7 +285,7 @@ def ingest(
     out.db = str(db_path)
     out.findings = list(result.findings)
     if not accepted:
-        why = f"{counts['error']} error(s)" if counts["error"] else f"{counts['warning']} warning(s)"
+        why = plural(counts["error"], "error") if counts["error"] else plural(counts["warning"], "warning")
         out.reason = f"{why}; no rows were stored"
         if not counts["error"]:
             out.reason += " (use --accept-warnings to accept a submission with warnings only)"
@@ -516,6 +516,10 @@ def _store_ordered_freely(
             counts["note"],
         ],
     )
+    if accepted and contract.sources:
+        # the folder the accepted data was checked with: the default contract of the next `milepost ingest`
+        con.execute(f"DELETE FROM {NEW}.meta WHERE key = 'contract_path'")  # noqa: S608 - names from the code
+        con.execute(f"INSERT INTO {NEW}.meta VALUES ('contract_path', ?)", [str(contract.sources[-1])])  # noqa: S608 - names from the code
     fcols = ", ".join(FINDING_COLUMNS)
     con.execute(f"INSERT INTO {NEW}.findings (submission_id, {fcols}) SELECT ?, {fcols} FROM temp.main.findings", [sid])  # noqa: S608 - names from the code; values bound as parameters
     out = IngestResult(
