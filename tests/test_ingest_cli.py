@@ -61,7 +61,7 @@ def test_ingest_accept_repeat_reject_and_list(tmp_path: Path, subs) -> None:
     assert r.exit_code == 1
     lines = r.stdout.splitlines()
     assert lines[0].startswith("Rejected as submission 2: model Vossel, 2 scenarios (act-firm, drift): ")
-    assert lines[0].endswith(" error(s); no rows were stored.")
+    assert lines[0].endswith(" errors; no rows were stored.")
     assert len(lines) == 5 and lines[3].startswith("... all findings are stored: milepost export --what findings")
     r = run("ingest", *subs["halvik-v2"], "--db", db, "-c", CONTRACT, "--format", "json")
     assert r.exit_code == 0
