@@ -11,7 +11,7 @@ import typer
 from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, TextJson, echo, fail, handle_errors, load_contract
 
 contract_app = typer.Typer(
-    help="Inspect a contract: lint it, show it resolved, or write a submission template.", no_args_is_help=True
+    help="Start a contract, lint it, show it resolved, or write a submission template.", no_args_is_help=True
 )
 DirArg = Annotated[
     Path | None,
@@ -93,6 +93,26 @@ def template_cmd(
     c = load_contract(directory)
     write_template(c, output, force=force)
     echo(f"wrote {output} for contract {c.name}")
+
+
+@contract_app.command("new")
+@handle_errors
+def new_cmd(
+    directory: Annotated[
+        Path, typer.Argument(help="New (or empty) folder for the contract.", file_okay=False, show_default=False)
+    ],
+    extends: Annotated[
+        str, typer.Option("--extends", help="The contract it builds on: core, or a contract folder.")
+    ] = "core",
+    name: Annotated[str | None, typer.Option("--name", help="Contract name (default: the folder's name).")] = None,
+) -> None:
+    """Write a commented starter contract that extends another (every setting shown, commented out)."""
+    from milepost.validate.starter_contract import write_starter
+
+    written = write_starter(directory, extends, name)
+    c = load_contract(directory, strict=False)
+    echo(f"wrote {', '.join(p.name for p in written)} in {directory}: contract {c.name}, extends {extends}")
+    echo(f"next: edit them, then `milepost contract lint {directory}`")
 
 
 def register(app: typer.Typer) -> None:
