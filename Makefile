@@ -24,8 +24,9 @@ $(VENV)/.installed-test: pyproject.toml | $(BIN)/python
 demo: demo-db
 	$(BIN)/milepost dashboard --db $(DB) --port $(PORT)
 
+# Reuses a demo database built from the same generator, contract and milepost version; REBUILD=1 builds it anew.
 demo-db: $(VENV)/.installed
-	$(BIN)/python -m milepost.example_db.demo $(DEMO) --db $(DB)
+	$(BIN)/python -m milepost.example_db.demo $(DEMO) --db $(DB) $(if $(REBUILD),--rebuild)
 
 # The whole suite, after the linters (so CI, which runs `make test`, runs them too).
 test: lint
@@ -54,4 +55,4 @@ bench: $(VENV)/.installed-test
 	$(BIN)/python -m milepost.validate.bench
 
 clean:
-	rm -rf $(VENV) $(DEMO) $(DB) .pytest_cache
+	rm -rf $(VENV) $(DEMO) $(DB) $(DB).inputs .pytest_cache
