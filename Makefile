@@ -8,16 +8,20 @@ PORT   ?= 8501
 
 .PHONY: demo demo-db test lint typecheck bench clean
 
+# setuptools reports every editable install with a boxed notice (its meta-path finder; nothing to act on here,
+# since the top-level folders map onto `milepost.*`): silenced by its message, so the install prints nothing.
+PIP    := PYTHONWARNINGS="ignore:Editable installation" $(BIN)/python -m pip
+
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
 
 $(VENV)/.installed: pyproject.toml | $(BIN)/python
-	$(BIN)/python -m pip install --quiet -e .
+	$(PIP) install --quiet -e .
 	touch $@
 
 $(VENV)/.installed-test: pyproject.toml | $(BIN)/python
-	$(BIN)/python -m pip install --quiet -e ".[test]"
+	$(PIP) install --quiet -e ".[test]"
 	touch $@ $(VENV)/.installed
 
 # The main job on the invented demo intercomparison: check every submission, load them, open the dashboard.
