@@ -5,8 +5,7 @@ from __future__ import annotations
 import functools
 import os
 import time
-from collections.abc import Iterator, Sequence
-from contextlib import contextmanager
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -18,12 +17,12 @@ from milepost.validate import __version__
 from milepost.validate.checks import ROW_CHECKS, TABLE_CHECKS, Context
 from milepost.validate.checks.structure import file_findings
 from milepost.validate.findings import FINDING_COLUMNS, RULES, SEVERITIES, Finding, finding_columns_ddl, findings_from
+from milepost.validate.progress import Stages
 from milepost.validate.readers import InputFile, read_file
 from milepost.validate.sql import enum_type, literal
 from milepost.validate.wide import locate_findings
 
 FINDINGS_PER_RULE = 1000
-PROGRESS_BYTES = 40 << 20  # about a million long-format rows
 
 
 @dataclass
@@ -249,26 +248,6 @@ def _scenario_attributes(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]
     return attrs, findings
 
 
-@contextmanager
-def _steps(show: bool) -> Iterator[Any]:
-    if not show:
-        yield lambda name: None
-        return
-    from rich.console import Console
-    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
-
-    total = 4
-    with Progress(
-        TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(), console=Console(stderr=True), transient=True
-    ) as bar:
-        task = bar.add_task("reading", total=total)
-
-        def step(name: str) -> None:
-            bar.update(task, advance=1, description=name)
-
-        yield step
-
-
 def run_check(
     paths: Sequence[str | Path],
     contract: Contract,
@@ -285,7 +264,6 @@ def run_check(
     a reference may name a scenario submitted before."""
     con = con if con is not None else duckdb.connect(config={"autoinstall_known_extensions": False})
     files = [Path(p) for p in paths]
-    big = progress and sum(p.stat().st_size for p in files if p.is_file()) > PROGRESS_BYTES
     con.execute(f"CREATE OR REPLACE TEMP TABLE findings ({finding_columns_ddl()})")
     timings: dict[str, float] = {}
     clock = [time.perf_counter()]
@@ -295,7 +273,8 @@ def run_check(
         timings[name] = timings.get(name, 0.0) + now - clock[0]
         clock[0] = now
 
-    with _steps(big) as step:
+    with Stages("Reading", 4, enabled=progress, started=clock[0]) as stages:
+        step = stages.step
         _contract_tables(con, contract)
         lap("contract tables")
         inputs: list[InputFile] = []

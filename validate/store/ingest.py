@@ -21,6 +21,7 @@ import duckdb
 
 from milepost.validate.errors import LoadError, UsageError
 from milepost.validate.findings import FINDING_COLUMNS, plural
+from milepost.validate.progress import Stages
 from milepost.validate.sql import identifier
 from milepost.validate.store import recompute
 from milepost.validate.store.database import NEW, Reader, Writer, connect_memory, default_db_path
@@ -42,7 +43,6 @@ HARMONISATION_COLUMNS = (
     "reference_value",
     "note",
 )
-PROGRESS_ROWS = 1_000_000  # show a progress bar for the load stage above this many rows
 
 
 @dataclass
@@ -250,7 +250,7 @@ def ingest(
         ]
         counts = {k: int(result.counts.get(k, 0)) for k in ("error", "warning", "note")}
         accepted = result.passed("error") and (accept_warnings or counts["warning"] == 0)
-        bar = _Stages(progress and int(result.rows) > PROGRESS_ROWS, int(result.rows))
+        bar = Stages(f"Loading {int(result.rows):,} rows", 4, enabled=progress, started=t0)
         try:
             t = time.perf_counter()
             with Writer(db_path, con, timeout=lock_timeout, on_wait=on_wait) as w:
@@ -425,7 +425,7 @@ def _store(
     accepted: bool,
     by: str | None,
     note: str | None,
-    bar: _Stages,
+    bar: Stages,
     timings: dict[str, float],
     harmonise: bool = False,
 ) -> IngestResult:
@@ -465,7 +465,7 @@ def _store_ordered_freely(
     accepted: bool,
     by: str | None,
     note: str | None,
-    bar: _Stages,
+    bar: Stages,
     timings: dict[str, float],
     harmonise: bool = False,
 ) -> IngestResult:
@@ -654,40 +654,3 @@ def _user() -> str | None:
         return getpass.getuser()
     except (KeyError, OSError):
         return None
-
-
-class _Stages:
-    """A small rich progress bar on stderr for the load stages of a large ingest (nothing when disabled)."""
-
-    STAGES = 4
-
-    def __init__(self, enabled: bool, rows: int) -> None:
-        self.progress = None
-        if not enabled:
-            return
-        from rich.console import Console
-        from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
-
-        self.progress = Progress(
-            TextColumn("{task.description}"),
-            BarColumn(),
-            TimeElapsedColumn(),
-            console=Console(stderr=True),
-            transient=True,
-        )
-        self.progress.start()
-        self.task = self.progress.add_task(f"Loading {rows:,} rows", total=self.STAGES)
-        self.started = False
-
-    def step(self, text: str) -> None:
-        if self.progress is None:
-            return
-        if self.started:
-            self.progress.advance(self.task)
-        self.started = True
-        self.progress.update(self.task, description=text.capitalize())
-
-    def close(self) -> None:
-        if self.progress is not None:
-            self.progress.update(self.task, completed=self.STAGES)
-            self.progress.stop()
