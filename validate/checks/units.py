@@ -63,7 +63,9 @@ def _allowing_option(ctx: Context, unit: str, target: str, permissive: dict[str,
             continue
         if name not in permissive:
             shapes = tuple(sorted({v.unit for v in c.variables.values()}))
-            permissive[name] = Units(shapes=shapes, **{name: True})
+            permissive[name] = Units(
+                shapes=shapes, carbon_to_co2=name == "carbon_to_co2", nitrogen_to_n2o=name == "nitrogen_to_n2o"
+            )
         try:
             permissive[name].factor(unit, target)
         except UnitError:
