@@ -326,6 +326,18 @@ def test_diff_refuses_rejected_and_unknown_submissions(db) -> None:
         diff(db, 2, 99, 0.01, 0.001)
 
 
+def test_the_cli_list_and_the_dashboard_number_versions_alike(db) -> None:
+    """Both read the `submission_versions` view: the same number per submission, none for a rejected one."""
+    from milepost.dashboard import queries
+    from milepost.validate.store.database import reading
+
+    with reading(db) as con:
+        board = queries.submissions(con)
+    on_board = {int(i): (None if pd.isna(v) else int(v)) for i, v in zip(board["id"], board["version"], strict=True)}
+    assert on_board == {s["id"]: s["version"] for s in submissions(db)}
+    assert on_board[3] is None
+
+
 def test_submissions_lists_status_and_versions(db) -> None:
     subs = submissions(db)
     assert [(s["id"], s["model"], s["status"], s["version"]) for s in subs] == [
