@@ -116,3 +116,27 @@ def test_empty_year_cells_are_rows_not_reported(tmp_path, basic, check):
     result = check(path, basic)
     assert result.usable_rows == len(rows) - 1
     assert not rules_at(result, "missing-value")
+
+
+def test_the_xlsx_report_marks_the_year_cell_of_a_wide_file(twins, basic, check, tmp_path):
+    from milepost.validate.reports import to_xlsx
+
+    _, _, paths = twins
+    result = check(paths["xlsx"], basic)
+    (f,) = rules_at(result, "bad-value")
+    report = to_xlsx(result, tmp_path / "r.xlsx")
+    copy = openpyxl.load_workbook(report)["copy 1"]
+    cell = f.message.rsplit("cell ", 1)[1].rstrip(")")
+    assert copy[cell].comment is not None and "bad-value" in copy[cell].comment.text
+
+
+def test_the_dashboards_self_check_reads_a_wide_upload(twins, basic):
+    from milepost.dashboard.checking import CheckedUpload
+
+    _, _, paths = twins
+    upload = CheckedUpload([("wide.csv", paths["csv"].read_bytes())], basic)
+    try:
+        rules = set(upload.findings["rule"])
+        assert "wide-table" in rules and "missing-column" not in rules and "bad-value" in rules
+    finally:
+        upload.close()
