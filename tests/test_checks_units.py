@@ -37,7 +37,7 @@ def test_converted_unit_converts_the_value(tmp_path, basic, check):
     result = check(write_csv(tmp_path / "c.csv", rows), basic)
     (f,) = rules_at(result, "converted-unit")
     assert (f.severity, f.line, f.value, f.expected) == ("warning", idx[0] + 2, "Gt CO2/yr", "Mt CO2/yr")
-    assert "factor 1000" in f.message and f"{len(idx)} row(s)" in f.message
+    assert "factor 1000" in f.message and f"{len(idx)} rows" in f.message
     # Converted values add up again: no sum finding.
     assert rules_at(result, "sum-of-parts") == [] and result.counts["error"] == 0
 

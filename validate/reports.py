@@ -129,7 +129,7 @@ def to_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT
     yield from folded_lines(shown)
     total = sum(result.counts.values())
     if total > len(shown):
-        yield f"… {total - len(shown)} more findings (see --format json or xlsx)"
+        yield f"… {plural(total - len(shown), 'more finding')} (see --format json or xlsx)"
     verdict = "PASSED" if result.passed(fail_on) else "FAILED"
     yield (f"{verdict}: {tally(result.counts)} in {plural(result.rows, 'row')} (fail on {fail_on})")
 

@@ -136,7 +136,7 @@ def check_no_data(ctx: Context) -> list[str]:
         return []  # a data file without rows has its own findings (empty-table, missing-column, unreadable-file)
     return [
         "SELECT 'no-data-rows' AS rule, any_value(path) AS path, 'at least one data table' AS expected, "
-        "'the submission holds no data rows: ' || count(*) || ' file(s), all scenarios tables' AS message, "
+        "'the submission holds no data rows, only scenarios tables (' || count(*) || ')' AS message, "
         "'Give the data table (model, scenario, region, variable, unit, year, value) with the scenarios table.' "
         "AS hint FROM c_inputs"
     ]

@@ -9,6 +9,7 @@ from typing import Annotated
 import typer
 
 from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, TextJson, echo, fail, handle_errors, load_contract
+from milepost.validate.findings import plural
 
 contract_app = typer.Typer(
     help="Start a contract, lint it, show it resolved, or write a submission template.", no_args_is_help=True
@@ -31,7 +32,7 @@ def lint_cmd(directory: DirArg = None) -> None:
     for p in problems:
         echo(finding_line(p))
     if problems:
-        echo(f"FAILED: contract {c.name} has {len(problems)} problem(s)")
+        echo(f"FAILED: contract {c.name} has {plural(len(problems), 'problem')}")
         raise typer.Exit(EXIT_FINDINGS)
     echo(
         f"PASSED: contract {c.name} ({c.hash[:12]}): {len(c.variables)} variables, {len(c.regions)} regions, "
