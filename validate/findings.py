@@ -85,9 +85,9 @@ RULES: dict[str, Rule] = {
         Rule("no-data-rows", "error", "data", "The submission holds no data rows (only scenarios tables)."),
         Rule(
             "unknown-reference",
-            "error",
+            "note",
             "data",
-            "A scenario's reference names no scenario of the submission (nor, at ingest, a stored one).",
+            "A scenario's reference names no scenario of the submission (nor, at ingest, a stored one): no costs yet.",
         ),
         Rule("scenario-without-data", "warning", "data", "The scenarios table lists a scenario that has no data rows."),
         Rule(

@@ -31,9 +31,9 @@ def check_unknown_reference(ctx: Context) -> list[str]:
         f"SELECT 'unknown-reference' AS rule, {_WHERE}, 'reference' AS column_name, l.reference AS value, "  # noqa: S608 - names from the code
         f"{_DATA_SCENARIOS} AS expected, "
         "'reference ' || l.reference || ' of ' || l.model || ' / ' || l.scenario || ' names no scenario of this "
-        "submission: its losses and growth reductions would be empty' AS message, "
-        "'Name one of the model''s scenarios (the no-policy run it is measured against), or add that scenario''s "
-        "data.' AS hint "
+        "submission: its losses and growth reductions stay empty until that scenario is ingested' AS message, "
+        "'Check the name: it must be one of the model''s scenarios (the no-policy run it is measured against), "
+        "in this submission or one ingested before.' AS hint "
         "FROM s_listed l WHERE l.reference IS NOT NULL AND l.reference <> l.scenario "
         "AND NOT EXISTS (SELECT 1 FROM combos c WHERE c.model = l.model AND c.scenario = l.reference) "
         "AND NOT EXISTS (SELECT 1 FROM s_known k WHERE k.model = l.model AND k.scenario = l.reference)"
@@ -49,7 +49,9 @@ def check_scenario_without_data(ctx: Context) -> list[str]:
         f"{_DATA_SCENARIOS} AS expected, "
         "'scenario ' || l.model || ' / ' || l.scenario || ' is listed in the scenarios table but has no data rows' "
         "AS message, 'Add its data, correct its name, or leave it out of the scenarios table.' AS hint "
-        "FROM s_listed l WHERE NOT EXISTS (SELECT 1 FROM combos c WHERE c.model = l.model AND c.scenario = l.scenario)"
+        "FROM s_listed l WHERE NOT EXISTS (SELECT 1 FROM combos c WHERE c.model = l.model AND c.scenario = l.scenario) "
+        # a scenario stored before (at ingest) has its data in the database
+        "AND NOT EXISTS (SELECT 1 FROM s_known k WHERE k.model = l.model AND k.scenario = l.scenario)"
     ]
 
 
