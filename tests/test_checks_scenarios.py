@@ -122,6 +122,16 @@ def test_missing_reference_where_the_contract_requires_one(data, requiring, chec
     assert _fired(check([path, table], requiring)) == set()
 
 
+def test_contract_show_says_a_reference_is_required(requiring):
+    from typer.testing import CliRunner
+
+    from milepost.validate.cli import app
+
+    r = CliRunner().invoke(app, ["contract", "show", requiring.sources[-1]])
+    assert r.exit_code == 0 and "[costs] reference_required" in r.stdout
+    assert requiring.to_dict()["costs"] == {"reference_required": True}
+
+
 def test_the_setting_is_off_by_default_and_typed(basic, tmp_path):
     from milepost.schema.contract import ContractError
 

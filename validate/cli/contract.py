@@ -63,6 +63,8 @@ def show_cmd(
         f"  tolerance: sums ±{t.sum_relative * 100:g} % (floor {t.sum_absolute:g}), base year "
         f"±{t.base_year_relative * 100:g} %; GWP set {c.gwp_set}; discount rate {c.discount_rate:g} %/yr"
     )
+    if c.reference_required:
+        echo("  costs: every scenario that is no scenario's reference must name one ([costs] reference_required)")
     echo("")
     echo(f"{'variable':<34}{'unit':<22}{'req':<5}{'sign':<14}{'regions':<8}parts")
     for v in c.variables.values():
