@@ -8,24 +8,29 @@ PORT   ?= 8501
 
 .PHONY: demo demo-db test lint typecheck bench clean
 
+# setuptools reports every editable install with a boxed notice (its meta-path finder; nothing to act on here,
+# since the top-level folders map onto `milepost.*`): silenced by its message, so the install prints nothing.
+PIP    := PYTHONWARNINGS="ignore:Editable installation" $(BIN)/python -m pip
+
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
 
 $(VENV)/.installed: pyproject.toml | $(BIN)/python
-	$(BIN)/python -m pip install --quiet -e .
+	$(PIP) install --quiet -e .
 	touch $@
 
 $(VENV)/.installed-test: pyproject.toml | $(BIN)/python
-	$(BIN)/python -m pip install --quiet -e ".[test]"
+	$(PIP) install --quiet -e ".[test]"
 	touch $@ $(VENV)/.installed
 
 # The main job on the invented demo intercomparison: check every submission, load them, open the dashboard.
 demo: demo-db
 	$(BIN)/milepost dashboard --db $(DB) --port $(PORT)
 
+# Reuses a demo database built from the same generator, contract and milepost version; REBUILD=1 builds it anew.
 demo-db: $(VENV)/.installed
-	$(BIN)/python -m milepost.example_db.demo $(DEMO) --db $(DB)
+	$(BIN)/python -m milepost.example_db.demo $(DEMO) --db $(DB) $(if $(REBUILD),--rebuild)
 
 # The whole suite, after the linters (so CI, which runs `make test`, runs them too).
 test: lint
@@ -54,4 +59,4 @@ bench: $(VENV)/.installed-test
 	$(BIN)/python -m milepost.validate.bench
 
 clean:
-	rm -rf $(VENV) $(DEMO) $(DB) .pytest_cache
+	rm -rf $(VENV) $(DEMO) $(DB) $(DB).inputs .pytest_cache

@@ -176,6 +176,8 @@ class Contract:
     pairs: Pairing | None = None
     allocation: Allocation = Allocation()
     limits: Limits = field(default=Limits(), compare=False)
+    # [costs] reference_required: every scenario that is nobody's reference must name one (rule missing-reference)
+    reference_required: bool = False
     problems: tuple[str, ...] = field(default=(), compare=False)
     hash: str = ""
     units: Any = field(default=None, compare=False, repr=False)
@@ -222,6 +224,8 @@ class Contract:
             "budgets": asdict(self.budgets) if self.budgets else None,
             "pairs": asdict(self.pairs) if self.pairs else None,
             "allocation": asdict(self.allocation),
+            # only when set, so the hash of every contract written before the setting existed stays the same
+            **({"costs": {"reference_required": True}} if self.reference_required else {}),
         }
 
     def references_in_contract_units(self) -> tuple[Reference, ...]:
@@ -449,6 +453,19 @@ def _budgets(raw: Any, where: str) -> Budgets | None:
     )
 
 
+def _costs_reference_required(raw: Any, where: str) -> bool:
+    """`[costs] reference_required` of contract.toml (default false)."""
+    if not isinstance(raw, dict):
+        raise ContractError(f"{where}: [costs] must be a table")
+    unknown = sorted(set(raw) - {"reference_required"})
+    if unknown:
+        raise ContractError(f"{where}: [costs] has unknown keys {', '.join(unknown)} (known: reference_required)")
+    value = raw.get("reference_required", False)
+    if not isinstance(value, bool):
+        raise ContractError(f"{where}: [costs] reference_required must be true or false, not {value!r}")
+    return value
+
+
 def _pairing(raw: Any, where: str) -> Pairing | None:
     """`[pairs]` of contract.toml: `match` (attribute names) and `order` (one attribute name)."""
     if raw is None:
@@ -655,6 +672,7 @@ def _resolve(
         pairs=_pairing(head.get("pairs"), where),
         allocation=_allocation(head.get("allocation", {}), where),
         limits=Limits.from_table(head.get("limits"), where),
+        reference_required=_costs_reference_required(head.get("costs", {}), where),
         problems=tuple(problems),
         units=units,
     )

@@ -24,6 +24,8 @@ def test_sum_of_parts_points_at_the_total(tmp_path, basic, check):
     assert f.line == total + 2
     assert float(f.expected) == pytest.approx(rows[total]["value"] + 50.0, rel=1e-5)
     assert float(f.value) == pytest.approx(rows[total]["value"], rel=1e-5)
+    r = rows[total]
+    assert f.message.startswith(f"energy.final in {r['scenario']}, {r['region']}, {r['year']} is ")
     assert "%" in f.message and "energy.final.transport" in f.hint
 
 

@@ -37,7 +37,7 @@ def test_converted_unit_converts_the_value(tmp_path, basic, check):
     result = check(write_csv(tmp_path / "c.csv", rows), basic)
     (f,) = rules_at(result, "converted-unit")
     assert (f.severity, f.line, f.value, f.expected) == ("warning", idx[0] + 2, "Gt CO2/yr", "Mt CO2/yr")
-    assert "factor 1000" in f.message and f"{len(idx)} row(s)" in f.message
+    assert "factor 1000" in f.message and f"{len(idx)} rows" in f.message
     # Converted values add up again: no sum finding.
     assert rules_at(result, "sum-of-parts") == [] and result.counts["error"] == 0
 
@@ -74,6 +74,11 @@ def test_n2o_nitrogen_converts_where_the_contract_allows_it(tmp_path, basic, che
     # without the option the nitrogen mass is a different quantity: wrong-unit on every such row
     refused = check(path, basic)
     assert len(rules_at(refused, "wrong-unit")) == len(idx)
+    # the hint names the contract option that would accept it
+    assert rules_at(refused, "wrong-unit")[0].hint == (
+        "Report emissions.n2o in kt N2O/yr; or, for the contract to accept it, set `nitrogen_to_n2o = true` under "
+        "[units] in contract.toml (converts the nitrogen in N2O (N2O-N) into N2O)."
+    )
     folder = tmp_path / "contract"
     folder.mkdir()
     (folder / "contract.toml").write_text(
@@ -87,3 +92,14 @@ def test_n2o_nitrogen_converts_where_the_contract_allows_it(tmp_path, basic, che
     assert "factor 1.57111" in f.message  # 44.013/28.014, IUPAC standard atomic weights (see test_units)
     # converted back into kt N2O, the values add up into emissions.ghg again
     assert result.counts["error"] == 0
+
+
+def test_carbon_mass_is_refused_with_a_hint_at_the_option_that_allows_it(tmp_path, basic, check):
+    rows = consistent_rows(basic)
+    i = next(i for i, r in enumerate(rows) if r["variable"] == "emissions.co2")
+    j = next(k for k, r in enumerate(rows) if r["variable"] == "emissions.co2" and k != i)
+    rows[i]["unit"] = "Mt C/yr"
+    rows[j]["unit"] = "EJ/yr"  # another quantity altogether: no option makes it convert
+    found = {f.line: f for f in rules_at(check(write_csv(tmp_path / "c.csv", rows), basic), "wrong-unit")}
+    assert "set `carbon_to_co2 = true` under [units] in contract.toml" in found[i + 2].hint
+    assert found[j + 2].hint == "Report emissions.co2 in Mt CO2/yr."

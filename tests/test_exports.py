@@ -284,13 +284,17 @@ def test_diff_matches_a_pandas_comparison(db, source, contract) -> None:
     m = v1.merge(source["v2"][LONG], on=KEY, how="outer", suffixes=("_a", "_b"), indicator=True)
     both = m[m["_merge"] == "both"]
     changed = (both["value_b"] - both["value_a"]).abs() > np.maximum(rel * both["value_a"].abs(), ab)
+    # a partial revision: rows of scenarios it does not hold are untouched (still current), not removed
+    revised = m["scenario"].isin(set(source["v2"]["scenario"]))
     assert d.counts == {
         "added": int((m["_merge"] == "right_only").sum()),
-        "removed": int((m["_merge"] == "left_only").sum()),
+        "removed": int(((m["_merge"] == "left_only") & revised).sum()),
         "changed": int(changed.sum()),
         "same": int((~changed).sum()),
+        "untouched": int(((m["_merge"] == "left_only") & ~revised).sum()),
     }
-    assert d.counts["removed"] > 0 and d.counts["changed"] > 0 and d.counts["added"] == 0
+    assert d.counts["untouched"] > 0 and d.counts["changed"] > 0 and d.counts["added"] == 0
+    assert (d.models, d.versions) == (("Halvik", "Halvik"), (1, 2))
     assert len(d.changed) == d.counts["changed"]
     first = both[changed].sort_values(KEY).iloc[0]
     assert (d.changed[0]["scenario"], d.changed[0]["region"], d.changed[0]["variable"], d.changed[0]["year"]) == (
@@ -302,10 +306,17 @@ def test_diff_matches_a_pandas_comparison(db, source, contract) -> None:
     assert d.changed[0]["delta"] == pytest.approx(first["value_b"] - first["value_a"])
     # The reverse direction swaps added and removed.
     r = diff(db, 4, 2, rel, ab, limit=5)
-    assert (r.counts["added"], r.counts["removed"]) == (d.counts["removed"], d.counts["added"])
+    assert (r.counts["added"], r.counts["removed"]) == (d.counts["removed"] + d.counts["untouched"], 0)
     assert len(r.added) == 5
     # A looser tolerance reports fewer changes.
     assert diff(db, 2, 4, 0.5, ab).counts["changed"] < d.counts["changed"]
+
+
+def test_diff_compares_one_model_unless_told(db) -> None:
+    with pytest.raises(UsageError, match=r"submission 1 is of model Ferrow, 2 of model Halvik.*--any-model"):
+        diff(db, 1, 2, 0.01, 0.001)
+    d = diff(db, 1, 2, 0.01, 0.001, any_model=True)
+    assert d.models == ("Ferrow", "Halvik") and d.counts["same"] == 0
 
 
 def test_diff_refuses_rejected_and_unknown_submissions(db) -> None:
@@ -313,6 +324,18 @@ def test_diff_refuses_rejected_and_unknown_submissions(db) -> None:
         diff(db, 2, 3, 0.01, 0.001)
     with pytest.raises(UsageError, match="no submission 99"):
         diff(db, 2, 99, 0.01, 0.001)
+
+
+def test_the_cli_list_and_the_dashboard_number_versions_alike(db) -> None:
+    """Both read the `submission_versions` view: the same number per submission, none for a rejected one."""
+    from milepost.dashboard import queries
+    from milepost.validate.store.database import reading
+
+    with reading(db) as con:
+        board = queries.submissions(con)
+    on_board = {int(i): (None if pd.isna(v) else int(v)) for i, v in zip(board["id"], board["version"], strict=True)}
+    assert on_board == {s["id"]: s["version"] for s in submissions(db)}
+    assert on_board[3] is None
 
 
 def test_submissions_lists_status_and_versions(db) -> None:

@@ -61,7 +61,7 @@ def test_ingest_accept_repeat_reject_and_list(tmp_path: Path, subs) -> None:
     assert r.exit_code == 1
     lines = r.stdout.splitlines()
     assert lines[0].startswith("Rejected as submission 2: model Vossel, 2 scenarios (act-firm, drift): ")
-    assert lines[0].endswith(" error(s); no rows were stored.")
+    assert lines[0].endswith(" errors; no rows were stored.")
     assert len(lines) == 5 and lines[3].startswith("... all findings are stored: milepost export --what findings")
     r = run("ingest", *subs["halvik-v2"], "--db", db, "-c", CONTRACT, "--format", "json")
     assert r.exit_code == 0
@@ -116,8 +116,12 @@ def test_export_snapshot_and_diff_commands(tmp_path: Path, subs) -> None:
     r = run("diff", "1", "2", "--db", db, "-c", CONTRACT, "--limit", "1")
     assert r.exit_code == 0
     lines = r.stdout.splitlines()
-    assert lines[0].startswith("Submission 1 -> 2: 0 added, ") and "relative 0.01, absolute 0.001" in lines[0]
-    assert lines[1] == "Scenarios only in 1: Halvik | drift"
+    assert lines[0] == "Compared submission 1 (Halvik v1) with submission 2 (Halvik v2)."
+    assert (
+        lines[1].startswith("Submission 1 -> 2: 0 added, 0 removed, ") and "relative 0.01, absolute 0.001" in lines[1]
+    )
+    assert lines[1].endswith(" untouched.")
+    assert lines[2] == "Scenarios only in 1 (untouched by 2: still current, not removed): Halvik | drift"
     r = run("diff", "1", "2", "--db", db, "-c", CONTRACT, "--common", "--format", "json")
     d = json.loads(r.stdout)
     assert d["counts"]["removed"] == 0 and d["counts"]["changed"] > 0 and d["scenarios_only_in_a"] == ["Halvik | drift"]

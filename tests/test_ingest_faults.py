@@ -127,6 +127,32 @@ def test_two_concurrent_ingests_both_end_correctly(tmp_path: Path, files, contra
     assert n == sum(s[2] for s in subs)
 
 
+def test_a_reference_stored_while_waiting_for_the_lock_counts(tmp_path: Path, files) -> None:
+    """act-firm names drift as its reference. Checked while drift is being written by another process, it would
+    fail unknown-reference; under the lock drift is current, so the finding is dropped and act-firm accepted."""
+    db = tmp_path / "m.duckdb"
+    signal_file = tmp_path / "paused"
+    env = {**os.environ, ENV_PAUSE_AT: "locked", ENV_PAUSE_FILE: str(signal_file), "MILEPOST_PAUSE_SECONDS": "15"}
+    first = subprocess.Popen(cli(*files["drift"], "--db", db), env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    wait_for(signal_file, first)
+    second = subprocess.run(
+        cli(*files["act-firm"], "--db", db, "--wait", "120", "--format", "json"),
+        capture_output=True,
+        text=True,
+        timeout=180,
+    )
+    first.communicate(timeout=120)
+    assert first.returncode == 0
+    # it waited, so it was checked before drift was stored
+    assert second.stderr.startswith("Waiting up to 120 s for another milepost process"), second.stderr
+    out = json.loads(second.stdout)
+    assert (out["status"], second.returncode) == ("accepted", 0), out["findings"][:3]
+    assert not any(f["rule"] == "unknown-reference" for f in out["findings"])
+    with open_reader(db) as r:
+        rules = r.con.execute("SELECT DISTINCT rule FROM findings WHERE submission_id = 2").fetchall()
+    assert ("unknown-reference",) not in rules
+
+
 def test_a_writer_that_cannot_get_the_lock_fails_cleanly(tmp_path: Path, files, contract) -> None:
     db = tmp_path / "m.duckdb"
     ingest(files["drift"], db, contract)

@@ -49,6 +49,12 @@ RULES: dict[str, Rule] = {
             "data",
             "In a file read with decimal commas, a value such as 51,169 may use the comma as a thousands separator.",
         ),
+        Rule(
+            "wide-table",
+            "note",
+            "data",
+            "The table has one column per year; it was read as the long table (one row per non-empty year cell).",
+        ),
         Rule("unexpected-column", "warning", "data", "A column the long format does not have; it is ignored."),
         Rule("bad-year", "error", "data", "The year is not a whole number inside the contract's year range."),
         Rule("bad-value", "error", "data", "The value is not a finite number."),
@@ -95,6 +101,32 @@ RULES: dict[str, Rule] = {
             "The base-year value is further from the contract's reference value than the tolerance.",
         ),
         Rule("out-of-bounds", "warning", "data", "The value is outside the contract's plausibility bounds."),
+        Rule("no-data-rows", "error", "data", "The submission holds no data rows (only scenarios tables)."),
+        Rule(
+            "unknown-reference",
+            "note",
+            "data",
+            "A scenario's reference names no scenario of the submission (nor, at ingest, a stored one): no costs yet.",
+        ),
+        Rule("scenario-without-data", "warning", "data", "The scenarios table lists a scenario that has no data rows."),
+        Rule(
+            "scenario-not-listed",
+            "warning",
+            "data",
+            "Data for a scenario the scenarios table does not list (checked where a scenarios table is given).",
+        ),
+        Rule(
+            "missing-reference",
+            "error",
+            "data",
+            "The contract requires a reference for cost indicators ([costs] reference_required) and none is named.",
+        ),
+        Rule(
+            "reference-cycle",
+            "error",
+            "data",
+            "A scenario names itself as its reference, or its references lead back to it: no costs are computed.",
+        ),
         Rule(
             "harmonise-no-base-year",
             "warning",
@@ -234,6 +266,16 @@ def findings_from(cursor: Any) -> list[Finding]:
 def _clean(v: Any) -> Any:
     # NaN from pandas/duckdb round trips means "does not apply".
     return None if isinstance(v, float) and v != v else v
+
+
+def plural(n: int, word: str) -> str:
+    """'1 error', '2 errors', '1,234 rows': a count with its noun in the right number."""
+    return f"{n:,} {word}{'' if n == 1 else 's'}"
+
+
+def tally(counts: Mapping[str, int]) -> str:
+    """'1 error, 2 warnings, 0 notes' from counts by severity."""
+    return ", ".join(plural(int(counts.get(s, 0)), s) for s in SEVERITIES)
 
 
 def shorten(values: list[str], limit: int = 5) -> str:

@@ -21,6 +21,7 @@ from typing import Any
 import duckdb
 
 from milepost.schema.limits import Limits
+from milepost.validate import wide as wide_table
 from milepost.validate.errors import LimitExceeded, ReadError
 from milepost.validate.sql import identifier, literal, literal_list
 from milepost.validate.xlsx import ZIP_ERRORS, open_workbook
@@ -54,6 +55,7 @@ class InputFile:
     limits_hit: list[str] = field(default_factory=list)  # what stopped the reading early (limit-exceeded findings)
     ambiguous_commas: tuple[int, int] = (0, 0)  # (count, first line) of values like 51,169 under decimal commas
     scenarios: Any = None  # pandas DataFrame for a scenarios table
+    wide: list[wide_table.YearColumn] = field(default_factory=list)  # year columns of a wide table, else []
 
 
 def sha256_of(path: Path) -> str:
@@ -146,8 +148,9 @@ def sniff_csv(path: Path) -> CsvDialect:
     decimal_comma = False
     if delimiter != ",":
         found, _ = _match_columns(header)
-        if "value" in found:
-            idx = header.index(found["value"])
+        years = wide_table.year_columns(header, found)
+        if "value" in found or years:
+            idx = header.index(found["value"]) if "value" in found else years[0].position
             cells = [r[idx] for r in csv.reader(lines[1:200], delimiter=delimiter) if len(r) > idx]
             commas = sum(bool(re.fullmatch(r"-?\d+,\d+([eE][-+]?\d+)?", c.strip())) for c in cells)
             dots = sum(bool(re.fullmatch(r"-?\d*\.\d+([eE][-+]?\d+)?", c.strip())) for c in cells)
@@ -191,7 +194,7 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
             inp.limits_hit.append(_rows_hit(limits))
         inp.rows = len(inp.scenarios)
         return
-    _set_columns(inp, found, extra)
+    _set_columns(inp, found, extra, d.header)
     # Positional names: DuckDB trims and dedupes header names, which would break the case/space-insensitive match.
     positional = [f"c{i}" for i in range(len(d.header))]
     by_position = {k: positional[d.header.index(v)] for k, v in found.items()}
@@ -208,9 +211,11 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
         f"rejects_table = {literal(rejects)}, rejects_scan = {literal(rejects + '_scan')}, "
         f"names = {literal_list(positional)}) LIMIT {int(limits.max_rows) + 1})"
     )
-    con.execute(
-        f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(by_position, src, 'NULL::BIGINT', d.decimal_comma)}"
-    )
+    if inp.wide:
+        select = wide_table.wide_select(by_position, inp.wide, positional, src, "NULL::BIGINT")
+    else:
+        select = _typed_select(by_position, src, "NULL::BIGINT", d.decimal_comma)
+    con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {select}")
     rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - generated names
     if rows > limits.max_rows:
         con.execute(f"DELETE FROM {table} WHERE rowid >= ?", [limits.max_rows])  # noqa: S608 - generated names
@@ -233,8 +238,10 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
             f"FROM (SELECT DISTINCT line FROM {rejects})"
         )
         con.execute(f"UPDATE {table} SET line = line + (SELECT count(*) FROM {table}_shift s WHERE s.at <= line)")  # noqa: S608 - generated names; headers and paths via validate.sql
-    if d.decimal_comma:
+    if d.decimal_comma and "value" in by_position:
         _ambiguous_commas(con, inp, path, options, positional, by_position["value"], table)
+    if inp.wide:
+        _wide_to_long(con, inp, table, d.decimal_comma)
     inp.rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - generated names; headers and paths via validate.sql
 
 
@@ -357,11 +364,25 @@ def logical_lines(path: Path, chunk_bytes: int = 4 << 20) -> tuple[Any, Any]:
     return first, blank
 
 
-def _set_columns(inp: InputFile, found: dict[str, str], extra: list[str]) -> None:
+def _set_columns(inp: InputFile, found: dict[str, str], extra: list[str], header: list[Any]) -> None:
     inp.kind = "data"
     inp.columns = found
-    inp.extra_columns = [e for e in extra if e.strip()]
-    inp.missing_columns = [c for c in LONG_COLUMNS if c not in found]
+    inp.wide = wide_table.year_columns(header, found)
+    years = {y.header for y in inp.wide}
+    inp.extra_columns = [e for e in extra if e.strip() and e not in years]
+    inp.missing_columns = [] if inp.wide else [c for c in LONG_COLUMNS if c not in found]
+    if inp.wide:
+        inp.notes.append(wide_table.note(inp.wide))
+
+
+def _wide_to_long(con: duckdb.DuckDBPyConnection, inp: InputFile, table: str, decimal_comma: bool = False) -> None:
+    """Replace the wide TEMP `table` a reader built (see `milepost.validate.wide`) by the long table."""
+    con.execute(f"ALTER TABLE {table} RENAME TO {table}_wide")
+    source = wide_table.long_source(f"{table}_wide", inp.wide)
+    cols = {c: c for c in LONG_COLUMNS}
+    con.execute(f"CREATE TEMP TABLE {table} AS {_typed_select(cols, source, 'line', decimal_comma)}")
+    con.execute(f"DROP TABLE {table}_wide")
+    inp.rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - generated names
 
 
 # --- XLSX ---------------------------------------------------------------------------------------------------------
@@ -406,9 +427,10 @@ def _read_xlsx(
         found, extra = _match_columns(header)
         if _is_scenarios_table(found):
             raise ReadError(f"sheet {data_sheet!r} holds a scenarios table, but no data sheet was found")
-        _set_columns(inp, found, extra)
+        _set_columns(inp, found, extra, header)
         idx = {c: header.index(found[c]) for c in found}
-        columns: dict[str, list[str | None]] = {c: [] for c in found}
+        idx.update({y.source: y.position for y in inp.wide})
+        columns: dict[str, list[str | None]] = {c: [] for c in idx}
         lines: list[int] = []
         for n, r in it:
             if all(v is None for v in r):
@@ -430,9 +452,18 @@ def _read_xlsx(
     view = f"{table}_arrow"
     con.register(view, arrow)
     try:
-        con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(found, view, 'line')}")
+        if inp.wide:
+            by_source = {c: c for c in idx}
+            positions = {i: c for c, i in idx.items()}
+            columns_at = [positions.get(i, "") for i in range(len(header))]
+            select = wide_table.wide_select(by_source, inp.wide, columns_at, view, "line")
+        else:
+            select = _typed_select(found, view, "line")
+        con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {select}")
     finally:
         con.unregister(view)
+    if inp.wide:
+        _wide_to_long(con, inp, table)
     return extra_inputs
 
 
@@ -455,7 +486,7 @@ def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, ta
         inp.scenarios = _scenario_frame(frame.astype("str").where(frame.notna(), None))
         inp.rows = len(inp.scenarios)
         return
-    _set_columns(inp, found, extra)
+    _set_columns(inp, found, extra, header)
     if inp.missing_columns:
         inp.rows = con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0]
         return
@@ -463,7 +494,12 @@ def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, ta
         f"(SELECT * FROM read_parquet({literal(str(path))}, file_row_number = true) "  # noqa: S608 - path via validate.sql
         f"WHERE file_row_number < {int(limits.max_rows)})"
     )
-    con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(found, src, 'file_row_number + 1')}")
+    if inp.wide:
+        select = wide_table.wide_select(found, inp.wide, header, src, "file_row_number + 1")
+        con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {select}")
+        _wide_to_long(con, inp, table)
+    else:
+        con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(found, src, 'file_row_number + 1')}")
     total = con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0]
     if total > limits.max_rows:
         inp.limits_hit.append(_rows_hit(limits))

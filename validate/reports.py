@@ -9,7 +9,7 @@ from pathlib import Path
 from typing import Any, cast
 
 from milepost.validate.cells import one_line, set_text, xlsx_text
-from milepost.validate.findings import SEVERITIES, Finding
+from milepost.validate.findings import SEVERITIES, Finding, plural, tally
 from milepost.validate.outputs import check_target, save_workbook
 from milepost.validate.runner import CheckResult
 
@@ -92,6 +92,14 @@ def _collapse(findings: list[Finding], keep: int = 3) -> list[tuple[Finding, lis
     return out
 
 
+def folded_lines(findings: list[Finding]) -> Iterator[str]:
+    """Findings as lines, runs of the same rule and message in one file folded: the way every command lists them."""
+    for f, repeats in _collapse(findings):
+        yield finding_line(f)
+        if repeats:
+            yield f"  … and {len(repeats)} more like it on lines {_ranges([r.line for r in repeats])}"
+
+
 def _ranges(lines: list[int | None]) -> str:
     nums = sorted({n for n in lines if n is not None})
     parts, start = [], None
@@ -104,7 +112,7 @@ def _ranges(lines: list[int | None]) -> str:
 
 
 def to_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT) -> Iterator[str]:
-    """Plain lines: inputs, a count per rule, the findings (up to `limit`), and a one-line verdict."""
+    """Plain lines: inputs, a count per rule, the findings (up to `limit`, 0 = all), and a one-line verdict."""
     c = result.contract
     yield f"milepost {result.version} · contract {c.name} ({c.hash[:12]})"
     for i in result.inputs:
@@ -117,19 +125,13 @@ def to_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT
         for rule, sev, n in result.rule_counts:
             yield f"{rule:<24}{sev:<11}{n}"
         yield ""
-    shown = result.findings[:limit]
-    for f, repeats in _collapse(shown):
-        yield finding_line(f)
-        if repeats:
-            yield f"  … and {len(repeats)} more like it on lines {_ranges([r.line for r in repeats])}"
+    shown = result.findings[: limit or None]
+    yield from folded_lines(shown)
     total = sum(result.counts.values())
     if total > len(shown):
-        yield f"… {total - len(shown)} more findings (see --format json or xlsx)"
+        yield f"… {plural(total - len(shown), 'more finding')} (see --format json or xlsx)"
     verdict = "PASSED" if result.passed(fail_on) else "FAILED"
-    yield (
-        f"{verdict}: {result.counts.get('error', 0)} errors, {result.counts.get('warning', 0)} warnings, "
-        f"{result.counts.get('note', 0)} notes in {result.rows} rows (fail on {fail_on})"
-    )
+    yield (f"{verdict}: {tally(result.counts)} in {plural(result.rows, 'row')} (fail on {fail_on})")
 
 
 def print_text(result: CheckResult, fail_on: str = "error", limit: int = TEXT_LIMIT, file: Any = None) -> None:

@@ -6,8 +6,7 @@ import functools
 import os
 import re
 import time
-from collections.abc import Iterator, Sequence
-from contextlib import contextmanager
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -19,11 +18,12 @@ from milepost.validate import __version__
 from milepost.validate.checks import ROW_CHECKS, TABLE_CHECKS, Context
 from milepost.validate.checks.structure import file_findings
 from milepost.validate.findings import FINDING_COLUMNS, RULES, SEVERITIES, Finding, finding_columns_ddl, findings_from
+from milepost.validate.progress import Stages
 from milepost.validate.readers import InputFile, read_file
 from milepost.validate.sql import enum_type, literal
+from milepost.validate.wide import locate_findings
 
 FINDINGS_PER_RULE = 1000
-PROGRESS_BYTES = 40 << 20  # about a million long-format rows
 
 
 @dataclass
@@ -295,8 +295,13 @@ class _Store:
             )
 
 
-def _scenario_attributes(inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
-    """The scenarios tables given (validated), merged into one frame; None when there are none."""
+def _scenario_attributes(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
+    """The scenarios tables given (validated), merged into one frame; None when there are none. Their rows also
+    go into the TEMP table `s_listed` (path, sheet, line, model, scenario, reference) the scenario checks read."""
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE s_listed (path VARCHAR, sheet VARCHAR, line BIGINT, model VARCHAR, "
+        "scenario VARCHAR, reference VARCHAR)"
+    )
     tables = [i for i in inputs if i.kind == "scenarios" and i.scenarios is not None]
     if not tables:
         return None, []
@@ -309,30 +314,24 @@ def _scenario_attributes(inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
         clean, found = validate_scenarios(inp.scenarios, inp.path, inp.sheet)
         findings += found
         frames.append(clean)
+        listed = clean.assign(
+            path=inp.path,
+            sheet=inp.sheet,
+            line=clean.index + 2,  # the line numbering validate_scenarios uses
+            reference=clean["reference"] if "reference" in clean.columns else None,
+        )[["path", "sheet", "line", "model", "scenario", "reference"]]
+        con.register("s_listed_frame", listed)
+        try:
+            con.execute(
+                "INSERT INTO s_listed SELECT path, sheet, line, model, scenario, "
+                "CASE WHEN trim(reference) <> '' THEN trim(reference) END FROM s_listed_frame"
+            )
+        finally:
+            con.unregister("s_listed_frame")
     attrs = pd.concat(frames, ignore_index=True).drop_duplicates(["model", "scenario"], keep="first")
     if "reference" not in attrs.columns:
         attrs["reference"] = None
     return attrs, findings
-
-
-@contextmanager
-def _steps(show: bool) -> Iterator[Any]:
-    if not show:
-        yield lambda name: None
-        return
-    from rich.console import Console
-    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
-
-    total = 4
-    with Progress(
-        TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(), console=Console(stderr=True), transient=True
-    ) as bar:
-        task = bar.add_task("reading", total=total)
-
-        def step(name: str) -> None:
-            bar.update(task, advance=1, description=name)
-
-        yield step
 
 
 def run_check(
@@ -343,12 +342,14 @@ def run_check(
     progress: bool = False,
     findings_per_rule: int = FINDINGS_PER_RULE,
     digests: Sequence[str] | None = None,
+    known_scenarios: Sequence[tuple[str, str, str | None]] = (),
 ) -> CheckResult:
     """Check submission files against a contract. Bad data becomes findings; this raises only for broken programs.
-    `digests`: the files' sha256, in the order of `paths`, when the caller has computed them already."""
+    `digests`: the files' sha256, in the order of `paths`, when the caller has computed them already.
+    `known_scenarios`: (model, scenario, reference) stored already (ingest passes the database's current ones), so
+    a reference may name a scenario submitted before."""
     con = con if con is not None else duckdb.connect(config={"autoinstall_known_extensions": False})
     files = [Path(p) for p in paths]
-    big = progress and sum(p.stat().st_size for p in files if p.is_file()) > PROGRESS_BYTES
     con.execute(f"CREATE OR REPLACE TEMP TABLE findings ({finding_columns_ddl()})")
     limits = contract.limits
     timings: dict[str, float] = {}
@@ -359,7 +360,8 @@ def run_check(
         timings[name] = timings.get(name, 0.0) + now - clock[0]
         clock[0] = now
 
-    with _steps(big) as step:
+    with Stages("Reading", 4, enabled=progress, started=clock[0]) as stages:
+        step = stages.step
         _contract_tables(con, contract)
         lap("contract tables")
         inputs: list[InputFile] = []
@@ -376,6 +378,10 @@ def run_check(
         )
         lap("combos")
         ctx = Context(con, contract, inputs)
+        attributes, scen_findings = _scenario_attributes(con, inputs)
+        con.execute("CREATE OR REPLACE TEMP TABLE s_known (model VARCHAR, scenario VARCHAR, reference VARCHAR)")
+        if known_scenarios:
+            con.executemany("INSERT INTO s_known VALUES (?, ?, ?)", [tuple(k) for k in known_scenarios])
         pre = file_findings(ctx)
         store = _Store(con, _severity_case(contract), limits.findings_stored_per_rule)
         for check in ROW_CHECKS:
@@ -390,9 +396,9 @@ def run_check(
                 store.insert(sql)
             lap(check.__name__)
         step("collecting findings")
-        attributes, scen_findings = _scenario_attributes(inputs)
         extra = pre + scen_findings
         store.insert_findings(extra, effective_severity(contract))
+        locate_findings(con, inputs)
     rule_counts = sorted((r, s, n) for (r, s), n in store.totals.items() if n)
     counts = {s: 0 for s in SEVERITIES}
     for _, s, n in rule_counts:

@@ -9,7 +9,17 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-from milepost.validate.checks import coverage, duplicates, names, reference, structure, sums, units, values
+from milepost.validate.checks import (
+    coverage,
+    duplicates,
+    names,
+    reference,
+    scenarios,
+    structure,
+    sums,
+    units,
+    values,
+)
 from milepost.validate.checks.context import Context
 
 Check = Callable[[Context], list[str]]
@@ -32,6 +42,12 @@ TABLE_CHECKS: tuple[Check, ...] = (
     coverage.check_missing_required,
     reference.check_base_year,
     values.check_bounds,
+    scenarios.check_no_data,
+    scenarios.check_unknown_reference,
+    scenarios.check_scenario_without_data,
+    scenarios.check_scenario_not_listed,
+    scenarios.check_missing_reference,
+    scenarios.check_reference_cycle,
 )
 
 __all__ = ["ROW_CHECKS", "TABLE_CHECKS", "Check", "Context"]

@@ -24,10 +24,10 @@ def suggest(name: str, known: list[str]) -> str | None:
     return close[0] if close else None
 
 
-def _hints_table(ctx: Context, table: str, column: str, known_sql: str, known: list[str]) -> bool:
+def _hints_table(ctx: Context, table: str, column: str, known_sql: str, known: list[str]) -> tuple[int, int]:
     """`table` (name, suggestion): the distinct names of `column` that `known_sql` (a one-column SELECT of the
-    contract's names) does not hold. Only the first `hinted_names` get a suggestion, so 300,000 made-up names
-    cost one anti-join, not 300,000 fuzzy searches."""
+    contract's names) does not hold; returns (unknown names, distinct names seen). Only the first `hinted_names`
+    get a suggestion, so 300,000 made-up names cost one anti-join, not 300,000 fuzzy searches."""
     con = ctx.con
     con.execute(
         f"CREATE OR REPLACE TEMP TABLE {table} AS SELECT DISTINCT {column} AS name, NULL::VARCHAR AS suggestion "  # noqa: S608 - names from the code; contract text via validate.sql
@@ -43,14 +43,32 @@ def _hints_table(ctx: Context, table: str, column: str, known_sql: str, known: l
     hints = [(h, n) for n in sample if (h := suggest(n, known)) is not None]
     if hints:
         con.executemany(f"UPDATE {table} SET suggestion = ? WHERE name = ?", hints)  # noqa: S608 - names from the code
-    return bool(con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0])  # noqa: S608 - names from the code
+    unknown = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - names from the code
+    if not unknown:
+        return 0, 0
+    seen = con.execute(
+        f"SELECT count(DISTINCT {column}) FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> ''"  # noqa: S608 - names from the code
+    ).fetchall()[0][0]
+    return int(unknown), int(seen)
+
+
+def _other_contract(ctx: Context, what: str, unknown: int, seen: int) -> str:
+    """A hint prefix (SQL literal) asking whether another contract was meant, when most names are unknown to it."""
+    if seen < 2 or unknown * 2 <= seen:
+        return "''"
+    return literal(
+        f"{unknown} of the {seen} {what} names are unknown to the contract {ctx.contract.name}: was another "
+        "contract meant (--contract FOLDER)? "
+    )
 
 
 def check_unknown_region(ctx: Context) -> list[str]:
     """unknown-region: the region is neither a contract region nor (where allowed) an ISO 3166-1 alpha-3 code."""
     c = ctx.contract
-    if not _hints_table(ctx, "unknown_regions", "region", "SELECT region FROM c_regions", list(c.regions)):
+    unknown, seen = _hints_table(ctx, "unknown_regions", "region", "SELECT region FROM c_regions", list(c.regions))
+    if not unknown:
         return []
+    prefix = _other_contract(ctx, "region", unknown, seen)
     allowed = sorted(c.regions)
     listing = ", ".join(allowed[:8]) + (" …" if len(allowed) > 8 else "")
     if c.countries:
@@ -59,7 +77,7 @@ def check_unknown_region(ctx: Context) -> list[str]:
         "SELECT 'unknown-region' AS rule, 'region' AS column_name, "  # noqa: S608 - names from the code; contract text via validate.sql
         f"{_ROW}, o.region AS value, {literal(listing)} AS expected, "
         "'region ' || o.region || ' is not in the contract' AS message, "
-        "CASE WHEN h.suggestion IS NOT NULL THEN 'Did you mean ' || h.suggestion || '?' "
+        f"{prefix} || CASE WHEN h.suggestion IS NOT NULL THEN 'Did you mean ' || h.suggestion || '?' "
         f"ELSE 'Use one of: ' || {literal(listing)} || '.' END AS hint "
         "FROM obs o JOIN unknown_regions h ON o.region = h.name"
     ]
@@ -68,13 +86,15 @@ def check_unknown_region(ctx: Context) -> list[str]:
 def check_unknown_variable(ctx: Context) -> list[str]:
     """unknown-variable: the variable name is not in the contract."""
     known = list(ctx.contract.variables)
-    if not _hints_table(ctx, "unknown_variables", "variable", "SELECT variable FROM c_variables", known):
+    unknown, seen = _hints_table(ctx, "unknown_variables", "variable", "SELECT variable FROM c_variables", known)
+    if not unknown:
         return []
+    prefix = _other_contract(ctx, "variable", unknown, seen)
     return [
         f"SELECT 'unknown-variable' AS rule, 'variable' AS column_name, {_ROW}, o.variable AS value, "  # noqa: S608 - names from the code; contract text via validate.sql
         "coalesce(h.suggestion, 'a contract variable') AS expected, "
         "'variable ' || o.variable || ' is not in the contract' AS message, "
-        "CASE WHEN h.suggestion IS NOT NULL THEN 'Did you mean ' || h.suggestion || '?' "
+        f"{prefix} || CASE WHEN h.suggestion IS NOT NULL THEN 'Did you mean ' || h.suggestion || '?' "
         "ELSE 'See `milepost contract show` for the variable names.' END AS hint "
         "FROM obs o JOIN unknown_variables h ON o.variable = h.name"
     ]

@@ -114,6 +114,21 @@ def file_findings(ctx: Context) -> list[Finding]:
                     hint="Export the data rows too, below the header.",
                 )
             )
+        if inp.wide and inp.kind == "data":
+            years = sorted(y.year for y in inp.wide)
+            out.append(
+                Finding(
+                    "wide-table",
+                    "note",
+                    path=inp.path,
+                    line=1,
+                    sheet=inp.sheet,
+                    value=shorten([y.header for y in inp.wide]),
+                    message=f"{inp.path} has one column per year ({shorten([str(y) for y in years])}); "
+                    "it was read as the long table, one row per non-empty year cell",
+                    hint="Nothing to do: findings name the year column of each value.",
+                )
+            )
         if inp.extra_columns and inp.kind == "data":
             out.append(
                 Finding(

@@ -43,7 +43,7 @@ def check_sum_of_parts(ctx: Context) -> list[str]:
         failing + "SELECT 'sum-of-parts' AS rule, 'value' AS column_name, "
         "i.path, i.sheet, t.line, t.model, t.scenario, t.region, "
         f"t.total AS variable, t.unit, t.year, {fmt('t.reported')} AS value, {fmt('t.expected')} AS expected, "
-        "t.total || ' is ' || "
+        "t.total || ' in ' || t.scenario || ', ' || t.region || ', ' || t.year || ' is ' || "
         + fmt("t.reported")
         + " || ' but its parts sum to ' || "
         + fmt("t.expected")
@@ -88,13 +88,15 @@ def check_sum_of_regions(ctx: Context) -> list[str]:
         "b.scenario, b.parent AS region, b.variable, b.unit, b.year, "
         "CASE WHEN b.rule_kind = 'sum' THEN " + fmt("b.reported") + " ELSE " + fmt("b.expected") + " END AS value, "
         "CASE WHEN b.rule_kind = 'sum' THEN " + fmt("b.expected") + " ELSE '0' END AS expected, "
-        "CASE WHEN b.rule_kind = 'sum' THEN b.parent || ' ' || b.variable || ' is ' || "
+        "CASE WHEN b.rule_kind = 'sum' THEN b.parent || ' ' || b.variable || ' in ' || b.scenario || ', ' "
+        "|| b.year || ' is ' || "
         + fmt("b.reported")
         + " || ' but its regions sum to ' || "
         + fmt("b.expected")
         + " || "
         + _diff_pct("b.reported", "b.expected")
-        + " ELSE 'the regions of ' || b.parent || ' must net to zero for ' || b.variable || ', but sum to ' || "
+        + " ELSE 'the regions of ' || b.parent || ' must net to zero for ' || b.variable || ' in ' || b.scenario "
+        "|| ', ' || b.year || ', but sum to ' || "
         + fmt("b.expected")
         + " END AS message, 'regions: ' || d.regions AS hint "
         "FROM bad b JOIN detail d USING (model, scenario, parent, variable, year) "

@@ -6,42 +6,74 @@ factor the runner multiplies values by when it builds `checked`.
 
 from __future__ import annotations
 
-from milepost.schema.units import UnitError, normalise
+from typing import Any
+
+from milepost.schema.units import UnitError, Units, normalise
 from milepost.validate.checks.context import Context
+
+# contract options ([units] in contract.toml) that make a unit of another species convert
+_OPTIONS = (
+    ("carbon_to_co2", "carbon mass (C) into CO2"),
+    ("nitrogen_to_n2o", "the nitrogen in N2O (N2O-N) into N2O"),
+)
 
 _ROW = "o.path, o.sheet, o.line, o.model, o.scenario, o.region, o.variable, o.unit, o.year"
 
 
 def build_unit_map(ctx: Context) -> bool:
-    """TEMP table unit_map(variable, unit, factor, status, target, why): status same|spelling|converted|wrong.
-    Returns whether any unit differs from the contract's."""
+    """TEMP table unit_map(variable, unit, factor, status, target, why, allows): status same|spelling|converted|wrong;
+    `allows` names the contract option under which a wrong unit would convert. Returns whether any unit differs."""
     pairs = ctx.con.execute(
         "SELECT DISTINCT o.variable, o.unit FROM combos o JOIN c_variables v ON o.variable = v.variable "
         "WHERE o.unit IS NOT NULL AND trim(o.unit) <> ''"
     ).fetchall()
     units = ctx.contract.units
-    rows: list[tuple[str, str, float | None, str, str, str | None]] = []
+    rows: list[tuple[str, str, float | None, str, str, str | None, str | None]] = []
+    permissive: dict[str, Any] = {}  # built only for a wrong unit: a registry costs a few tenths of a second
     for variable, unit in pairs:
         target = ctx.contract.variables[variable].unit
         if unit == target:
-            rows.append((variable, unit, 1.0, "same", target, None))
+            rows.append((variable, unit, 1.0, "same", target, None, None))
             continue
         try:
             factor = units.factor(unit, target)
         except UnitError as e:
-            rows.append((variable, unit, None, "wrong", target, str(e)))
+            rows.append(
+                (variable, unit, None, "wrong", target, str(e), _allowing_option(ctx, unit, target, permissive))
+            )
             continue
         spelling = normalise(unit) == normalise(target) or (
             abs(factor - 1.0) < 1e-12 and units.parse(unit) == units.parse(target)
         )
-        rows.append((variable, unit, factor, "spelling" if spelling else "converted", target, None))
+        rows.append((variable, unit, factor, "spelling" if spelling else "converted", target, None, None))
     ctx.con.execute(
         "CREATE OR REPLACE TEMP TABLE unit_map (variable VARCHAR, unit VARCHAR, factor DOUBLE, "
-        "status VARCHAR, target VARCHAR, why VARCHAR)"
+        "status VARCHAR, target VARCHAR, why VARCHAR, allows VARCHAR)"
     )
     if rows:
-        ctx.con.executemany("INSERT INTO unit_map VALUES (?, ?, ?, ?, ?, ?)", rows)
+        ctx.con.executemany("INSERT INTO unit_map VALUES (?, ?, ?, ?, ?, ?, ?)", rows)
     return any(r[3] != "same" for r in rows)
+
+
+def _allowing_option(ctx: Context, unit: str, target: str, permissive: dict[str, Any]) -> str | None:
+    """The hint text for a contract option that is off here and under which `unit` would convert, else None."""
+    c = ctx.contract
+    for name, what in _OPTIONS:
+        if getattr(c, name):
+            continue
+        if name not in permissive:
+            shapes = tuple(sorted({v.unit for v in c.variables.values()}))
+            permissive[name] = Units(
+                shapes=shapes, carbon_to_co2=name == "carbon_to_co2", nitrogen_to_n2o=name == "nitrogen_to_n2o"
+            )
+        try:
+            permissive[name].factor(unit, target)
+        except UnitError:
+            continue
+        return (
+            f"; or, for the contract to accept it, set `{name} = true` under [units] in contract.toml (converts {what})"
+        )
+    return None
 
 
 def check_units(ctx: Context) -> list[str]:
@@ -51,7 +83,7 @@ def check_units(ctx: Context) -> list[str]:
     return [
         f"SELECT 'wrong-unit' AS rule, 'unit' AS column_name, {_ROW}, o.unit AS value, m.target AS expected, "  # noqa: S608 - names from the code; contract text via validate.sql
         "'unit ' || o.unit || ' does not convert to ' || m.target || ' (' || o.variable || ')' AS message, "
-        "'Report ' || o.variable || ' in ' || m.target || '.' AS hint "
+        "'Report ' || o.variable || ' in ' || m.target || coalesce(m.allows, '') || '.' AS hint "
         "FROM obs o JOIN unit_map m USING (variable, unit) WHERE m.status = 'wrong'",
         # One finding per file and (variable, unit): a file reported in Gt instead of Mt is one fact, not 10,000.
         "SELECT 'converted-unit' AS rule, 'unit' AS column_name, "
@@ -60,7 +92,8 @@ def check_units(ctx: Context) -> list[str]:
         "any_value(m.target) AS expected, "
         "CASE WHEN any_value(m.status) = 'spelling' THEN 'unit ' || o.unit || ' read as ' || any_value(m.target) "
         "ELSE 'unit ' || o.unit || ' converted to ' || any_value(m.target) || ' (factor ' "
-        "|| printf('%.6g', any_value(m.factor)) || ')' END || ' in ' || count(*) || ' row(s) from line ' "
+        "|| printf('%.6g', any_value(m.factor)) || ')' END || ' in ' || count(*) "
+        "|| CASE WHEN count(*) = 1 THEN ' row' ELSE ' rows' END || ' from line ' "
         "|| min(o.line) AS message, 'Report ' || o.variable || ' in ' || any_value(m.target) "
         "|| ' to avoid the conversion.' AS hint "
         "FROM obs o JOIN unit_map m USING (variable, unit) WHERE m.status IN ('spelling', 'converted') "

@@ -18,6 +18,7 @@ from milepost.validate.cli.common import (
     load_contract,
     standard_output,
 )
+from milepost.validate.findings import plural, tally
 from milepost.validate.outputs import check_target, write_text
 
 
@@ -55,7 +56,7 @@ def check(
     fail_on: Annotated[
         FailOn, typer.Option("--fail-on", help="Exit 1 when findings of this severity (or worse) exist.")
     ] = FailOn.error,
-    limit: Annotated[int, typer.Option(help="Findings shown in the text report.", min=0)] = 200,
+    limit: Annotated[int, typer.Option(help="Findings shown in the text report (0 = all).", min=0)] = 200,
     force: Annotated[
         bool, typer.Option("--force", help="Replace an existing --output file that milepost did not write.")
     ] = False,
@@ -90,8 +91,7 @@ def check(
     elif output is not None or fmt is Format.json:
         verdict = "passed" if result.passed(fail_on.value) else "failed"
         echo(
-            f"{verdict}: {result.counts['error']} errors, {result.counts['warning']} warnings, "
-            f"{result.counts['note']} notes in {result.rows} rows",
+            f"{verdict}: {tally(result.counts)} in {plural(result.rows, 'row')}",
             err=True,
         )
     raise typer.Exit(EXIT_OK if result.passed(fail_on.value) else EXIT_FINDINGS)

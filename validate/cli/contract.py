@@ -9,9 +9,10 @@ from typing import Annotated
 import typer
 
 from milepost.validate.cli.common import EXIT_FINDINGS, EXIT_OK, TextJson, echo, fail, handle_errors, load_contract
+from milepost.validate.findings import plural
 
 contract_app = typer.Typer(
-    help="Inspect a contract: lint it, show it resolved, or write a submission template.", no_args_is_help=True
+    help="Start a contract, lint it, show it resolved, or write a submission template.", no_args_is_help=True
 )
 DirArg = Annotated[
     Path | None,
@@ -31,7 +32,7 @@ def lint_cmd(directory: DirArg = None) -> None:
     for p in problems:
         echo(finding_line(p))
     if problems:
-        echo(f"FAILED: contract {c.name} has {len(problems)} problem(s)")
+        echo(f"FAILED: contract {c.name} has {plural(len(problems), 'problem')}")
         raise typer.Exit(EXIT_FINDINGS)
     echo(
         f"PASSED: contract {c.name} ({c.hash[:12]}): {len(c.variables)} variables, {len(c.regions)} regions, "
@@ -62,6 +63,8 @@ def show_cmd(
         f"  tolerance: sums ±{t.sum_relative * 100:g} % (floor {t.sum_absolute:g}), base year "
         f"±{t.base_year_relative * 100:g} %; GWP set {c.gwp_set}; discount rate {c.discount_rate:g} %/yr"
     )
+    if c.reference_required:
+        echo("  costs: every scenario that is no scenario's reference must name one ([costs] reference_required)")
     echo("")
     echo(f"{'variable':<34}{'unit':<22}{'req':<5}{'sign':<14}{'regions':<8}parts")
     for v in c.variables.values():
@@ -93,6 +96,26 @@ def template_cmd(
     c = load_contract(directory)
     write_template(c, output, force=force)
     echo(f"wrote {output} for contract {c.name}")
+
+
+@contract_app.command("new")
+@handle_errors
+def new_cmd(
+    directory: Annotated[
+        Path, typer.Argument(help="New (or empty) folder for the contract.", file_okay=False, show_default=False)
+    ],
+    extends: Annotated[
+        str, typer.Option("--extends", help="The contract it builds on: core, or a contract folder.")
+    ] = "core",
+    name: Annotated[str | None, typer.Option("--name", help="Contract name (default: the folder's name).")] = None,
+) -> None:
+    """Write a commented starter contract that extends another (every setting shown, commented out)."""
+    from milepost.validate.starter_contract import write_starter
+
+    written = write_starter(directory, extends, name)
+    c = load_contract(directory, strict=False)
+    echo(f"wrote {', '.join(p.name for p in written)} in {directory}: contract {c.name}, extends {extends}")
+    echo(f"next: edit them, then `milepost contract lint {directory}`")
 
 
 def register(app: typer.Typer) -> None:

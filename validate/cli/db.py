@@ -14,6 +14,7 @@ from typing import TYPE_CHECKING, Annotated, Any
 import typer
 
 from milepost.validate.cli.common import EXIT_OK, ContractOption, TextJson, echo, fail, handle_errors, load_contract
+from milepost.validate.findings import plural, tally
 
 if TYPE_CHECKING:
     from milepost.validate.store.pairs import PairRule  # imported lazily at run time, like the other store modules
@@ -68,7 +69,23 @@ def ingest_cmd(
         ),
     ],
     db: DbOption = None,
-    contract: ContractOption = None,
+    contract: Annotated[
+        Path | None,
+        typer.Option(
+            "--contract",
+            "-c",
+            help="Contract folder (default: the contract the database's accepted submissions were checked with; "
+            "the core contract for a new database).",
+            file_okay=False,
+        ),
+    ] = None,
+    switch_contract: Annotated[
+        bool,
+        typer.Option(
+            "--switch-contract",
+            help="Ingest under a contract other than the database's (recorded with the submission).",
+        ),
+    ] = False,
     by: Annotated[str | None, typer.Option("--by", help="Who submits (default: the login name).")] = None,
     note: Annotated[str | None, typer.Option("--note", help="A note stored with the submission.")] = None,
     accept_warnings: Annotated[
@@ -88,18 +105,36 @@ def ingest_cmd(
         ),
     ] = None,
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Report format.")] = TextJson.text,
-    limit: Annotated[int, typer.Option(help="Findings listed for a rejected submission.", min=0)] = 20,
+    limit: Annotated[int, typer.Option(help="Findings listed for a rejected submission (0 = all).", min=0)] = 20,
 ) -> None:
     """Check one submission and store it. Exit 0: stored (or already stored); 1: rejected; 2: usage error;
     3: the database could not be written (or another ingest held it longer than --wait)."""
-    from milepost.validate.reports import finding_line
+    from milepost.validate.reports import folded_lines
+    from milepost.validate.store.contracts import database_contract
     from milepost.validate.store.database import default_db_path, warn
     from milepost.validate.store.ingest import ingest
 
+    path = default_db_path(db)
+    made_with, folder = database_contract(path)
+    if contract is None and made_with is not None:
+        if folder is None:
+            fail(
+                f"the database {path} was made with the contract {made_with}, which is not bundled with milepost: "
+                "give its folder with --contract"
+            )
+        contract = folder
+        echo(f"Contract: {made_with}, the database's (from {folder}).", err=True)
     c = load_contract(contract)
+    if made_with is not None and c.name != made_with:
+        if not switch_contract:
+            fail(
+                f"the database {path} was made with the contract {made_with}, not {c.name}: give --switch-contract "
+                f"to ingest under {c.name} (the contract is recorded with the submission)"
+            )
+        echo(f"Contract: {c.name}, not the database's {made_with} (--switch-contract; recorded).", err=True)
     result = ingest(
         files,
-        default_db_path(db),
+        path,
         c,
         by=by,
         note=note,
@@ -128,7 +163,7 @@ def ingest_cmd(
     n = len(result.scenarios)
     scen = f"{n} scenario{'s' if n != 1 else ''}" + (f" ({_scenario_list(result.scenarios)})" if n else "")
     counts = result.counts
-    tally = f"{counts['error']} errors, {counts['warning']} warnings, {counts['note']} notes"
+    counted = tally(counts)
     if result.status == "accepted":
         echo(
             f"Accepted as submission {result.submission_id}: model {result.model}, {scen}, "
@@ -138,8 +173,8 @@ def ingest_cmd(
             h = result.harmonise_counts
             echo(
                 f"Harmonised: {result.harmonised_rows:,} rows stored beside the raw ones, "
-                f"{result.harmonised_series:,} series adjusted ({h.get('warning', 0)} warnings, "
-                f"{h.get('note', 0)} notes; `milepost harmonise` with the same files lists them)."
+                f"{result.harmonised_series:,} series adjusted ({plural(h.get('warning', 0), 'warning')}, "
+                f"{plural(h.get('note', 0), 'note')}; `milepost harmonise` with the same files lists them)."
             )
         if result.replaced:
             older = ", ".join(f"{r['scenario']} (submission {r['submission_id']})" for r in result.replaced)
@@ -149,17 +184,17 @@ def ingest_cmd(
         if result.refreshed:
             names = ", ".join(r["scenario"] for r in result.refreshed)
             echo(f"Indicators recomputed against the new reference for: {names}.")
-        echo(f"Findings: {tally} (stored with the submission).")
+        echo(f"Findings: {counted} (stored with the submission).")
         raise typer.Exit(EXIT_OK)
     echo(f"Rejected as submission {result.submission_id}: model {result.model or '-'}, {scen}: {result.reason}.")
-    for f in result.findings[:limit]:
-        echo(finding_line(f))
-    if len(result.findings) > limit or counts["error"] + counts["warning"] > limit:
+    for line in folded_lines(result.findings[: limit or None]):
+        echo(line)
+    if limit and (len(result.findings) > limit or counts["error"] + counts["warning"] > limit):
         echo(
             f"... all findings are stored: milepost export --what findings --submission "
             f"{result.submission_id} --format csv -o findings.csv"
         )
-    echo(f"Findings: {tally}.")
+    echo(f"Findings: {counted}.")
     raise typer.Exit(result.exit_code)
 
 
@@ -167,16 +202,25 @@ def ingest_cmd(
 def submissions_cmd(
     db: DbOption = None,
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Output format.")] = TextJson.text,
+    show_all: Annotated[
+        bool,
+        typer.Option(
+            "--all", help="Also list rejected attempts that were followed by another submission of the model."
+        ),
+    ] = False,
 ) -> None:
-    """List every submission: status, version per model, rows, findings, who and when."""
+    """List the submissions: status, version per model, rows, findings, who and when. A rejected attempt that was
+    followed by another submission of the same model (or files) is kept in the database but folded away here
+    unless --all."""
     from milepost.validate.store.database import default_db_path
     from milepost.validate.store.exports import submissions
 
-    rows = submissions(default_db_path(db))
+    every = submissions(default_db_path(db))
+    rows = every if show_all else [r for r in every if not r["retried"]]
     if fmt is TextJson.json:
         _echo_json(rows)
         return
-    if not rows:
+    if not every:
         echo("No submissions yet.")
         return
     header = (
@@ -192,6 +236,12 @@ def submissions_cmd(
             f"{r['id']:>4}  {status:<16}  {(r['model'] or '-'):<16}  {ver:>3}  {len(r['scenarios']):>4}  "
             f"{r['rows']:>10,}  {r['errors']:>5}  {r['warnings']:>5}  {r['submitted_at'] or '-':<19}  "
             f"{(r['submitted_by'] or '-'):<12}  {files}"
+        )
+    hidden = len(every) - len(rows)
+    if hidden:
+        ids = ", ".join(str(r["id"]) for r in every if r["retried"])
+        echo(
+            f"({plural(hidden, 'rejected attempt')} followed by a later submission not listed: {ids}; --all lists them)"
         )
 
 
@@ -357,10 +407,14 @@ def diff_cmd(
         bool,
         typer.Option("--common", help="Compare only the scenarios both submissions have (for a partial revision)."),
     ] = False,
+    any_model: Annotated[
+        bool, typer.Option("--any-model", help="Allow comparing submissions of two different models.")
+    ] = False,
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Output format.")] = TextJson.text,
     limit: Annotated[int, typer.Option(help="Rows listed per kind of change (0 = all).", min=0)] = 20,
 ) -> None:
-    """Rows added, removed and changed beyond tolerance between two submissions. Exit 0 either way."""
+    """Rows added, removed and changed beyond tolerance between two versions of one model's submissions; rows
+    of scenarios the newer one does not hold are untouched (still current), not removed. Exit 0 either way."""
     from milepost.validate.store.database import default_db_path
     from milepost.validate.store.exports import diff
 
@@ -369,18 +423,29 @@ def diff_cmd(
     c = load_contract(contract, strict=False)
     rel = c.tolerance.sum_relative if relative is None else relative
     ab = c.tolerance.sum_absolute if absolute is None else absolute
-    d = diff(default_db_path(db), a, b, rel, ab, limit, common_only=common)
+    d = diff(default_db_path(db), a, b, rel, ab, limit, common_only=common, any_model=any_model)
     if fmt is TextJson.json:
         _echo_json(d.to_dict())
         return
     n = d.counts
+
+    def named(sid: int, model: str | None, version: int | None) -> str:
+        return f"submission {sid} ({model or '-'}{f' v{version}' if version else ''})"
+
+    echo(f"Compared {named(a, d.models[0], d.versions[0])} with {named(b, d.models[1], d.versions[1])}.")
+    untouched = f", {n['untouched']:,} untouched" if n["untouched"] else ""
     echo(
         f"Submission {a} -> {b}: {n['added']:,} added, {n['removed']:,} removed, {n['changed']:,} changed "
-        f"beyond tolerance (relative {rel:g}, absolute {ab:g}), {n['same']:,} unchanged."
+        f"beyond tolerance (relative {rel:g}, absolute {ab:g}), {n['same']:,} unchanged{untouched}."
     )
     for side, names in ((a, d.only_a), (b, d.only_b)):
         if names:
-            note = " (not compared: --common)" if common else ""
+            if common:
+                note = " (not compared: --common)"
+            elif side == a:
+                note = f" (untouched by {b}: still current, not removed)"
+            else:
+                note = " (new)"
             echo(f"Scenarios only in {side}{note}: {_scenario_list(names)}")
     for kind, sign in (("added", "+"), ("removed", "-")):
         for r in getattr(d, kind):

@@ -18,6 +18,7 @@ from milepost.validate.cli.common import (
     handle_errors,
     load_contract,
 )
+from milepost.validate.findings import tally
 
 VERIFIED_RULES = ("sum-of-parts", "sum-of-regions", "base-year-deviation")
 
@@ -73,7 +74,7 @@ def harmonise_cmd(
         bool, typer.Option("--verify/--no-verify", help="Check the harmonised file against the contract.")
     ] = True,
     fmt: Annotated[TextJson, typer.Option("--format", "-f", help="Report format.")] = TextJson.text,
-    limit: Annotated[int, typer.Option(help="Findings listed per rule in the text report.", min=0)] = 3,
+    limit: Annotated[int, typer.Option(help="Findings listed per rule in the text report (0 = all).", min=0)] = 3,
     force: Annotated[
         bool, typer.Option("--force", help="Replace existing output files that milepost did not write.")
     ] = False,
@@ -89,7 +90,7 @@ def harmonise_cmd(
         write_table,
     )
     from milepost.validate.outputs import check_target
-    from milepost.validate.reports import finding_line
+    from milepost.validate.reports import folded_lines
     from milepost.validate.runner import run_check
 
     c = load_contract(contract)
@@ -140,12 +141,12 @@ def harmonise_cmd(
     for line in text_table(result.counts):
         echo("  " + line)
     s = result.severity_counts
-    echo(f"Findings: {s['error']} errors, {s['warning']} warnings, {s['note']} notes.")
+    echo(f"Findings: {tally(s)}.")
     for rule, severity, n in result.rule_counts:
         echo(f"{severity} {rule}: {n:,} series")
-        listed = [f for f in result.findings if f.rule == rule][:limit]
-        for f in listed:
-            echo("  " + finding_line(f))
+        listed = [f for f in result.findings if f.rule == rule][: limit or None]
+        for line in folded_lines(listed):
+            echo("  " + line)
         if n > len(listed):
             echo(f"  ... {n - len(listed):,} more (every series is in {methods_path})")
     echo(f"Wrote {rows:,} rows to {output} and the method of each of {result.series:,} series to {methods_path}.")
@@ -159,8 +160,9 @@ def harmonise_cmd(
         verdict = "passed" if recheck["passed"] else "failed"
         broken = ", ".join(f"{r} {recheck['rules'][r]}" for r in VERIFIED_RULES if r in recheck["rules"])
         echo(
-            f"Check of {output} against the contract: {verdict} ({counts['error']} errors, "
-            f"{counts['warning']} warnings, {counts['note']} notes)" + (f"; {broken}" if broken else "") + "."
+            f"Check of {output} against the contract: {verdict} ({tally(counts)})"
+            + (f"; {broken}" if broken else "")
+            + "."
         )
     echo(CAUTION)
     raise typer.Exit(code)

@@ -417,11 +417,15 @@ class Diff:
     only_a: list[str] = field(default_factory=list)  # "model | scenario" present in a only
     only_b: list[str] = field(default_factory=list)
     common_only: bool = False
+    models: tuple[str | None, str | None] = (None, None)  # the model of a and of b
+    versions: tuple[int | None, int | None] = (None, None)  # their versions (the `submission_versions` view)
 
     def to_dict(self) -> dict[str, Any]:
         return {
             "a": self.a,
             "b": self.b,
+            "models": list(self.models),
+            "versions": list(self.versions),
             "tolerance": {"relative": self.relative, "absolute": self.absolute},
             "common_only": self.common_only,
             "scenarios_only_in_a": self.only_a,
@@ -439,24 +443,46 @@ class Diff:
 
 
 def diff(
-    db: str | Path, a: int, b: int, relative: float, absolute: float, limit: int = 100, common_only: bool = False
+    db: str | Path,
+    a: int,
+    b: int,
+    relative: float,
+    absolute: float,
+    limit: int = 100,
+    common_only: bool = False,
+    any_model: bool = False,
 ) -> Diff:
     """Compare the stored rows of two submissions by (model, scenario, region, variable, year).
 
     A value counts as changed when |b - a| > max(relative * |a|, absolute), the same rule as the contract's sum
     tolerance (sum_relative, sum_absolute); a different unit also counts as changed. `limit` caps the rows listed
-    per category (0 = all); the counts are always complete. With `common_only`, only the (model, scenario) pairs
-    present in both submissions are compared (a partial revision then shows no "removed" scenarios).
+    per category (0 = all); the counts are always complete. Rows of `a`'s scenarios that `b` does not hold are
+    `untouched`, not removed: a submission replaces only the scenarios it holds (a partial revision leaves the
+    others current). With `common_only`, only the (model, scenario) pairs present in both are compared. Both
+    submissions must be of the same model unless `any_model`.
     """
     if relative < 0 or absolute < 0:
         raise UsageError("tolerances must not be negative")
     with reading(db) as con:
-        status = dict(con.execute("SELECT id, status FROM submissions WHERE id IN (?, ?)", [a, b]).fetchall())
+        info = {
+            int(i): (st, m, v)
+            for i, st, m, v in con.execute(
+                "SELECT b.id, b.status, b.model, v.version FROM submissions AS b "  # noqa: S608 - the view or its definition in database.sql
+                f"JOIN {view_or_definition(con, 'submission_versions')} AS v ON v.submission_id = b.id "
+                "WHERE b.id IN (?, ?)",
+                [a, b],
+            ).fetchall()
+        }
         for sid in (a, b):
-            if sid not in status:
+            if sid not in info:
                 raise UsageError(f"there is no submission {sid} in {db}")
-            if status[sid] == "rejected":
+            if info[sid][0] == "rejected":
                 raise UsageError(f"submission {sid} was rejected: it has no stored rows to compare")
+        if info[a][1] != info[b][1] and not any_model:
+            raise UsageError(
+                f"submission {a} is of model {info[a][1]}, {b} of model {info[b][1]}: diff compares versions of one "
+                "model (give --any-model to compare across models)"
+            )
         key = ", ".join(KEY)
         pairs = "SELECT DISTINCT model, scenario FROM scenarios WHERE submission_id = ?"
         con.execute(
@@ -492,6 +518,8 @@ def diff(
                    coalesce(x.year, y.year) AS year, x.unit AS unit_a, y.unit AS unit_b,
                    x.value AS value_a, y.value AS value_b,
                    CASE WHEN x.model IS NULL THEN 'added'
+                        WHEN y.model IS NULL AND (x.model, x.scenario) NOT IN
+                             (SELECT (model, scenario) FROM diff_pairs WHERE side = 'b') THEN 'untouched'
                         WHEN y.model IS NULL THEN 'removed'
                         WHEN x.unit IS DISTINCT FROM y.unit
                           OR abs(y.value - x.value) > greatest(? * abs(x.value), ?) THEN 'changed'
@@ -501,12 +529,22 @@ def diff(
               USING ({key})""",  # noqa: S608 - names from this module; filters bound as parameters
             [relative, absolute, a, b],
         )
-        counts = {k: 0 for k in ("added", "removed", "changed", "same")}
+        counts = {k: 0 for k in ("added", "removed", "changed", "same", "untouched")}
         counts.update(
             {c: int(n) for c, n in con.execute("SELECT change, count(*) FROM diff_rows GROUP BY 1").fetchall()}
         )
         out = Diff(
-            a, b, relative, absolute, counts, limit=limit, only_a=only["a"], only_b=only["b"], common_only=common_only
+            a,
+            b,
+            relative,
+            absolute,
+            counts,
+            limit=limit,
+            only_a=only["a"],
+            only_b=only["b"],
+            common_only=common_only,
+            models=(info[a][1], info[b][1]),
+            versions=(info[a][2], info[b][2]),
         )
         cap = f" LIMIT {int(limit)}" if limit else ""
         for change, columns in (
@@ -521,10 +559,14 @@ def diff(
 
 
 def submissions(db: str | Path) -> list[dict[str, Any]]:
-    """Every submission, oldest first, with its version per model (the `submission_versions` view) and scenarios."""
+    """Every submission, oldest first, with its version per model (the `submission_versions` view) and scenarios.
+    `retried`: a rejected submission after which the same model (or the same files) was submitted again, so the
+    attempt is history rather than something to act on (`milepost submissions` folds those away)."""
     with reading(db) as con:
         cur = con.execute(f"""
             SELECT b.id, b.model, b.status, v.version, b.superseded_by, b.rows, b.errors, b.warnings, b.notes,
+                   b.status = 'rejected' AND EXISTS (SELECT 1 FROM submissions AS n WHERE n.id > b.id
+                       AND (n.model = b.model OR n.sha256 = b.sha256)) AS retried,
                    b.submitted_at, b.submitted_by, b.note,
                    b.contract_name, b.contract_hash, b.milepost_version, b.sha256, b.files,
                    (SELECT list(s.scenario ORDER BY s.scenario) FROM scenarios AS s WHERE s.submission_id = b.id)

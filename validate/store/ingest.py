@@ -20,7 +20,8 @@ from typing import Any
 import duckdb
 
 from milepost.validate.errors import LoadError, UsageError
-from milepost.validate.findings import FINDING_COLUMNS
+from milepost.validate.findings import FINDING_COLUMNS, plural
+from milepost.validate.progress import Stages
 from milepost.validate.sql import identifier
 from milepost.validate.store import recompute
 from milepost.validate.store.database import NEW, Reader, Writer, connect_memory, default_db_path
@@ -42,7 +43,6 @@ HARMONISATION_COLUMNS = (
     "reference_value",
     "note",
 )
-PROGRESS_ROWS = 1_000_000  # show a progress bar for the load stage above this many rows
 
 
 @dataclass
@@ -144,6 +144,21 @@ def _check_repeat_before_lock(
         return _find_repeat(reader.con, "db", sha, contract_hash, accept_warnings, harmonise)
 
 
+def known_scenarios(db: Path) -> list[tuple[str, str, str | None]]:
+    """The database's current (model, scenario, reference), so that a partial revision may name a reference
+    submitted before (rule unknown-reference); [] without a database."""
+    if not db.exists():
+        return []
+    from milepost.validate.store.database import view_or_definition
+
+    with Reader(db, check_version=False) as reader:
+        if reader.version == 0:
+            return []
+        view = view_or_definition(reader.con, "current_scenarios")
+        rows = reader.con.execute(f"SELECT model, scenario, reference FROM {view}").fetchall()  # noqa: S608 - the view or its definition in database.sql
+    return [(str(m), str(s), r) for m, s, r in rows]
+
+
 def _unchanged(db: Path, sha: str, row: tuple[Any, ...], files: list[dict[str, Any]]) -> IngestResult:
     sid, status = row[0], row[1]
     return IngestResult(
@@ -219,7 +234,9 @@ def ingest(
     con = connect_memory()
     try:
         t = time.perf_counter()
-        result = run_check(files, contract, con=con, progress=progress, digests=digests)
+        result = run_check(
+            files, contract, con=con, progress=progress, digests=digests, known_scenarios=known_scenarios(db_path)
+        )
         timings["check"] = time.perf_counter() - t
         file_rows = [
             # An XLSX file may hold both the data and the scenarios sheet: name the sheet so the two read apart.
@@ -235,7 +252,7 @@ def ingest(
         ]
         counts = {k: int(result.counts.get(k, 0)) for k in ("error", "warning", "note")}
         accepted = result.passed("error") and (accept_warnings or counts["warning"] == 0)
-        bar = _Stages(progress and int(result.rows) > PROGRESS_ROWS, int(result.rows))
+        bar = Stages(f"Loading {int(result.rows):,} rows", 4, enabled=progress, started=t0)
         try:
             t = time.perf_counter()
             with Writer(db_path, con, timeout=lock_timeout, on_wait=on_wait) as w:
@@ -243,6 +260,9 @@ def ingest(
                 repeat = _find_repeat(con, NEW, sha, contract.hash, accept_warnings, harmonise)
                 if repeat is not None:
                     raise _Unchanged(repeat)
+                if _settle_references(con, result):
+                    counts = {k: int(result.counts.get(k, 0)) for k in ("error", "warning", "note")}
+                    accepted = result.passed("error") and (accept_warnings or counts["warning"] == 0)
                 out = _store(
                     w,
                     con,
@@ -270,13 +290,37 @@ def ingest(
     out.db = str(db_path)
     out.findings = list(result.findings)
     if not accepted:
-        why = f"{counts['error']} error(s)" if counts["error"] else f"{counts['warning']} warning(s)"
+        why = plural(counts["error"], "error") if counts["error"] else plural(counts["warning"], "warning")
         out.reason = f"{why}; no rows were stored"
         if not counts["error"]:
             out.reason += " (use --accept-warnings to accept a submission with warnings only)"
     timings["total"] = time.perf_counter() - t0
     out.timings = {k: round(v, 3) for k, v in timings.items()}
     return out
+
+
+def _settle_references(con: duckdb.DuckDBPyConnection, result: Any) -> bool:
+    """Drop the unknown-reference findings whose reference is, under the lock, a current scenario of the database
+    (another ingest may have stored it since the check read the database); True when any was dropped, with the
+    result's counts and findings brought in line."""
+    gone = con.execute(f"""
+        DELETE FROM temp.main.findings AS f WHERE f.rule = 'unknown-reference' AND EXISTS
+            (SELECT 1 FROM {NEW}.current_scenarios AS c WHERE c.model = f.model AND c.scenario = f.value)
+        RETURNING f.path, f.line""").fetchall()  # noqa: S608 - names from the code
+    if not gone:
+        return False
+    dropped = {(p, ln) for p, ln in gone}
+    result.findings = [
+        f for f in result.findings if not (f.rule == "unknown-reference" and (f.path, f.line) in dropped)
+    ]
+    result.rule_counts = [
+        (r, sev, int(n))
+        for r, sev, n in con.execute(
+            "SELECT rule, severity, count(*) FROM temp.main.findings GROUP BY 1, 2 ORDER BY 1, 2"
+        ).fetchall()
+    ]
+    result.counts = {sev: sum(n for _, s2, n in result.rule_counts if s2 == sev) for sev in result.counts}
+    return True
 
 
 def _models(con: duckdb.DuckDBPyConnection) -> str | None:
@@ -410,7 +454,7 @@ def _store(
     accepted: bool,
     by: str | None,
     note: str | None,
-    bar: _Stages,
+    bar: Stages,
     timings: dict[str, float],
     harmonise: bool = False,
 ) -> IngestResult:
@@ -450,7 +494,7 @@ def _store_ordered_freely(
     accepted: bool,
     by: str | None,
     note: str | None,
-    bar: _Stages,
+    bar: Stages,
     timings: dict[str, float],
     harmonise: bool = False,
 ) -> IngestResult:
@@ -501,6 +545,10 @@ def _store_ordered_freely(
             counts["note"],
         ],
     )
+    if accepted and contract.sources:
+        # the folder the accepted data was checked with: the default contract of the next `milepost ingest`
+        con.execute(f"DELETE FROM {NEW}.meta WHERE key = 'contract_path'")  # noqa: S608 - names from the code
+        con.execute(f"INSERT INTO {NEW}.meta VALUES ('contract_path', ?)", [str(contract.sources[-1])])  # noqa: S608 - names from the code
     fcols = ", ".join(FINDING_COLUMNS)
     con.execute(f"INSERT INTO {NEW}.findings (submission_id, {fcols}) SELECT ?, {fcols} FROM temp.main.findings", [sid])  # noqa: S608 - names from the code; values bound as parameters
     out = IngestResult(
@@ -635,40 +683,3 @@ def _user() -> str | None:
         return getpass.getuser()
     except (KeyError, OSError):
         return None
-
-
-class _Stages:
-    """A small rich progress bar on stderr for the load stages of a large ingest (nothing when disabled)."""
-
-    STAGES = 4
-
-    def __init__(self, enabled: bool, rows: int) -> None:
-        self.progress = None
-        if not enabled:
-            return
-        from rich.console import Console
-        from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
-
-        self.progress = Progress(
-            TextColumn("{task.description}"),
-            BarColumn(),
-            TimeElapsedColumn(),
-            console=Console(stderr=True),
-            transient=True,
-        )
-        self.progress.start()
-        self.task = self.progress.add_task(f"Loading {rows:,} rows", total=self.STAGES)
-        self.started = False
-
-    def step(self, text: str) -> None:
-        if self.progress is None:
-            return
-        if self.started:
-            self.progress.advance(self.task)
-        self.started = True
-        self.progress.update(self.task, description=text.capitalize())
-
-    def close(self) -> None:
-        if self.progress is not None:
-            self.progress.update(self.task, completed=self.STAGES)
-            self.progress.stop()

@@ -15,6 +15,8 @@ npv                  sum over every year t = y0..y1 inclusive of C_t / (1 + r)**
                      (as numpy_financial.npv, which does not discount its first value); with y0 later than base the
                      value is still discounted to the base year. Null unless every year y0..y1 is covered.
                      Unit: the variable's unit without its trailing "/yr" (annual flows summed over years).
+A scenario that names itself as its reference, or whose references lead back to it, gets no loss_pct and no
+growth_reduction_pp rows (its losses would read as exactly 0).
 Costs are model results: they exclude avoided climate damages and co-benefits.
 """
 
@@ -31,13 +33,28 @@ REFERENCE_NOTE = (
 )
 
 
+def not_cyclic(t: Tables) -> str:
+    """WHERE clause leaving out series of scenarios that name themselves as reference or whose references lead
+    back to them (rule reference-cycle): measured against themselves their losses would read as 0, a real value."""
+    links = f"SELECT DISTINCT model, scenario, reference FROM {t.series} WHERE reference IS NOT NULL"
+    cyclic = (
+        f"WITH RECURSIVE links AS ({links}), walk(model, start, cur, steps) AS ("
+        "SELECT model, scenario, reference, 1 FROM links UNION ALL "
+        "SELECT w.model, w.start, k.reference, w.steps + 1 FROM walk w JOIN links k "
+        "ON k.model = w.model AND k.scenario = w.cur "
+        "WHERE w.cur <> w.start AND w.steps <= (SELECT count(*) FROM links)) "
+        "SELECT DISTINCT model, start AS scenario FROM walk WHERE cur = start"
+    )
+    return f" WHERE NOT EXISTS (SELECT 1 FROM ({cyclic}) cy WHERE cy.model = s.model AND cy.scenario = s.scenario)"
+
+
 def loss_sql(t: Tables) -> str:
     """SQL for `loss_pct` rows."""
     scen, ref = "s.ends[p.i_to]", "s.ref_ends[p.i_to]"
     value = f"(CASE WHEN {ref} <> 0 THEN ({ref} - {scen}) / {ref} * 100 END)"
     return (
         f"SELECT {head('loss_pct')}, p.year_from, p.year_to, {value} AS value, x.unit, {REFERENCE_NOTE} AS note"
-        f" {frame(t, 'loss_pct')}"
+        f" {frame(t, 'loss_pct')}{not_cyclic(t)}"
     )
 
 
@@ -47,7 +64,7 @@ def growth_reduction_sql(t: Tables) -> str:
     ref = cagr("s.ref_ends[p.i_from]", "s.ref_ends[p.i_to]", "p.year_from", "p.year_to")
     return (
         f"SELECT {head('growth_reduction_pp')}, p.year_from, p.year_to, {ref} - {scen} AS value, x.unit,"
-        f" {REFERENCE_NOTE} AS note {frame(t, 'growth_reduction_pp')}"
+        f" {REFERENCE_NOTE} AS note {frame(t, 'growth_reduction_pp')}{not_cyclic(t)}"
     )
 
 
