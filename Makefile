@@ -56,7 +56,7 @@ typecheck: $(VENV)/.installed-test
 	$(BIN)/mypy $(MYPY_TESTS) tests
 
 bench: $(VENV)/.installed-test
-	$(BIN)/python -m milepost.validate.bench
+	$(BIN)/python -m milepost.validate.bench $(if $(BENCH_FULL),--full)
 
 clean:
 	rm -rf $(VENV) $(DEMO) $(DB) $(DB).inputs .pytest_cache
