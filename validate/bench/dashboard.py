@@ -57,7 +57,7 @@ def _on_cursor(reader: Reader, fn: Callable[..., Any], *args: Any) -> Any:
         cur.close()
 
 
-def run(workdir: Path, full: bool = False, repeat: int = 3) -> list[Step]:
+def run(workdir: Path, full: bool = False, repeat: int = 3, rows: int | None = None) -> list[Step]:
     """Time what the Screen and Rates pages query per interaction (default filters), and the per-version `choices`,
     each as a ratio to a full scan of the indicators table (in this process, alternating; medians)."""
     db = build(Path(workdir))
