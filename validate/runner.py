@@ -177,7 +177,9 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
             f"JOIN c_regions r ON o.region = r.region WHERE {rows} "
             "AND trim(o.model) <> '' AND trim(o.scenario) <> ''"
         )
-    con.execute(f"CREATE OR REPLACE TEMP TABLE checked AS {sql}")
+    # `checked` carries each row's source and line, so its row order means nothing; without keeping it DuckDB
+    # writes the copy in parallel (measured: half the time of this statement).
+    _unordered(con, f"CREATE OR REPLACE TEMP TABLE checked AS {sql}")
     # The contract's part lists in the same ENUM types, so sum joins never cast.
     con.execute(
         f"CREATE OR REPLACE TEMP TABLE e_parts AS SELECT * FROM (SELECT TRY_CAST(total AS "  # noqa: S608 - names from the code; user text via validate.sql
@@ -193,8 +195,15 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
         f"CREATE OR REPLACE TEMP TABLE e_variables AS SELECT * FROM (SELECT TRY_CAST(variable AS "  # noqa: S608 - names from the code; user text via validate.sql
         f"{enum['variable']}) AS variable, regions, unit FROM c_variables) WHERE variable IS NOT NULL"
     )
-    # Repeats are rare: find the keys with a narrow aggregate, then look only at their rows.
-    con.execute(f"CREATE OR REPLACE TEMP TABLE dup_keys AS SELECT {KEY} FROM checked GROUP BY ALL HAVING count(*) > 1")  # noqa: S608 - names from the code; user text via validate.sql
+    # Repeats are rare: find the keys with a narrow aggregate, then look only at their rows. Equal keys have
+    # equal hashes, so as many distinct hashes as rows proves there is none, at a third less than grouping by
+    # the five key columns; a collision only sends the run to the exact grouping.
+    repeats = con.execute(f"SELECT count(*) - count(DISTINCT hash({KEY})) FROM checked").fetchall()[0][0]  # noqa: S608 - names from the code
+    only = "" if repeats else " LIMIT 0"
+    con.execute(
+        f"CREATE OR REPLACE TEMP TABLE dup_keys AS SELECT * FROM (SELECT {KEY} FROM checked "  # noqa: S608 - names from the code; user text via validate.sql
+        f"GROUP BY ALL HAVING count(*) > 1){only}"
+    )
     con.execute(
         "CREATE OR REPLACE TEMP TABLE dups AS SELECT c.model, c.scenario, c.region, c.variable, c.year, "  # noqa: S608 - names from the code; user text via validate.sql
         "any_value(c.unit) AS unit, count(*) AS n, min(c.value) AS vmin, max(c.value) AS vmax, "
@@ -208,6 +217,16 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
             "AND c.region = d.region AND c.variable = d.variable AND c.year = d.year "
             "AND (c.src, c.line) <> (d.src, d.line)"
         )
+
+
+def _unordered(con: duckdb.DuckDBPyConnection, sql: str) -> None:
+    """Run `sql` without DuckDB keeping the insertion order, then restore the connection's setting."""
+    keep = con.execute("SELECT current_setting('preserve_insertion_order')").fetchall()[0][0]
+    con.execute("SET preserve_insertion_order = false")
+    try:
+        con.execute(sql)
+    finally:
+        con.execute(f"SET preserve_insertion_order = {'true' if keep else 'false'}")
 
 
 _RULE = re.compile(r"'([a-z0-9-]+)' AS rule\b")
