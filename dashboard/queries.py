@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
+import os
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass, field
 from typing import Any
 
 import duckdb
 import pandas as pd
+import pyarrow as pa
 
 from milepost.dashboard import stats
 from milepost.validate.findings import FINDING_COLUMNS
@@ -145,8 +149,66 @@ def _data(con: duckdb.DuckDBPyConnection) -> str:
     return "current_data_by_basis" if _has_basis(con) else "(SELECT *, 'raw' AS basis FROM current_data)"
 
 
-def _banded(con: duckdb.DuckDBPyConnection) -> str:
-    return _BANDED.format(indicators=_indicators(con))
+def _banded(con: duckdb.DuckDBPyConnection, sel: Selection | None = None) -> str:
+    return _BANDED.format(indicators=_slice(con, sel) if sel is not None else _indicators(con))
+
+
+# ---------------------------------------------------------------- the indicators of one selection, cached
+
+# Every Screen and Rates query reads the current indicators of one (basis, variable, region): a few hundred
+# thousand rows of tens of millions. They are read once per version of the database and kept as an Arrow table
+# (a page rerun, a second reviewer and a filter change on the same variable read them again from memory).
+SLICE_ENTRIES = 16
+_SLICES: OrderedDict[tuple[Any, ...], pa.Table] = OrderedDict()
+_SLICES_LOCK = threading.Lock()
+
+
+def signature(con: duckdb.DuckDBPyConnection) -> tuple[Any, ...] | None:
+    """What identifies the content a connection reads: the file (path, inode, modification time, size), its
+    settings (schema version, creation time, outdated marks) and its submissions with their status. Every write
+    of a Milepost database adds a submission or changes a setting, so a connection still reading the version a
+    writer has just replaced never shares a signature with the new one. None for an in-memory database."""
+    (path,) = con.execute("SELECT path FROM duckdb_databases() WHERE database_name = current_database()").fetchall()[0]
+    if not path:
+        return None
+    try:
+        st = os.stat(path)
+    except OSError:
+        return None
+    meta, subs, rows = con.execute(
+        "SELECT (SELECT list((key, value) ORDER BY key) FROM meta), "
+        "(SELECT list((id, status) ORDER BY id) FROM submissions), (SELECT count(*) FROM indicators)"
+    ).fetchall()[0]
+    return (path, st.st_ino, st.st_mtime_ns, st.st_size, str(meta), str(subs), rows)
+
+
+def _slice(con: duckdb.DuckDBPyConnection, sel: Selection) -> str:
+    """The name of a relation on `con` holding the current indicators of `sel`'s basis, variable and region (the
+    filters every query on it applies anyway), registered from the cache."""
+    version = signature(con)
+    key = (version, sel.basis, sel.variable, sel.region)
+    with _SLICES_LOCK:
+        table = _SLICES.get(key) if version is not None else None
+        if table is not None:
+            _SLICES.move_to_end(key)
+    if table is None:
+        table = con.sql(
+            f"SELECT * FROM {_indicators(con)} WHERE basis = $basis AND variable = $variable AND region = $region",  # noqa: S608 - fragments of this module; values bound as $parameters
+            params={"basis": sel.basis, "variable": sel.variable, "region": sel.region},
+        ).to_arrow_table()
+        if version is not None:
+            with _SLICES_LOCK:
+                _SLICES[key] = table
+                while len(_SLICES) > SLICE_ENTRIES:
+                    _SLICES.popitem(last=False)
+    con.register("selection_indicators", table)
+    return "selection_indicators"
+
+
+def clear_cache() -> None:
+    """Forget the cached indicator slices (the bench's cold runs; tests)."""
+    with _SLICES_LOCK:
+        _SLICES.clear()
 
 
 def _note(con: duckdb.DuckDBPyConnection) -> str:
@@ -226,14 +288,14 @@ def attribute_values(con: duckdb.DuckDBPyConnection, attribute: str) -> list[str
 
 def band_edges(con: duckdb.DuckDBPyConnection, sel: Selection) -> list[float]:
     """The band edges in use: the given ones, or the terciles of the selected values."""
-    (edges,) = con.execute(f"WITH {_banded(con)} SELECT list(e ORDER BY e) FROM edges", sel.params()).fetchall()[0]  # noqa: S608 - fragments of this module; values bound as $parameters
+    (edges,) = con.execute(f"WITH {_banded(con, sel)} SELECT list(e ORDER BY e) FROM edges", sel.params()).fetchall()[0]  # noqa: S608 - fragments of this module; values bound as $parameters
     return [float(e) for e in edges or []]
 
 
 def selected(con: duckdb.DuckDBPyConnection, sel: Selection) -> pd.DataFrame:
     """The selected scenarios with their band number and value at the milestone."""
     sql = (
-        f"WITH {_banded(con)} SELECT model, scenario, band, band_value FROM banded "  # noqa: S608 - fragments of this module; values bound as $parameters
+        f"WITH {_banded(con, sel)} SELECT model, scenario, band, band_value FROM banded "  # noqa: S608 - fragments of this module; values bound as $parameters
         "ORDER BY band, band_value, model, scenario"
     )
     return _df(con, sql, sel.params())
@@ -260,7 +322,7 @@ def screen_table(
     params = {**sel.params(), "base": base_year, "next": next_year}
     attr_cols = "".join(f", b.attributes ->> $attr_{i} AS {identifier(a)}" for i, a in enumerate(attributes))
     params.update({f"attr_{i}": a for i, a in enumerate(attributes)})
-    sql = f"""WITH {_banded(con)}
+    sql = f"""WITH {_banded(con, sel)}
     SELECT b.model, b.scenario{attr_cols}, b.band, b.band_value AS value,
       max(i.value) FILTER (WHERE i.kind = 'value' AND i.year_from = $base) AS base_value,
       max(i.value) FILTER (WHERE i.kind = 'rate_cagr' AND i.year_from = $base AND i.year_to = $year) AS cagr_to,
@@ -272,7 +334,7 @@ def screen_table(
       max({_note(con)}) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_note,
       max(i.value) FILTER (WHERE i.kind = 'peak_year') AS peak_year
     FROM banded b
-    LEFT JOIN {_indicators(con)} i ON i.model = b.model AND i.scenario = b.scenario
+    LEFT JOIN {_slice(con, sel)} i ON i.model = b.model AND i.scenario = b.scenario
          AND i.basis = $basis AND i.region = $region AND i.variable = $variable
     GROUP BY ALL
     ORDER BY b.band, value, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
@@ -281,9 +343,11 @@ def screen_table(
 
 def rate_periods(con: duckdb.DuckDBPyConnection, variable: str, region: str) -> list[tuple[int, int]]:
     """The (year_from, year_to) pairs for which reduction rates exist."""
+    # current_indicators holds the raw basis: its slice of the cache is the same rows
+    raw = _slice(con, Selection(variable=variable, region=region, basis="raw"))
     rows = con.execute(
-        """SELECT DISTINCT year_from, year_to FROM current_indicators
-           WHERE list_contains($kinds::VARCHAR[], kind) AND variable = $v AND region = $r ORDER BY 1, 2""",
+        f"""SELECT DISTINCT year_from, year_to FROM {raw}
+           WHERE list_contains($kinds::VARCHAR[], kind) AND variable = $v AND region = $r ORDER BY 1, 2""",  # noqa: S608 - fragments of this module; values bound as $parameters
         {"v": variable, "r": region, "kinds": list(RATE_KINDS)},
     ).fetchall()
     return [(int(a), int(b)) for a, b in rows]
@@ -292,10 +356,10 @@ def rate_periods(con: duckdb.DuckDBPyConnection, variable: str, region: str) -> 
 def rates(con: duckdb.DuckDBPyConnection, sel: Selection, year_from: int, year_to: int) -> pd.DataFrame:
     """Every rate kind (CAGR, the linear rates, the absolute rate) of the band variable over one period, one row per
     scenario and kind (value may be null), with the unit of each."""
-    sql = f"""WITH {_banded(con)}
+    sql = f"""WITH {_banded(con, sel)}
     SELECT b.model, b.scenario, b.band, b.band_value, i.kind, i.value, i.unit
     FROM banded b
-    JOIN {_indicators(con)} i ON i.model = b.model AND i.scenario = b.scenario
+    JOIN {_slice(con, sel)} i ON i.model = b.model AND i.scenario = b.scenario
          AND i.basis = $basis AND i.region = $region AND i.variable = $variable
          AND list_contains($kinds::VARCHAR[], i.kind) AND i.year_from = $yf AND i.year_to = $yt
     ORDER BY i.kind, b.band, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters

@@ -81,14 +81,23 @@ def run(workdir: Path, full: bool = False, repeat: int = 3, rows: int | None = N
             _on_cursor(con, queries.band_edges, sel)
             queries.summarise(_on_cursor(con, queries.rates, sel, *period), ["kind", "band"])
 
+        def cold(fn: Callable[[], None]) -> Callable[[], None]:
+            def run() -> None:
+                queries.clear_cache()
+                fn()
+
+            return run
+
         rows = []
         for name, fn in (
             ("dashboard.screen", screen),
             ("dashboard.rates", rates),
+            ("dashboard.screen, first read of the variable", cold(screen)),
+            ("dashboard.rates, first read of the variable", cold(rates)),
             ("dashboard.choices", lambda: _on_cursor(con, queries.choices)),
         ):
             seconds, floor = _ratio(fn, lambda: _on_cursor(con, queries.full_scan))
-            limit = None if name == "dashboard.choices" else LIMIT
+            limit = None if name == "dashboard.choices" or "first" in name else LIMIT
             rows.append(
                 Step(
                     step=f"{name} queries, {n_scen:,} scenarios",
@@ -96,7 +105,7 @@ def run(workdir: Path, full: bool = False, repeat: int = 3, rows: int | None = N
                     seconds=seconds,
                     floor_seconds=floor,
                     floor="count(*), sum(value) over the indicators table, same connection",
-                    target=f"≤ {LIMIT:g}x" if limit else "- (once per database version)",
+                    target=f"≤ {LIMIT:g}x" if limit else "- (once per database version and variable)",
                     met=(seconds / floor <= limit) if limit else None,
                     ratio=seconds / floor,
                     detail={"scenarios": n_scen, "repeats": REPEATS},
