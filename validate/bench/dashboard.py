@@ -88,7 +88,7 @@ def run(workdir: Path, full: bool = False, repeat: int = 3, rows: int | None = N
 
             return run
 
-        rows = []
+        steps = []
         for name, fn in (
             ("dashboard: Screen queries", screen),
             ("dashboard: Rates queries", rates),
@@ -98,7 +98,7 @@ def run(workdir: Path, full: bool = False, repeat: int = 3, rows: int | None = N
         ):
             seconds, floor = _ratio(fn, lambda: _on_cursor(con, queries.full_scan))
             limit = None if "choices" in name or "first" in name else LIMIT
-            rows.append(
+            steps.append(
                 Step(
                     step=f"{name}, {n_scen:,} scenarios",
                     rows=n_ind,
@@ -111,7 +111,7 @@ def run(workdir: Path, full: bool = False, repeat: int = 3, rows: int | None = N
                     detail={"scenarios": n_scen, "repeats": REPEATS},
                 )
             )
-        return rows
+        return steps
     finally:
         con.close()
 

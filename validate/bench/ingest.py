@@ -38,7 +38,7 @@ def _ingest_cmd(files: list[Path], db: Path) -> list[str]:
 
 
 def _payload(path: Path) -> dict[str, Any]:
-    payload = json.loads(path.read_text(encoding="utf-8"))
+    payload: dict[str, Any] = json.loads(path.read_text(encoding="utf-8"))
     if payload["status"] != "accepted":
         raise RuntimeError(f"benchmark ingest was {payload['status']}: {payload.get('reason')}")
     return payload
