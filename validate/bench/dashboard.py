@@ -18,13 +18,16 @@ LIMIT = 3.0
 
 
 def build(workdir: Path, n_scenarios: int = N_SCENARIOS) -> Path:
-    """The benchmark database: the generator's many-scenario ensemble, ingested per model (reused if present)."""
+    """The benchmark database: the generator's many-scenario ensemble, ingested per model (reused while its
+    schema is current)."""
     from milepost.example_db.generate import CONTRACT_DIR, write_many_scenarios
+    from milepost.validate.bench.ingest import current
     from milepost.validate.store.ingest import ingest
 
     db = Path(workdir) / f"dashboard-bench-{n_scenarios}.duckdb"
-    if db.exists():
+    if current(db):
         return db
+    db.unlink(missing_ok=True)  # of an older schema: built again, as a fresh clone would
     paths = write_many_scenarios(Path(workdir) / f"many-{n_scenarios}", n_scenarios)
     partial = db.with_name(db.name + ".building")
     partial.unlink(missing_ok=True)

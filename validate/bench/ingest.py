@@ -75,10 +75,24 @@ def _stored_rows(db: Path) -> int:
         return int(con.execute("SELECT count(*) FROM data").fetchall()[0][0])
 
 
-def _base(workdir: Path, rows: int) -> Path:
-    """A database holding one clean submission of `rows` rows (made once, kept)."""
-    db = workdir / f"base-{rows}.duckdb"
+def current(db: Path) -> bool:
+    """Whether a kept database is of this program's schema: an older one would be migrated, and its indicators
+    recomputed, by the timed ingest."""
+    import duckdb
+
+    from milepost.validate.store.database import latest_version, schema_version
+
     if not db.exists():
+        return False
+    with duckdb.connect(str(db), read_only=True) as con:
+        return schema_version(con) == latest_version()
+
+
+def _base(workdir: Path, rows: int) -> Path:
+    """A database holding one clean submission of `rows` rows (made once, kept while its schema is current)."""
+    db = workdir / f"base-{rows}.duckdb"
+    if not current(db):
+        _remove(db)
         data, scen = clean_submission(workdir, rows)
         partial = workdir / f"base-{rows}.building.duckdb"
         _remove(partial)
