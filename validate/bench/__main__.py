@@ -1,6 +1,7 @@
 """`python -m milepost.validate.bench` (`make bench`): one table of every step against its floor.
 
-Sections: `check`, `ingest`, `dashboard` (the page queries), `browser` (the real app in headless Chromium).
+Sections: `check`, `ingest`, `dashboard` (the page queries), `browser` (the real app in headless Chromium),
+`bombs` (hostile inputs: time and peak memory of a check of each).
 `--full` (`make bench BENCH_FULL=1`) adds the 10M-row steps, which take several minutes more on 2 cores.
 The table is printed and written with every run's times to `bench-out/results.json`.
 """
@@ -9,6 +10,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import inspect
 import json
 import os
 import platform
@@ -19,7 +21,7 @@ from pathlib import Path
 from milepost.validate.bench.timing import Step, table
 
 ROOT = Path(__file__).resolve().parents[2]
-SECTIONS = ("check", "ingest", "dashboard", "browser")
+SECTIONS = ("check", "ingest", "dashboard", "browser", "bombs")
 
 
 def machine() -> dict[str, object]:
@@ -47,6 +49,24 @@ def machine() -> dict[str, object]:
     }
 
 
+def _step(r: dict[str, object]) -> Step:
+    """A section's result given as a plain dict (the bombs section) as a row of the table."""
+    ratio, target = r.get("ratio"), r.get("target")
+    within = r.get("within_memory_target")
+    met = (float(ratio) <= float(target)) if isinstance(ratio, float) and isinstance(target, float) else within
+    return Step(
+        step=str(r["step"]),
+        rows=0,
+        seconds=float(r["seconds"]),  # type: ignore[arg-type]
+        floor_seconds=float(r["floor_seconds"]) if r.get("floor_seconds") is not None else None,  # type: ignore[arg-type]
+        floor=str(r.get("floor", "-")),
+        target=f"≤ {target:g}x" if isinstance(target, float) else ("memory" if within is not None else "-"),
+        met=met if isinstance(met, bool) else None,
+        peak_mb=float(r["peak_mb"]) if r.get("peak_mb") is not None else None,  # type: ignore[arg-type]
+        ratio=float(ratio) if isinstance(ratio, float) else None,
+    )
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the sections, print the table, write results.json; exit 0 (a target not met is reported, not raised)."""
     ap = argparse.ArgumentParser(prog="python -m milepost.validate.bench", description=__doc__)
@@ -62,7 +82,10 @@ def main(argv: list[str] | None = None) -> int:
     for name in args.only or SECTIONS:
         print(f"[{name}] running …", file=sys.stderr, flush=True)
         run = importlib.import_module(f"milepost.validate.bench.{name}").run
-        for s in run(args.workdir, full=args.full, repeat=args.repeat, rows=args.rows):
+        wanted = inspect.signature(run).parameters
+        given = {"full": args.full, "repeat": args.repeat, "rows": args.rows}
+        for found in run(args.workdir, **{k: v for k, v in given.items() if k in wanted and v is not None}):
+            s = found if isinstance(found, Step) else _step(found)
             steps.append(s)
             print(
                 f"  {s.step}: {s.seconds:.2f} s" + (f" = {s.ratio:.2f}x" if s.ratio else ""),
