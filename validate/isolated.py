@@ -73,9 +73,11 @@ def check_in_child(
             failure=f"the check took longer than its time budget of {seconds:g} s and was stopped "
             f"(${ENV_SECONDS} raises it)"
         )
-    tail = err.decode("utf-8", "replace").strip().splitlines()[-1:] if err else []
+    lines = err.decode("utf-8", "replace").strip().splitlines() if err else []
+    tail = lines[-1:]
     if proc.returncode != 0 or not (out_dir / "summary.json").exists():
-        text = " ".join(tail).lower()
+        # DuckDB's out-of-memory error ends with several lines of advice after the one that says what happened
+        text = " ".join(lines[-20:]).lower()
         if proc.returncode in (-signal.SIGKILL, -signal.SIGSEGV) or any(
             w in text for w in ("memoryerror", "out of memory", "cannot allocate", "memory allocation")
         ):
