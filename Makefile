@@ -32,9 +32,11 @@ demo: demo-db
 demo-db: $(VENV)/.installed
 	$(BIN)/python -m milepost.example_db.demo $(DEMO) --db $(DB) $(if $(REBUILD),--rebuild)
 
-# The whole suite, after the linters (so CI, which runs `make test`, runs them too).
+# The whole suite, after the linters (so CI, which runs `make test`, runs them too), on two workers
+# (`make test PYTEST_WORKERS=0` runs it in one process).
+PYTEST_WORKERS ?= 2
 test: lint
-	$(BIN)/python -m pytest -q
+	$(BIN)/python -m pytest -q -n $(PYTEST_WORKERS)
 
 lint: $(VENV)/.installed-test
 	$(BIN)/ruff check .
