@@ -176,6 +176,8 @@ class Contract:
     pairs: Pairing | None = None
     allocation: Allocation = Allocation()
     limits: Limits = field(default=Limits(), compare=False)
+    # the [limits] keys the contract (or one it extends) sets: they enter the hash, the defaults do not
+    limits_set: tuple[str, ...] = field(default=(), compare=False)
     # [costs] reference_required: every scenario that is nobody's reference must name one (rule missing-reference)
     reference_required: bool = False
     problems: tuple[str, ...] = field(default=(), compare=False)
@@ -224,6 +226,7 @@ class Contract:
             "budgets": asdict(self.budgets) if self.budgets else None,
             "pairs": asdict(self.pairs) if self.pairs else None,
             "allocation": asdict(self.allocation),
+            "limits": asdict(self.limits),
             # only when set, so the hash of every contract written before the setting existed stays the same
             **({"costs": {"reference_required": True}} if self.reference_required else {}),
         }
@@ -672,11 +675,16 @@ def _resolve(
         pairs=_pairing(head.get("pairs"), where),
         allocation=_allocation(head.get("allocation", {}), where),
         limits=Limits.from_table(head.get("limits"), where),
+        limits_set=tuple(sorted(head.get("limits") or ())),
         reference_required=_costs_reference_required(head.get("costs", {}), where),
         problems=tuple(problems),
         units=units,
     )
-    payload = {k: v for k, v in contract.to_dict().items() if k not in ("hash", "sources")}
+    payload = {k: v for k, v in contract.to_dict().items() if k not in ("hash", "sources", "limits")}
+    # Only the limits the contract sets: a database then records under which limits a submission was checked,
+    # and the hash of every contract without a [limits] table stays what it was before limits existed.
+    if contract.limits_set:
+        payload["limits"] = {k: getattr(contract.limits, k) for k in contract.limits_set}
     digest = hashlib.sha256(json.dumps(payload, sort_keys=True, separators=(",", ":")).encode()).hexdigest()
     object.__setattr__(contract, "hash", digest)
     return contract

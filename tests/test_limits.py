@@ -5,6 +5,8 @@ Their peak memory and time at full size are measured by `make bench` (the "bombs
 
 from __future__ import annotations
 
+import dataclasses
+import json
 import zipfile
 
 import pandas as pd
@@ -133,3 +135,31 @@ def test_bad_limits_are_contract_errors(tmp_path, table, message):
 def test_the_defaults_hold_without_a_limits_table(basic):
     assert basic.limits == Limits()
     assert Limits().max_cell_chars == 32_767  # Excel's cell limit (from memory of Excel's specifications table)
+
+
+def test_the_limits_a_contract_sets_enter_its_hash(tmp_path):
+    folder = tmp_path / "plain"
+    folder.mkdir()
+    (folder / "contract.toml").write_text(f'name = "limited"\nextends = "{BASIC_CONTRACT}"\n')
+    plain = load(folder)
+    assert plain.limits_set == () and plain.limits == Limits()
+    ten, twenty = limited(tmp_path, max_rows=10), limited(tmp_path, max_rows=20)
+    assert ten.limits_set == ("max_rows",) and ten.limits.max_rows == 10
+    # the same contract checked under other limits is another contract for the database
+    assert len({plain.hash, ten.hash, twenty.hash}) == 3
+    assert limited(tmp_path, max_rows=10).hash == ten.hash  # stable for the same limits
+
+
+def test_contract_show_prints_the_effective_limits(tmp_path):
+    from typer.testing import CliRunner
+
+    from milepost.validate.cli import app
+
+    limited(tmp_path, max_rows=10)
+    folder = str(tmp_path / "limited")
+    res = CliRunner().invoke(app, ["contract", "show", folder])
+    assert res.exit_code == 0, res.output
+    assert "max_rows 10 (set)" in res.stdout and "max_columns 1,000," in res.stdout
+    res = CliRunner().invoke(app, ["contract", "show", folder, "-f", "json"])
+    shown = json.loads(res.stdout)["limits"]
+    assert shown == {**dataclasses.asdict(Limits()), "max_rows": 10}

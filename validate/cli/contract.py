@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 from pathlib import Path
 from typing import Annotated
@@ -63,6 +64,8 @@ def show_cmd(
         f"  tolerance: sums ±{t.sum_relative * 100:g} % (floor {t.sum_absolute:g}), base year "
         f"±{t.base_year_relative * 100:g} %; GWP set {c.gwp_set}; discount rate {c.discount_rate:g} %/yr"
     )
+    lim = dataclasses.asdict(c.limits)
+    echo("  limits: " + ", ".join(f"{k} {v:,}" + (" (set)" if k in c.limits_set else "") for k, v in lim.items()))
     if c.reference_required:
         echo("  costs: every scenario that is no scenario's reference must name one ([costs] reference_required)")
     echo("")
