@@ -7,6 +7,8 @@ sequences a hostile cell would carry (from memory of the xterm control-sequence 
 from __future__ import annotations
 
 import json
+import subprocess
+import sys
 from pathlib import Path
 
 import openpyxl
@@ -80,3 +82,49 @@ def test_the_xlsx_report_shows_controls_as_escapes(tmp_path: Path, hostile: Path
     text = tmp_path / "r.txt"
     assert runner.invoke(app, ["check", str(hostile), "-c", str(BASIC_CONTRACT), "-o", str(text)]).exit_code == 1
     _clean(text.read_text(encoding="utf-8"))
+
+
+BAD_NAME = f"bad{CLEAR}\x07\u202e"
+
+
+@pytest.fixture
+def bad_paths(tmp_path: Path) -> tuple[Path, Path]:
+    """A file and a folder whose names hold ESC [ 2 J, BEL and a right-to-left override."""
+    (tmp_path / "f").mkdir()
+    (tmp_path / "d").mkdir()
+    file = tmp_path / "f" / BAD_NAME
+    file.write_text("x\n")
+    folder = tmp_path / "d" / BAD_NAME
+    folder.mkdir()
+    return file, folder
+
+
+@pytest.mark.parametrize(
+    "argv",
+    [
+        lambda f, d: ["contract", "show", str(f)],  # a folder argument given a file
+        lambda f, d: ["check", str(f), "-c", str(f)],  # a folder option given a file
+        lambda f, d: ["check", str(f), "-o", str(d)],  # a file option given a folder
+        lambda f, d: ["ingest", str(f), "--db", str(d)],  # a database option given a folder
+        lambda f, d: ["check", str(f), "--format", BAD_NAME],  # a value outside a choice
+        lambda f, d: ["check", f"--{BAD_NAME}"],  # an unknown option
+        lambda f, d: ["contract", "show", str(d), BAD_NAME],  # an extra argument
+        lambda f, d: [BAD_NAME],  # an unknown command
+    ],
+)
+def test_usage_errors_escape_the_paths_and_values_they_name(bad_paths: tuple[Path, Path], argv) -> None:
+    res = runner.invoke(app, argv(*bad_paths))
+    assert res.exit_code == 2, res.output
+    assert "Error:" in res.output
+    _clean(res.output)
+    assert "2J" in res.output  # the name is shown, escaped, not dropped
+
+
+def test_the_installed_command_escapes_usage_errors(bad_paths: tuple[Path, Path]) -> None:
+    file, _ = bad_paths
+    proc = subprocess.run(
+        [sys.executable, "-m", "milepost.validate", "contract", "show", str(file)], capture_output=True, text=True
+    )
+    assert proc.returncode == 2 and "is a file" in proc.stderr
+    _clean(proc.stdout + proc.stderr)
+    assert "\\u202e" in proc.stderr

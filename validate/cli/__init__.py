@@ -4,17 +4,48 @@ from __future__ import annotations
 
 import importlib
 import sys
+from typing import Any
 
 import typer
+from typer.core import TyperGroup
 
 from milepost.validate import __version__
-from milepost.validate.cli.common import echo, internal_error
+from milepost.validate.cli.common import echo, internal_error, shown
 from milepost.validate.errors import EXIT_INTERRUPTED
 
 # Each module exposes register(app). Keep the order: it is the order of `milepost --help`.
 COMMAND_MODULES = ("check", "contract", "harmonise", "db", "dashboard")
 
+
+class _EscapedGroup(TyperGroup):
+    """The root group: usage errors (a bad path, option or value, found while parsing any command below it) are
+    shown through `shown`, like every other message. Typer escapes C0/C1 controls in some of its messages but
+    not bidirectional overrides, and not in every message; a path comes straight from the user."""
+
+    def make_context(self, info_name: str | None, args: list[str], parent: Any = None, **extra: Any) -> Any:
+        try:
+            return super().make_context(info_name, args, parent, **extra)
+        except typer.TyperException as e:
+            _escape(e)
+            raise
+
+    def invoke(self, ctx: Any) -> Any:
+        try:
+            return super().invoke(ctx)
+        except typer.TyperException as e:
+            _escape(e)
+            raise
+
+
+def _escape(e: typer.TyperException) -> None:
+    # Click's exceptions keep their text in `message` (BadParameter adds the parameter's name, which is ours).
+    message = getattr(e, "message", None)
+    if isinstance(message, str):
+        e.message = shown(message)
+
+
 app = typer.Typer(
+    cls=_EscapedGroup,
     add_completion=False,
     no_args_is_help=True,
     help="Check, load and compare climate-mitigation scenario submissions against an intercomparison contract.",
