@@ -83,11 +83,14 @@ def test_options_replace_the_contracts_choice_for_every_series(tmp_path, ferrow)
     [
         (["--convergence-year", "2020"], "must come after the base year 2020"),
         (["--method", "mean"], "'mean' is not one of"),
+        # a usage error raised inside the command (once an internal error, exit 70)
+        (["--methods", "{out}"], "the output must be a new file, not the methods table"),
     ],
 )
 def test_usage_errors_exit_2(tmp_path, ferrow, args, message):
+    args = [str(a).format(out=tmp_path / "x.csv") for a in args]
     res = _run("harmonise", *ferrow, "-c", DEMO_CONTRACT, "-o", tmp_path / "x.csv", *args)
-    assert res.exit_code == 2
+    assert res.exit_code == 2, res.output
     assert message in res.stderr
     assert not (tmp_path / "x.csv").exists()
 

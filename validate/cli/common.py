@@ -151,7 +151,8 @@ def handle_errors(fn: F) -> F:
     def wrapper(*args: Any, **kwargs: Any) -> Any:
         try:
             result = fn(*args, **kwargs)
-        except (typer.Exit, click.exceptions.Exit, click.ClickException, click.Abort):
+        # typer.TyperException: the usage errors of the click that Typer bundles (not the click package's classes)
+        except (typer.Exit, typer.TyperException, click.exceptions.Exit, click.ClickException, click.Abort):
             if (broken := _stdout_broken()) is not None:
                 fail(f"cannot write to standard output: {broken.strerror or broken}", EXIT_OUTPUT)
             raise
