@@ -276,3 +276,38 @@ def test_the_self_checks_report_is_never_written_over_an_upload(tmp_path: Path, 
         assert upload.xlsx() and upload.rows == len(rows)  # the upload itself is intact
     finally:
         upload.close()
+
+
+def _dead_pid() -> int:
+    """The id of a process that has ended (and been reaped): what a writer killed with SIGKILL leaves."""
+    proc = subprocess.Popen([sys.executable, "-c", "pass"])
+    proc.wait()
+    return proc.pid
+
+
+def test_the_next_write_removes_what_a_killed_writer_left(work: tuple[Path, Path]) -> None:
+    db, data = work
+    out = db.parent / "r.txt"
+    dead = db.parent / f".r.txt.{_dead_pid()}.abcd_123.part"  # the name replacing() gives, of a dead writer
+    live = db.parent / f".r.txt.{os.getpid()}.zzzzzzzz.part"  # a write of this process still under way
+    other = db.parent / f".r.txt.7.{_dead_pid()}.abcdefgh.part"  # a leftover of the target r.txt.7, not r.txt
+    for p in (dead, live, other):
+        p.write_text("half a report")
+    res = _run("check", data, "-c", BASIC_CONTRACT, "-o", out)
+    assert res.exit_code == 0, res.output
+    assert out.read_text(encoding="utf-8").startswith("milepost ")
+    assert not dead.exists() and live.exists() and other.exists()
+    assert sorted(p.name for p in db.parent.glob(".r.txt.*.part")) == sorted([live.name, other.name])
+
+
+def test_the_next_snapshot_removes_the_folder_a_killed_one_left(work: tuple[Path, Path]) -> None:
+    db, _ = work
+    dead = db.parent / f"snap.tmp-{_dead_pid()}"
+    live = db.parent / f"snap.tmp-{os.getppid()}"  # the parent of this test process is alive
+    for d in (dead, live):
+        (d / "data").mkdir(parents=True)
+        (d / "data" / "part.parquet").write_bytes(b"half")
+    res = _run("snapshot", db.parent / "snap", "--db", db)
+    assert res.exit_code == 0, res.output
+    assert (db.parent / "snap" / "manifest.json").is_file()
+    assert not dead.exists() and live.is_dir()

@@ -8,6 +8,8 @@ Every writer goes through here:
 - `replacing` writes into a hidden temporary file in the target's folder and renames it over the target only
   when the write is complete, so a failure (a full disk, a file size limit, Ctrl+C) leaves the old file or
   nothing, never half a file. Devices and pipes (`/dev/stdout`, `/dev/full`) are written straight through.
+  Its name carries the writer's process id, so the next write to the same target removes what a killed writer
+  (`kill -9`, a power cut) left behind, and only that (`remove_leftovers`).
 - A failure to write is an OutputError (exit code 4) naming the file.
 """
 
@@ -166,6 +168,40 @@ def _umask() -> int:
     return 0o022
 
 
+# `.NAME.PID.XXXXXXXX.part`: mkstemp's eight random characters (from memory of CPython's tempfile, whose names
+# use lower-case letters, digits and `_`), so the file of a target `NAME.7` is never taken for one of `NAME`.
+_PART = re.compile(r"(\d+)\.[a-z0-9_]{8}")
+
+
+def owner_gone(pid: int) -> bool:
+    """True if no process `pid` exists. A process of another user counts as alive (its files are kept)."""
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return True
+    except (PermissionError, OverflowError, ValueError):
+        return False
+    return False
+
+
+def remove_leftovers(target: Path) -> list[Path]:
+    """Remove the temporary files of earlier writes to `target` whose writer process no longer exists (a writer
+    killed with SIGKILL cannot clean up); the files of live writers, this one included, stay. Returns what went."""
+    head = f".{target.name}."
+    try:
+        found = [p for p in target.parent.iterdir() if p.name.startswith(head) and p.name.endswith(".part")]
+    except OSError:  # a folder we cannot list: the write itself will say what is wrong
+        return []
+    removed = []
+    for p in found:
+        m = _PART.fullmatch(p.name[len(head) : -len(".part")])
+        if m and owner_gone(int(m.group(1))):
+            with contextlib.suppress(OSError):
+                p.unlink()
+                removed.append(p)
+    return removed
+
+
 @contextlib.contextmanager
 def replacing(path: str | Path) -> Iterator[Path]:
     """Yield where to write `path`'s new content: a temporary file beside it, renamed over it on success and
@@ -177,7 +213,8 @@ def replacing(path: str | Path) -> Iterator[Path]:
             yield target
         return
     with writing(path):
-        fd, name = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".part")
+        remove_leftovers(target)
+        fd, name = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.{os.getpid()}.", suffix=".part")
         os.close(fd)
     tmp = Path(name)
     try:

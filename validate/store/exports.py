@@ -6,6 +6,7 @@ are written into SQL text. All of these open the database read-only, so they nev
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import shutil
@@ -319,6 +320,25 @@ def _write_xlsx(
 # ---------------------------------------------------------------- snapshot
 
 
+def _remove_dead_snapshot_folders(out_dir: Path) -> None:
+    # A snapshot killed with SIGKILL leaves OUT.tmp-PID behind; a live one (another process) keeps its folder.
+    from milepost.validate.outputs import owner_gone
+
+    head = f"{out_dir.name}.tmp-"
+    with contextlib.suppress(OSError):
+        for p in out_dir.parent.iterdir():
+            pid = p.name[len(head) :]
+            if (
+                p.name.startswith(head)
+                and pid.isascii()
+                and pid.isdigit()
+                and p.is_dir()
+                and not p.is_symlink()
+                and owner_gone(int(pid))
+            ):
+                shutil.rmtree(p, ignore_errors=True)
+
+
 def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
     """Write the current data, indicators and scenarios as Parquet partitioned by model, plus manifest.json.
 
@@ -335,6 +355,7 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
     # Build beside the target and rename at the end, so a half-written snapshot never carries the real name.
     work = out_dir.with_name(f"{out_dir.name}.tmp-{os.getpid()}")
     shutil.rmtree(work, ignore_errors=True)
+    _remove_dead_snapshot_folders(out_dir)
     try:
         with writing(out_dir), reading(db) as con:
             work.mkdir()
