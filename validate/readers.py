@@ -84,6 +84,14 @@ def _is_scenarios_table(found: dict[str, str]) -> bool:
     return "model" in found and "scenario" in found and "variable" not in found and "value" not in found
 
 
+def _number(cell: str) -> str:
+    """SQL reading a text cell as a number. DuckDB's cast skips ASCII whitespace itself, so trim() (which also
+    strips Unicode spaces, e.g. the no-break space of spreadsheet exports) runs only on the cells the plain cast
+    refuses: coalesce evaluates its second argument for those rows alone. Trimming every cell first built a
+    second string of each (measured: a sixth of the typed read's CPU at 2M rows)."""
+    return f"coalesce(TRY_CAST({cell} AS DOUBLE), TRY_CAST(trim({cell}) AS DOUBLE))"
+
+
 def _typed_select(cols: dict[str, str], src: str, line: str, decimal_comma: bool = False) -> str:
     """SELECT turning raw text cells into typed year/value columns, keeping the text only where it is not clean."""
     key = ", ".join(f"CAST({identifier(cols[c])} AS VARCHAR) AS {c}" for c in KEY_TEXT)
@@ -93,7 +101,7 @@ def _typed_select(cols: dict[str, str], src: str, line: str, decimal_comma: bool
         value = f"replace({value}, ',', '.')"
     inner = (
         f"SELECT {line} AS line, {key}, {year} AS y_text, {value} AS v_text, "  # noqa: S608 - generated names; headers and paths via validate.sql
-        f"TRY_CAST(trim({year}) AS DOUBLE) AS y_num, TRY_CAST(trim({value}) AS DOUBLE) AS v_num FROM {src}"
+        f"{_number(year)} AS y_num, {_number(value)} AS v_num FROM {src}"
     )
     whole = "y_num = floor(y_num) AND abs(y_num) < 1e6"
     return (
@@ -319,8 +327,9 @@ def scan_lines(path: Path) -> LineShape:
     with path.open("rb") as f:
         for chunk in iter(lambda: f.read(16 << 20), b""):
             newlines += chunk.count(b"\n")
-            # counting one byte is several times faster than a pair: most files have no CR at all
-            if prev == b"\r" or chunk.count(b"\r"):
+            # most files have no CR at all: `in` stops at the first one (memchr), where counting reads the whole
+            # chunk again; measured 0.25 s of a 140 MB file
+            if prev == b"\r" or b"\r" in chunk:
                 crlf += chunk.count(b"\r\n") + (prev == b"\r" and chunk[:1] == b"\n")
             prev = last = chunk[-1:]
     return LineShape(newlines, crlf, newlines + (last not in (b"", b"\n")))
