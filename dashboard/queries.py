@@ -15,7 +15,7 @@ import pyarrow as pa
 from milepost.dashboard import stats
 from milepost.validate.findings import FINDING_COLUMNS
 from milepost.validate.sql import identifier
-from milepost.validate.store.database import select_columns, stored_columns, view_or_definition
+from milepost.validate.store.database import select_columns, stored_columns
 from milepost.validate.store.pairs import OWN_PERIOD_KINDS as PAIR_OWN_PERIOD_KINDS
 
 RATE_KINDS = ("rate_cagr", "rate_linear", "rate_linear_base", "rate_absolute")
@@ -494,13 +494,18 @@ def contract_names(con: duckdb.DuckDBPyConnection) -> list[str]:
 
 
 def submissions(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:
-    """Every submission, newest first, with its version per model (the `submission_versions` view; none if rejected)."""
-    versions = view_or_definition(con, "submission_versions")  # a database not yet migrated lacks the view
-    sql = f"""SELECT b.id, b.model, v.version, b.status, b.submitted_at, b.submitted_by, b.rows, b.errors, b.warnings,
-        b.notes, b.superseded_by, b.contract_name, b.note, b.sha256
-      FROM submissions AS b JOIN {versions} AS v ON v.submission_id = b.id
-      ORDER BY b.submitted_at DESC, b.id DESC"""  # noqa: S608 - the view or its definition in database.sql
-    return _df(con, sql)
+    """Every submission, newest first, with its version per model (the `submission_versions` view; none if rejected)
+    and `retried` (a rejected attempt followed by another submission of the model or files): the rows of
+    `milepost submissions`, from the same library function."""
+    from milepost.validate.store.exports import submission_rows  # the exports module is heavy; only this page needs it
+
+    cols = ["id", "model", "version", "status", "retried", "submitted_at", "submitted_by", "rows", "errors",
+            "warnings", "notes", "superseded_by", "contract_name", "note", "sha256"]  # fmt: skip
+    rows = submission_rows(con)
+    out = pd.DataFrame([{c: r[c] for c in cols} for r in rows], columns=cols)
+    for c in ("version", "superseded_by"):
+        out[c] = out[c].astype("Int64")
+    return out.iloc[::-1].reset_index(drop=True)
 
 
 def rule_counts(con: duckdb.DuckDBPyConnection) -> pd.DataFrame:

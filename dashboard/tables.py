@@ -105,7 +105,9 @@ COLUMNS: dict[str, Column] = {
     "npv_later": Column("NPV later", "number", blank="not reported"),
     # submissions
     "id": Column("submission", "count"),
-    "version": Column("version", "count", blank="none", help="A rejected submission has no version."),
+    "version": Column(
+        "version", help="Numbered per model; a rejected submission never became data and has no version."
+    ),
     "status": Column("status"),
     "errors": Column("errors", "count"),
     "warnings": Column("warnings", "count"),

@@ -278,7 +278,7 @@ def test_submissions_and_drill_down(demo_db, sql):
     # blanks explained: a rejected submission has no version; a submission no later one replaced is current
     replaced = dict(sql.execute("SELECT id, superseded_by FROM submissions").fetchall())
     shown = subs.set_index("submission")
-    assert shown.loc[rejected, "version"] == "none"
+    assert shown.loc[rejected, "version"] == "rejected, no version"  # the words of `milepost submissions`
     assert {i: shown.loc[i, "replaced by submission"] for i in replaced} == {
         i: "current" if r is None else str(r) for i, r in replaced.items()
     }
@@ -291,6 +291,37 @@ def test_submissions_and_drill_down(demo_db, sql):
     at.multiselect(key="subs_rules").set_value([rule]).run()
     found = frame(at, "how to fix")
     assert len(found) == per_rule[rule] and set(found["rule"]) == {rule}
+
+
+def test_submissions_fold_retried_rejections_as_the_cli_does(demo_db, tmp_path):
+    """A rejected attempt submitted again (the same files) is folded away until "Show all attempts" is ticked;
+    the ids listed either way are those of `milepost submissions` with and without --all."""
+    from typer.testing import CliRunner
+
+    from milepost.example_db.generate import write_demo
+    from milepost.validate.cli import app
+
+    db = tmp_path / "retried.duckdb"
+    shutil.copy(demo_db, db)
+    flawed = write_demo(tmp_path / "files").flawed
+    data = flawed[0].read_text().splitlines(keepends=True)
+    flawed[0].write_text("".join(data[:-1]))  # one row fewer: new files of the same model, rejected again
+    ingest(flawed, db, CONTRACT_DIR)  # the first rejected attempt is now history
+    cli = {}
+    for flag in ([], ["--all"]):
+        out = CliRunner().invoke(app, ["submissions", "--db", str(db), "--format", "json", *flag])
+        cli[bool(flag)] = [s["id"] for s in json.loads(out.stdout)]
+    assert len(cli[True]) == len(cli[False]) + 1
+    (first,) = set(cli[True]) - set(cli[False])
+    at = open_app(db, "views/submissions.py")
+    assert sorted(frame(at, "version")["submission"]) == cli[False]
+    assert any(f"not listed: {first}" in c.value for c in at.caption)
+    at.checkbox(key="subs_all").check().run()
+    assert not at.exception, [e.message for e in at.exception]
+    shown = frame(at, "version").set_index("submission")
+    assert sorted(shown.index) == cli[True]
+    assert shown.loc[first, "version"] == "rejected, no version"
+    assert any(o.startswith(f"#{first} ") for o in at.selectbox(key="subs_id").options)
 
 
 def _signature(p: Path) -> tuple[int, int, str]:

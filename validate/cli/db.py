@@ -213,27 +213,28 @@ def submissions_cmd(
     followed by another submission of the same model (or files) is kept in the database but folded away here
     unless --all."""
     from milepost.validate.store.database import default_db_path
-    from milepost.validate.store.exports import submissions
+    from milepost.validate.store.exports import listed, submissions, version_label
 
     every = submissions(default_db_path(db))
-    rows = every if show_all else [r for r in every if not r["retried"]]
+    rows = listed(every, show_all)
     if fmt is TextJson.json:
         _echo_json(rows)
         return
     if not every:
         echo("No submissions yet.")
         return
+    vw = max([3, *(len(version_label(r["version"])) for r in rows)])  # "rejected, no version" is wider than v12
     header = (
-        f"{'id':>4}  {'status':<16}  {'model':<16}  {'ver':>3}  {'scen':>4}  {'rows':>10}  "
+        f"{'id':>4}  {'status':<16}  {'model':<16}  {'ver':>{vw}}  {'scen':>4}  {'rows':>10}  "
         f"{'err':>5}  {'warn':>5}  {'submitted (UTC)':<19}  {'by':<12}  files"
     )
     echo(header)
     for r in rows:
         status = r["status"] + (f" by {r['superseded_by']}" if r["superseded_by"] else "")
-        ver = f"v{r['version']}" if r["version"] else "-"
+        ver = version_label(r["version"])
         files = ", ".join(f["name"] for f in r["files"])
         echo(
-            f"{r['id']:>4}  {status:<16}  {(r['model'] or '-'):<16}  {ver:>3}  {len(r['scenarios']):>4}  "
+            f"{r['id']:>4}  {status:<16}  {(r['model'] or '-'):<16}  {ver:>{vw}}  {len(r['scenarios']):>4}  "
             f"{r['rows']:>10,}  {r['errors']:>5}  {r['warnings']:>5}  {r['submitted_at'] or '-':<19}  "
             f"{(r['submitted_by'] or '-'):<12}  {files}"
         )

@@ -579,32 +579,51 @@ def diff(
     return out
 
 
+# what the CLI and the dashboard show for a submission without a version (a rejected one: it never became data)
+NO_VERSION = "rejected, no version"
+
+
+def version_label(version: int | None) -> str:
+    """A submission's version as both the CLI and the dashboard write it: `v3`, or `NO_VERSION` for none."""
+    return f"v{int(version)}" if version is not None else NO_VERSION
+
+
+def listed(rows: Sequence[dict[str, Any]], show_all: bool = False) -> list[dict[str, Any]]:
+    """The submissions a list shows: every one, or (the default) without the rejected attempts that were retried."""
+    return list(rows) if show_all else [r for r in rows if not r["retried"]]
+
+
 def submissions(db: str | Path) -> list[dict[str, Any]]:
     """Every submission, oldest first, with its version per model (the `submission_versions` view) and scenarios.
     `retried`: a rejected submission after which the same model (or the same files) was submitted again, so the
-    attempt is history rather than something to act on (`milepost submissions` folds those away)."""
+    attempt is history rather than something to act on (`milepost submissions` folds those away, see `listed`)."""
     with reading(db) as con:
-        cur = con.execute(f"""
-            SELECT b.id, b.model, b.status, v.version, b.superseded_by, b.rows, b.errors, b.warnings, b.notes,
-                   b.status = 'rejected' AND EXISTS (SELECT 1 FROM submissions AS n WHERE n.id > b.id
-                       AND (n.model = b.model OR n.sha256 = b.sha256)) AS retried,
-                   b.submitted_at, b.submitted_by, b.note,
-                   b.contract_name, b.contract_hash, b.milepost_version, b.sha256, b.files,
-                   (SELECT list(s.scenario ORDER BY s.scenario) FROM scenarios AS s WHERE s.submission_id = b.id)
-                       AS scenarios,
-                   (SELECT list(c.scenario ORDER BY c.scenario) FROM current_versions AS c
-                     WHERE c.submission_id = b.id) AS current_scenarios
-            FROM submissions AS b JOIN {view_or_definition(con, "submission_versions")} AS v
-              ON v.submission_id = b.id ORDER BY b.id""")  # noqa: S608 - the view or its definition in database.sql
-        names = [d[0] for d in cur.description]
-        out = []
-        for row in cur.fetchall():
-            rec = dict(zip(names, row, strict=True))
-            rec["files"] = json.loads(rec["files"]) if rec["files"] else []
-            rec["scenarios"] = rec["scenarios"] or []
-            rec["current_scenarios"] = rec["current_scenarios"] or []
-            rec["submitted_at"] = (
-                rec["submitted_at"].isoformat(sep=" ", timespec="seconds") if rec["submitted_at"] else None
-            )
-            out.append(rec)
+        return submission_rows(con)
+
+
+def submission_rows(con: duckdb.DuckDBPyConnection) -> list[dict[str, Any]]:
+    """`submissions` on an open connection (the dashboard's cached read-only one)."""
+    cur = con.execute(f"""
+        SELECT b.id, b.model, b.status, v.version, b.superseded_by, b.rows, b.errors, b.warnings, b.notes,
+               b.status = 'rejected' AND EXISTS (SELECT 1 FROM submissions AS n WHERE n.id > b.id
+                   AND (n.model = b.model OR n.sha256 = b.sha256)) AS retried,
+               b.submitted_at, b.submitted_by, b.note,
+               b.contract_name, b.contract_hash, b.milepost_version, b.sha256, b.files,
+               (SELECT list(s.scenario ORDER BY s.scenario) FROM scenarios AS s WHERE s.submission_id = b.id)
+                   AS scenarios,
+               (SELECT list(c.scenario ORDER BY c.scenario) FROM current_versions AS c
+                 WHERE c.submission_id = b.id) AS current_scenarios
+        FROM submissions AS b JOIN {view_or_definition(con, "submission_versions")} AS v
+          ON v.submission_id = b.id ORDER BY b.id""")  # noqa: S608 - the view or its definition in database.sql
+    names = [d[0] for d in cur.description]
+    out = []
+    for row in cur.fetchall():
+        rec = dict(zip(names, row, strict=True))
+        rec["files"] = json.loads(rec["files"]) if rec["files"] else []
+        rec["scenarios"] = rec["scenarios"] or []
+        rec["current_scenarios"] = rec["current_scenarios"] or []
+        rec["submitted_at"] = (
+            rec["submitted_at"].isoformat(sep=" ", timespec="seconds") if rec["submitted_at"] else None
+        )
+        out.append(rec)
     return out
