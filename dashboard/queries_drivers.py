@@ -182,6 +182,22 @@ def burden(con: duckdb.DuckDBPyConnection, sel: Selection) -> pd.DataFrame:
     return queries._df(con, sql, sel.params())
 
 
+SHARE_BASES = {"cost.abatement": "abatement cost", "gdp.ppp": "GDP (PPP) loss", "gdp.mer": "GDP (MER) loss",
+               "consumption": "consumption loss"}  # fmt: skip
+
+
+def cost_shares(con: duckdb.DuckDBPyConnection, sel: Selection) -> pd.DataFrame:
+    """Each region's share (`cost_share`, a fraction) of the World abatement cost and of the summed regional loss
+    for the selected scenarios, one row per scenario, region, basis variable and milestone."""
+    ind = queries._indicators(con)
+    sql = f"""WITH {queries._banded(con)}
+    SELECT b.model, b.scenario, b.band, i.region, i.variable, i.year_to AS year, i.value AS share
+    FROM banded b JOIN {ind} i ON i.model = b.model AND i.scenario = b.scenario AND i.basis = $basis
+         AND i.kind = 'cost_share'
+    ORDER BY year, i.variable, i.region, b.band, b.model, b.scenario"""  # noqa: S608 - fragments of this module; values bound as $parameters
+    return queries._df(con, sql, sel.params())
+
+
 def market(con: duckdb.DuckDBPyConnection, sel: Selection) -> pd.DataFrame:
     """Market size of the selected scenarios: permits traded (Mt CO2e) and money moved (billion USD_2015/yr) per
     scenario, rule and milestone."""

@@ -1,5 +1,5 @@
 -- Milepost scenario database: the complete current schema (tables and views).
--- schema_version: 6
+-- schema_version: 7
 -- A new database is built from this file; an older one is brought here by the numbered files in migrations/.
 -- Every change here needs a new migrations/NNNN_*.sql that makes the same change (tests compare the two).
 

@@ -137,3 +137,16 @@ def test_regions_money_moved_and_who_pays_match_sql(demo_db, sql):
     # transfers of each scenario sum to zero over the regions (here: as the page's rows read them)
     sums = transfers.groupby(["model", "scenario"])["transfer"].sum()
     assert sums.abs().max() < 1e-6
+    # regional cost shares: the page's median against the stored rows, and each scenario's shares sum to 1
+    shares = sql.execute(
+        "SELECT model, scenario, region, value AS share FROM current_indicators WHERE kind = 'cost_share'"
+        " AND variable = 'cost.abatement' AND year_to = 2050"
+    ).df()
+    shares = sel.merge(shares, on=["model", "scenario"])
+    assert shares.groupby(["model", "scenario"])["share"].sum().to_numpy() == pytest.approx(1.0, abs=1e-6)
+    share_rows = next(d.value for d in at.dataframe if "share of" in d.value.columns)
+    share_row = share_rows[
+        (share_rows["share of"] == "abatement cost") & (share_rows.region == "Dovania") & (share_rows.band == "high")
+    ]
+    mine = shares[(shares.band == 2) & (shares.region == "Dovania")]["share"]
+    assert share_row["median share [%]"].iloc[0] == pytest.approx(100 * float(np.median(mine)))

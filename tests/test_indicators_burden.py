@@ -6,6 +6,7 @@ from dataclasses import replace
 
 import duckdb
 import numpy as np
+import pandas as pd
 import pytest
 
 from milepost.schema.contract import Allocation, Contract
@@ -129,3 +130,60 @@ def test_missing_inputs_leave_gaps_not_zeros(computed) -> None:
     assert set(noted.variable) == {"per_capita", "convergence"}
     assert noted.note.str.contains("no population is reported").all()
     assert gaps[gaps.scenario == "main"].query("kind in ['allowance', 'transfer']").empty
+
+
+GDP_REF = np.array([[100.0, 130.0, 180.0], [200.0, 280.0, 400.0], [50.0, 60.0, 80.0], [40.0, 60.0, 90.0],
+                    [30.0, 35.0, 45.0]])  # fmt: skip
+GDP_LOSS = np.array([[0.0, 2.0, 5.0], [0.0, 1.0, 9.0], [0.0, 0.5, 0.2], [0.0, 0.0, 1.5], [0.0, 0.7, 0.3]])  # fmt: skip
+
+
+@pytest.fixture(scope="module")
+def shares(basic: Contract):
+    con = duckdb.connect()
+    con.execute(
+        "CREATE TABLE checked (model VARCHAR, scenario VARCHAR, region VARCHAR, variable VARCHAR, unit VARCHAR,"
+        " year INTEGER, value DOUBLE)"
+    )
+    con.execute("CREATE TABLE checked_scenarios (model VARCHAR, scenario VARCHAR, reference VARCHAR)")
+    con.executemany("INSERT INTO checked_scenarios VALUES ('M', ?, ?)", [("ref", None), ("policy", "ref")])
+    unit = basic.variables["gdp.ppp"].unit
+    rows = []
+    for j, year in enumerate(YEARS):
+        for i, r in enumerate(REGIONS):
+            rows.append(("M", "policy", r, "cost.abatement", UNITS["cost.abatement"], year, float(COST[i, j])))
+            rows.append(("M", "ref", r, "gdp.ppp", unit, year, float(GDP_REF[i, j])))
+            rows.append(("M", "policy", r, "gdp.ppp", unit, year, float(GDP_REF[i, j] - GDP_LOSS[i, j])))
+        rows.append(("M", "policy", "World", "cost.abatement", UNITS["cost.abatement"], year, float(COST[:, j].sum())))
+    con.executemany("INSERT INTO checked VALUES (?, ?, ?, ?, ?, ?, ?)", rows)
+    compute_indicators(con, basic)
+    df = con.execute(
+        "SELECT scenario, region, variable, year_to AS year, value, unit FROM computed_indicators"
+        " WHERE kind = 'cost_share'"
+    ).df()
+    con.close()
+    return pd.DataFrame(rows, columns=["model", "scenario", "region", "variable", "unit", "year", "value"]), df
+
+
+def test_regional_cost_shares_sum_to_one_and_match_pandas(shares) -> None:
+    rows, df = shares
+    # independent computation with pandas from the input rows: the abatement cost over World's, the loss against
+    # the reference over the loss summed over the regions
+    parts = rows[rows["region"].isin(REGIONS)]
+    cost = parts[parts["variable"] == "cost.abatement"].set_index(["region", "year"])["value"]
+    world = rows[(rows["region"] == "World") & (rows["variable"] == "cost.abatement")].set_index("year")["value"]
+    gdp = parts[parts["variable"] == "gdp.ppp"]
+    gdp = gdp.pivot_table(index=["region", "year"], columns="scenario", values="value")
+    loss = gdp["ref"] - gdp["policy"]
+    expected = {
+        "cost.abatement": cost / world.reindex(cost.index.get_level_values("year")).to_numpy(),
+        "gdp.ppp": loss / loss.groupby(level="year").transform("sum"),
+    }
+    for variable, exp in expected.items():
+        got = df[(df["variable"] == variable) & (df["scenario"] == "policy")]
+        for year in YEARS[1:]:  # the milestones (the base year has no cost: 0 / 0 is no share)
+            mine = got[got["year"] == year].set_index("region").loc[list(REGIONS), "value"].to_numpy(dtype=float)
+            want = exp.xs(year, level="year").loc[list(REGIONS)].to_numpy(dtype=float)
+            np.testing.assert_allclose(mine, want, rtol=1e-12)
+            assert mine.sum() == pytest.approx(1.0, rel=1e-12)  # the regions that add up to World share all of it
+    assert set(df["unit"]) == {"fraction"}
+    assert "World" not in set(df["region"])  # a share of World in itself says nothing

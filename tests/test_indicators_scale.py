@@ -22,8 +22,8 @@ def test_full_scale_is_correct(core):
         per_kind["budget_level"] = len(core.budgets.likelihoods)
         # the carbon-budget kinds are written for World (region 0 of the invented data) only
         regions = {k: 1 if KINDS[k].scaling == "budget" else 6 for k in p.kinds()}
-        # burden sharing needs a market region with parts; the core contract's World has none
-        regions.update(dict.fromkeys(burden.NEEDS, 0))
+        # burden sharing and cost shares need a market region with parts; the core contract's World has none
+        regions.update(dict.fromkeys([*burden.NEEDS, "cost_share"], 0))
         assert n == 3000 * sum(regions[k] * per_kind[k] for k, *_ in p.selection)
         for model, scenario, region in (("M0", "S1", "World"), ("M7", "S299", "R5")):
             pts = con.execute(

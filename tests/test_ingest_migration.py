@@ -227,3 +227,22 @@ def test_a_schema_4_database_gets_the_budget_indicators_on_the_next_ingest(tmp_p
         assert not r.con.execute("SELECT count(*) FROM db.meta WHERE key = ?", [OUTDATED_KEY]).fetchall()[0][0]
     # every stored Halvik scenario has its sums to net zero (6 regions), 5 budget classes and 3 warmings again
     assert kinds == {"drift": 6 + 5 + 3, "act-firm": 6 + 5 + 3, "wait-firm": 6 + 5 + 3}
+
+
+def test_a_schema_6_database_gets_the_cost_shares_on_the_next_ingest(tmp_path: Path, submissions, contract):
+    db = tmp_path / "v6.duckdb"
+    ingest(submissions[0], db, contract)
+    # what schema 6 wrote: the same tables, no cost_share rows
+    con = duckdb.connect(str(db))
+    con.execute("DELETE FROM indicators WHERE kind = 'cost_share'")
+    con.execute("UPDATE meta SET value = '6' WHERE key = 'schema_version'")
+    con.execute("CHECKPOINT")
+    con.close()
+    dbm.ensure_database(db)
+    with dbm.open_reader(db) as r:
+        marker = r.con.execute("SELECT value FROM db.meta WHERE key = ?", [OUTDATED_KEY]).fetchall()
+        assert marker == [("computed before the regional cost shares existed",)]
+    assert ingest(submissions[2], db, contract).recomputed > 0
+    with dbm.open_reader(db) as r:
+        n = r.con.execute("SELECT count(*) FROM db.indicators WHERE kind = 'cost_share' AND model = 'Halvik'")
+        assert n.fetchall()[0][0] > 0  # the first submission (Halvik) has its shares again

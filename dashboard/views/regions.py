@@ -111,6 +111,31 @@ st.caption(
     "each model's own reference scenario, without trade (the models' own results)."
 )
 
+st.subheader(f"Regional cost shares in {year}")
+shares = ui.label_bands(ui.query(qd.cost_shares, sel), labels)
+shares = shares[(shares["year"] == year) & shares["variable"].isin(list(qd.SHARE_BASES))]
+if shares.empty:
+    st.info("No regional cost shares: they need regional and World cost.abatement, or GDP with a reference scenario.")
+else:
+    share_table = shares.groupby(["variable", "region", "band_label"], as_index=False).agg(
+        n=("share", "count"), share=("share", "median")
+    )
+    share_table["share"] = share_table["share"] * 100
+    share_table["variable"] = share_table["variable"].map(qd.SHARE_BASES)
+    ui.table(
+        share_table.rename(
+            columns={"variable": "share of", "band_label": "band", "share": "median share [%]", "n": "scenarios"}
+        ),
+        f"regions_shares_{year}",
+        "regions_shares",
+    )
+    st.caption(
+        "Each region's share of the World abatement cost, and of the loss against each model's own reference "
+        "summed over the regions; in one scenario the shares of the regions that make up World sum to 100 %. "
+        "Medians over the band's scenarios (the medians need not sum to 100 %). Costs exclude avoided damages "
+        "and co-benefits."
+    )
+
 with st.expander("Scenario by scenario"):
     ui.table(
         at.drop(columns=["band"]).rename(columns={"band_label": "band"}),

@@ -11,10 +11,10 @@ import json
 import os
 import shutil
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 import duckdb
 
@@ -588,7 +588,10 @@ def version_label(version: int | None) -> str:
     return f"v{int(version)}" if version is not None else NO_VERSION
 
 
-def listed(rows: Sequence[dict[str, Any]], show_all: bool = False) -> list[dict[str, Any]]:
+RowT = TypeVar("RowT", bound=Mapping[Any, Any])
+
+
+def listed(rows: Sequence[RowT], show_all: bool = False) -> list[RowT]:
     """The submissions a list shows: every one, or (the default) without the rejected attempts that were retried."""
     return list(rows) if show_all else [r for r in rows if not r["retried"]]
 

@@ -18,6 +18,12 @@ cost_after_trade  the region's cost.abatement minus its transfer, billion USD_20
 and for the market region: market_permits (permits traded: the sum of the positive permits_sold, Mt CO2e) and
 market_value (money moved: the sum of the positive transfers, billion USD_2015/yr).
 
+cost_share        each trading region's share of the burden at each milestone, as a fraction (the shares of the
+                  regions that add up to the market region sum to 1): for cost.abatement its share of the market
+                  region's abatement cost; for gdp.ppp, gdp.mer and consumption its share of the summed regional
+                  loss (reference - scenario, in the variable's unit, against each region's own reference as in
+                  loss_pct). Empty where the denominator is zero or missing, or (loss) where a part lacks a value.
+
 A contract whose market region has no parts (the core contract's World, of countries) gets no burden rows.
 A scenario lacking an input (the cap, a region's emissions or population, the carbon price, a region's abatement
 cost) gets no rows of the kinds needing it and a gap row saying which input is missing. Allocation rules are
@@ -32,7 +38,8 @@ import duckdb
 
 from milepost.schema.contract import Contract
 from milepost.validate.sql import literal, literal_list
-from milepost.validate.store.indicators.base import Kind, Tables
+from milepost.validate.store.indicators.base import Kind, Tables, frame
+from milepost.validate.store.indicators.costs import REFERENCE_NOTE, not_cyclic
 from milepost.validate.store.indicators.drivers import PREFIX, gaps_sql
 
 MARKET = PREFIX + "market"
@@ -190,7 +197,41 @@ def gaps(t: Tables, kinds: tuple[str, ...]) -> str:
     return gaps_sql(wanted, COMPLETE, " for the market region or one of its parts")
 
 
+COST_BASIS = "cost.abatement"  # the variable whose share is of the market region's total; the others: of summed losses
+
+
+def cost_share_sql(t: Tables) -> str:
+    """SQL for `cost_share` rows: one window over the trading regions of each scenario, variable and milestone."""
+    amount = (
+        f"CASE WHEN s.variable = {literal(COST_BASIS)} THEN s.ends[p.i_to] ELSE s.ref_ends[p.i_to] - s.ends[p.i_to] END"
+    )
+    parts = (
+        f"SELECT s.model, s.scenario, s.region, s.variable, p.year_from, p.year_to, x.unit, k.market,"
+        f" {amount} AS amount, CASE WHEN s.variable = {literal(COST_BASIS)} THEN NULL ELSE {REFERENCE_NOTE} END"
+        f" AS note {frame(t, 'cost_share')} JOIN {t.market} k ON k.region = s.region{not_cyclic(t)}"
+    )
+    totals = (
+        f"SELECT s.model, s.scenario, s.region AS market, s.variable, p.year_to, s.ends[p.i_to] AS total"
+        f" {frame(t, 'cost_share')} WHERE s.region IN (SELECT market FROM {t.market})"
+    )
+    n_parts = f"(SELECT count(*) FROM {t.market})"
+    window = "OVER (PARTITION BY r.model, r.scenario, r.variable, r.year_to)"
+    denominator = (
+        f"CASE WHEN r.variable = {literal(COST_BASIS)} THEN w.total"
+        f" WHEN count(r.amount) {window} = {n_parts} THEN sum(r.amount) {window} END"
+    )
+    return (
+        "SELECT r.model, r.scenario, r.region, 'cost_share' AS kind, r.variable, r.year_from, r.year_to,"
+        f" r.amount / nullif({denominator}, 0) AS value, r.unit,"
+        f" CASE WHEN r.variable = {literal(COST_BASIS)} THEN 'share of the ' || r.market || ' abatement cost'"
+        " ELSE 'share of the loss summed over the parts of ' || r.market || ' (' || r.note || ')' END AS note"
+        f" FROM ({parts}) r LEFT JOIN ({totals}) w ON w.model = r.model AND w.scenario = r.scenario"
+        " AND w.market = r.market AND w.variable = r.variable AND w.year_to = r.year_to"
+    )
+
+
 KINDS = (
+    Kind("cost_share", ("milestones", "points"), "label", cost_share_sql),
     *(Kind(k, ("milestones", "points"), "label", region_sql(k)) for k in COLUMN),
     Kind("market_permits", ("milestones", "points"), "label", market_sql("market_permits", "permits")),
     Kind("market_value", ("milestones", "points"), "label", market_sql("market_value", "transfer")),
