@@ -263,3 +263,28 @@ def test_bad_allocation_shapes_are_contract_errors(tmp_path):
         (tmp_path / "contract.toml").write_text(f'name = "b"\nextends = "core"\n{text}', encoding="utf-8")
         with pytest.raises(ContractError, match=match):
             load(tmp_path)
+
+
+def test_lint_warns_when_the_allocation_market_has_no_parts(tmp_path, core, demo_contract):
+    from typer.testing import CliRunner
+
+    from milepost.example_db.generate import CONTRACT_DIR
+    from milepost.validate.cli import app
+    from milepost.validate.contract_lint import advice
+
+    assert advice(demo_contract) == []  # World is the sum of five regions: they trade
+    assert [f.rule for f in advice(core)] == ["allocation-no-parts"]  # core's World has no parts
+    # a market named on a region without parts: no burden rows would be computed; said, and the lint passes
+    folder = tmp_path / "c"
+    shutil.copytree(CONTRACT_DIR, folder)
+    toml = folder / "contract.toml"
+    text = toml.read_text(encoding="utf-8")
+    toml.write_text(text.replace("[allocation]\n", '[allocation]\nregion = "Ardena"\n', 1), encoding="utf-8")
+    found = advice(load(folder))
+    assert [(f.rule, f.severity) for f in found] == [("allocation-no-parts", "warning")]
+    assert "'Ardena' has no parts" in found[0].message
+    assert lint(load(folder)) == []  # a warning, never an error that stops ingest
+    r = CliRunner().invoke(app, ["contract", "lint", str(folder)])
+    assert r.exit_code == 0, r.output
+    assert "warning allocation-no-parts: [allocation] region 'Ardena' has no parts" in r.stdout
+    assert "PASSED" in r.stdout

@@ -25,7 +25,10 @@ def test_new_then_lint_passes_and_inherits_the_core_contract(tmp_path: Path, cor
     assert r.stdout.startswith("wrote contract.toml, variables.toml, regions.toml, README.txt in ")
     lint = run("contract", "lint", folder)
     assert lint.exit_code == 0, lint.output
-    assert lint.stdout.startswith("PASSED: contract my-comparison (")
+    *advice, verdict = lint.stdout.splitlines()
+    assert verdict.startswith("PASSED: contract my-comparison (")
+    # the starter's World has no parts yet: the lint says no burden-sharing rows would be computed, and passes
+    assert [line.split(": ")[1] for line in advice] == ["warning allocation-no-parts"]
     c = load(folder)
     assert (c.name, set(c.variables), c.base_year) == ("my-comparison", set(core.variables), core.base_year)
     # every commented-out setting is valid TOML once uncommented (the lines the user is invited to change)

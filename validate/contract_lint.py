@@ -350,6 +350,29 @@ def _allocation_problems(c: Contract, src: str | None) -> list[Finding]:
     return [_f("contract-allocation", m, hint, path=src) for m in out]
 
 
+def advice(contract: Contract) -> list[Finding]:
+    """Warnings about a usable contract that will not compute what it seems to ask for; `contract lint` prints
+    them but passes (unlike `lint`, they never stop a command).
+
+    allocation-no-parts: the `[allocation] region` has no parts among the contract's regions, so no region trades
+    and no burden-sharing row (allowance, permits_sold, transfer, cost_share ...) is computed."""
+    a = contract.allocation
+    market = contract.regions.get(a.region)
+    if market is None or any(p in contract.regions for p in market.parts):
+        return []  # an unknown market region is contract-allocation's error
+    return [
+        Finding(
+            "allocation-no-parts",
+            "warning",
+            path=contract.sources[-1] if contract.sources else None,
+            message=f"[allocation] region {a.region!r} has no parts among the contract's regions: no burden-sharing "
+            "or cost-share indicators will be computed",
+            hint=f"List the regions that trade as the parts of {a.region} in regions.toml, or set [allocation] region "
+            "to a region that has parts.",
+        )
+    ]
+
+
 def _cache_dir() -> Path:
     return Path(os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache") / "milepost"
 

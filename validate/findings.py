@@ -199,6 +199,13 @@ RULES: dict[str, Rule] = {
             "The burden-sharing settings are unusable: a convergence year not after the base year, or a market "
             "region that is not a region of the contract.",
         ),
+        Rule(
+            "allocation-no-parts",
+            "warning",
+            "contract",
+            "The allocation market region has no parts among the contract's regions: no burden-sharing or "
+            "cost-share indicators are computed (`contract lint` warns and passes).",
+        ),
     )
 }
 

@@ -25,12 +25,12 @@ DirArg = Annotated[
 @handle_errors
 def lint_cmd(directory: DirArg = None) -> None:
     """Find cycles in parts, parts whose units do not match their total, unknown units and bad references."""
-    from milepost.validate.contract_lint import lint
+    from milepost.validate.contract_lint import advice, lint
     from milepost.validate.reports import finding_line
 
     c = load_contract(directory, strict=False)
     problems = lint(c)
-    for p in problems:
+    for p in [*problems, *advice(c)]:  # warnings are printed but do not fail the lint
         echo(finding_line(p))
     if problems:
         echo(f"FAILED: contract {c.name} has {plural(len(problems), 'problem')}")
