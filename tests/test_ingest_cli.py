@@ -74,9 +74,12 @@ def test_ingest_accept_repeat_reject_and_list(tmp_path: Path, subs) -> None:
     assert table[0].split()[:4] == ["id", "status", "model", "ver"]
     assert [line.split()[:4] for line in table[1:]] == [
         ["1", "accepted", "Halvik", "v1"],
-        ["2", "rejected", "Vossel", "-"],
+        ["2", "rejected", "Vossel", "rejected,"],
         ["3", "accepted", "Halvik", "v2"],
     ]
+    # a rejected submission has no version, said in the words the dashboard uses (exports.version_label)
+    assert "  rejected, no version  " in table[2]
+    assert table[0].index("ver") + 3 == table[1].index("v1") + 2  # the column widens, right-aligned
     r = run("submissions", "--db", db, "--format", "json")
     assert [s["status"] for s in json.loads(r.stdout)] == ["accepted", "rejected", "accepted"]
 
