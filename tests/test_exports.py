@@ -232,6 +232,31 @@ def test_snapshot_reads_back_with_duckdb_and_pyarrow(tmp_path: Path, db, source,
         assert f["rows"] == pq.read_metadata(out / rel).num_rows
     ind = pads.dataset(out / "indicators", format="parquet", partitioning="hive").to_table()
     assert ind.num_rows == manifest["tables"]["indicators"]["rows"] > 0
+    assert manifest["tables"]["gaps"]["rows"] == 0 and not (out / "gaps").exists()  # every input reported here
+
+
+def test_snapshot_holds_the_indicator_gaps(tmp_path: Path, source, contract) -> None:
+    """The gaps travel with the indicators, so a reader of the snapshot sees what was left out and why."""
+    d, s = source["data"], source["scen"]
+    # Ferrow without Ardena's population: its Kaya factors and per-capita allocations there cannot be computed
+    d = d[(d["model"] == "Ferrow") & ~((d["region"] == "Ardena") & (d["variable"] == "population"))]
+    files = [tmp_path / "ferrow.csv", tmp_path / "ferrow-scenarios.csv"]
+    d.to_csv(files[0], index=False, lineterminator="\n")
+    s[s["model"] == "Ferrow"].to_csv(files[1], index=False, lineterminator="\n")
+    db = tmp_path / "g.duckdb"
+    assert ingest(files, db, contract).status == "accepted"
+    manifest = snapshot(db, tmp_path / "snap")
+    cols = ["model", "scenario", "region", "kind", "variable", "note"]
+    with duckdb.connect(str(db), read_only=True) as con:
+        stored = con.execute(f"SELECT {', '.join(cols)} FROM current_indicator_gaps").df()
+    gaps = pads.dataset(tmp_path / "snap" / "gaps", format="parquet", partitioning="hive").to_table().to_pandas()
+    assert manifest["tables"]["gaps"]["rows"] == len(gaps) == len(stored) > 0
+    assert "Ardena" in set(gaps["region"])
+    pd.testing.assert_frame_equal(
+        gaps[cols].astype({"model": str}).sort_values(cols[:5]).reset_index(drop=True),
+        stored.sort_values(cols[:5]).reset_index(drop=True),
+        check_dtype=False,
+    )
 
 
 def test_snapshot_partition_names_survive_odd_model_names(tmp_path: Path) -> None:

@@ -109,6 +109,8 @@ SNAPSHOT_TABLES = (
     ("data", "current_data", DATA_COLUMNS, "scenario, region, variable, year"),
     ("indicators", "current_indicators", INDICATOR_COLUMNS, "scenario, region, kind, variable, year_from, year_to"),
     ("scenarios", "current_scenarios", ("submission_id", "model", "scenario", "reference", "attributes"), "scenario"),
+    # the indicator kinds left out of a scenario for a missing input: a snapshot without them reads as complete
+    ("gaps", "current_indicator_gaps", GAP_COLUMNS, "scenario, region, kind, variable"),
 )
 
 
@@ -340,7 +342,8 @@ def _remove_dead_snapshot_folders(out_dir: Path) -> None:
 
 
 def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
-    """Write the current data, indicators and scenarios as Parquet partitioned by model, plus manifest.json.
+    """Write the current data, indicators, scenarios and indicator gaps as Parquet partitioned by model, plus
+    manifest.json.
 
     Layout: OUT/<table>/model=<name>/data_0.parquet (hive partitioning; names URL-encoded), OUT/manifest.json with
     every file's sha256 and row count and the contract name(s) and hash(es). Returns the manifest.
@@ -364,6 +367,10 @@ def snapshot(db: str | Path, out_dir: str | Path) -> dict[str, Any]:
                 raise UsageError(f"{db} has no accepted data to snapshot")
             tables: dict[str, Any] = {}
             for name, view, columns, order in SNAPSHOT_TABLES:
+                if not stored_columns(con, view):
+                    # a database not migrated to schema 6 yet (readers do not migrate) has no gaps view
+                    tables[name] = {"rows": 0, "source": None, "partition_by": ["model"], "columns": list(columns)}
+                    continue
                 rows = int(con.execute(f"SELECT count(*) FROM {view}").fetchall()[0][0])  # noqa: S608 - names from this module; filters bound as parameters
                 tables[name] = {"rows": rows, "source": view, "partition_by": ["model"], "columns": list(columns)}
                 if rows:
