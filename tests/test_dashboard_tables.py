@@ -58,7 +58,7 @@ def test_blanks_say_what_they_mean():
         {
             "net_zero_year": [2060.0, np.nan],
             "loss_first": [1.25, np.nan],
-            "version": [1.0, np.nan],
+            "version": ["v1", "rejected, no version"],
             "superseded_by": [6.0, np.nan],
             "hint": ["fix it", None],
         }
@@ -66,7 +66,8 @@ def test_blanks_say_what_they_mean():
     shown, config = tables.prepare(df)
     assert shown["net-zero year"].tolist() == ["2060", "not reached"]
     assert shown["GDP loss first [%]"].tolist() == ["1.25", "no reference"]
-    assert shown["version"].tolist() == ["1", "none"]
+    # the version arrives as the label the CLI prints too (store.exports.version_label), shown as it is
+    assert shown["version"].tolist() == ["v1", "rejected, no version"]
     assert shown["replaced by submission"].tolist() == ["6", "current"]
     assert shown["how to fix"].tolist() == ["fix it", ""]
     assert config["GDP loss first [%]"]["alignment"] == "right"  # numbers written as text stay right-aligned
