@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
+import os
+from collections.abc import Iterator
 from pathlib import Path
 
 import duckdb
 import numpy as np
 import pandas as pd
 import pytest
+from streamlit.testing.v1 import AppTest
 
 from milepost.example_db.generate import CONTRACT_DIR, DemoFiles, write_demo
 from milepost.validate.store.ingest import ingest
@@ -79,3 +82,27 @@ def numpy_bands(values: np.ndarray, edges: list[float] | None = None) -> tuple[n
     """(edges, band per value) by numpy: terciles with linear interpolation, a value at an edge goes up."""
     e = np.quantile(values, [1 / 3, 2 / 3]) if edges is None else np.asarray(sorted(edges), dtype=float)
     return e, np.searchsorted(e, values, side="right")
+
+
+@pytest.fixture(autouse=True)
+def _restore_db_env() -> Iterator[None]:
+    """The app finds its database through MILEPOST_DB, which `open_app` sets: put back what a test changed."""
+    old = os.environ.get("MILEPOST_DB")
+    yield
+    if old is None:
+        os.environ.pop("MILEPOST_DB", None)
+    else:
+        os.environ["MILEPOST_DB"] = old
+
+
+def open_app(db: Path, page: str | None = None, params: dict | None = None) -> AppTest:
+    """The real app on `db` (query parameters set before the first run), switched to `page`; fails on an exception."""
+    os.environ["MILEPOST_DB"] = str(db)
+    at = AppTest.from_file(str(APP), default_timeout=60)
+    for k, v in (params or {}).items():
+        at.query_params[k] = v
+    at.run()
+    if page:
+        at.switch_page(page).run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at

@@ -24,7 +24,7 @@ from milepost.dashboard.ui import fmt
 from milepost.example_db.generate import CONTRACT_DIR
 from milepost.validate.store.ingest import ingest
 
-from dashboard_fixtures import APP, milestone_values, numpy_bands
+from dashboard_fixtures import milestone_values, numpy_bands, open_app
 
 RESULT_PAGES = (
     "views/screen.py",
@@ -34,28 +34,6 @@ RESULT_PAGES = (
     "views/delay.py",
     "views/pathways.py",
 )
-
-
-def open_app(db: Path, page: str | None = None, params: dict | None = None) -> AppTest:
-    os.environ["MILEPOST_DB"] = str(db)
-    at = AppTest.from_file(str(APP), default_timeout=60)
-    for k, v in (params or {}).items():
-        at.query_params[k] = v
-    at.run()
-    if page:
-        at.switch_page(page).run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-@pytest.fixture(autouse=True)
-def _restore_env():
-    old = os.environ.get("MILEPOST_DB")
-    yield
-    if old is None:
-        os.environ.pop("MILEPOST_DB", None)
-    else:
-        os.environ["MILEPOST_DB"] = old
 
 
 def frame(at: AppTest, must_have: str) -> pd.DataFrame:

@@ -2,41 +2,16 @@
 
 from __future__ import annotations
 
-import os
-from pathlib import Path
-
 import numpy as np
 import pandas as pd
 import pytest
-from streamlit.testing.v1 import AppTest
 
 from milepost.dashboard.ui import fmt
 
-from dashboard_fixtures import APP, milestone_values, numpy_bands
+from dashboard_fixtures import milestone_values, numpy_bands, open_app
 
 CLASS_2C = {"outcome": "class", "class": "2", "lik": "67%"}
 PAGES = ("views/drivers.py", "views/regions.py")
-
-
-def open_app(db: Path, page: str, params: dict | None = None) -> AppTest:
-    os.environ["MILEPOST_DB"] = str(db)
-    at = AppTest.from_file(str(APP), default_timeout=60)
-    for k, v in (params or {}).items():
-        at.query_params[k] = v
-    at.run()
-    at.switch_page(page).run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-@pytest.fixture(autouse=True)
-def _restore_env():
-    old = os.environ.get("MILEPOST_DB")
-    yield
-    if old is None:
-        os.environ.pop("MILEPOST_DB", None)
-    else:
-        os.environ["MILEPOST_DB"] = old
 
 
 def banded(sql, keys: set[tuple[str, str]] | None = None) -> pd.DataFrame:

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-import os
 from pathlib import Path
 
 import numpy as np
@@ -15,7 +14,7 @@ from milepost.example_db.generate import CONTRACT_DIR
 from milepost.schema.contract import load
 from milepost.validate.store.database import Reader
 
-from dashboard_fixtures import APP
+from dashboard_fixtures import open_app
 
 REFERENCE = {(r.region, r.variable): r.value for r in load(CONTRACT_DIR).reference}
 
@@ -26,32 +25,10 @@ def con(demo_db: Path):
         yield reader.con
 
 
-@pytest.fixture(autouse=True)
-def _restore_env():
-    old = os.environ.get("MILEPOST_DB")
-    yield
-    if old is None:
-        os.environ.pop("MILEPOST_DB", None)
-    else:
-        os.environ["MILEPOST_DB"] = old
-
-
 def pathways(db: Path, variable: str, region: str) -> AppTest:
     at = open_app(db, "views/pathways.py")
     at.selectbox(key="path_variable").set_value(variable).run()
     at.selectbox(key="path_region").set_value(region).run()
-    assert not at.exception, [e.message for e in at.exception]
-    return at
-
-
-def open_app(db: Path, page: str | None = None, params: dict | None = None) -> AppTest:
-    os.environ["MILEPOST_DB"] = str(db)
-    at = AppTest.from_file(str(APP), default_timeout=60)
-    for k, v in (params or {}).items():
-        at.query_params[k] = v
-    at.run()
-    if page:
-        at.switch_page(page).run()
     assert not at.exception, [e.message for e in at.exception]
     return at
 

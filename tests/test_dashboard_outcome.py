@@ -9,12 +9,12 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pytest
-from test_dashboard_app import _restore_env, frame, open_app  # noqa: F401 - _restore_env: the autouse fixture that restores MILEPOST_DB
+from test_dashboard_app import frame
 
 from milepost.dashboard.headlines import sig
 from milepost.dashboard.ui import fmt
 
-from dashboard_fixtures import milestone_values, numpy_bands
+from dashboard_fixtures import milestone_values, numpy_bands, open_app
 
 CLASS_2C = {"outcome": "class", "class": "2", "lik": "67%"}
 
