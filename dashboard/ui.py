@@ -108,6 +108,22 @@ def url_widget(
     return value
 
 
+def url_checkbox(label: str, *, key: str, param: str, help: str) -> bool:
+    """A checkbox, off by default, kept in the URL as `param=1` / `param=0`."""
+    return bool(
+        url_widget(
+            st.checkbox,
+            label,
+            key=key,
+            param=param,
+            default=False,
+            parse=lambda raw: raw[0] == "1",
+            dump=lambda v: "1" if v else "0",
+            help=help,
+        )
+    )
+
+
 def url_selectbox(
     label: str,
     options: list[Any],
@@ -316,14 +332,10 @@ def band_sidebar(ch: queries.Choices) -> queries.Selection:
                 param="attr_value",
                 placeholder="any value",
             )
-        include_refs = url_widget(
-            st.checkbox,
+        include_refs = url_checkbox(
             "Include reference scenarios",
             key="band_refs",
             param="refs",
-            default=False,
-            parse=lambda raw: raw[0] == "1",
-            dump=lambda v: "1" if v else "0",
             help="Scenarios that other scenarios name as their reference (usually no-policy runs).",
         )
         by_model = url_widget(

@@ -361,13 +361,21 @@ def _optional_year(value: Any, where: str) -> int | None:
     return value
 
 
+def _section(table: Any, name: str, known: Any, where: str) -> dict[str, Any]:
+    """A `[name]` table of contract.toml whose keys are all in `known` (its shape only; lint judges the values)."""
+    if not isinstance(table, dict):
+        raise ContractError(f"{where}: [{name}] must be a table")
+    unknown = sorted(set(table) - set(known))
+    if unknown:
+        raise ContractError(
+            f"{where}: [{name}] has unknown keys {', '.join(unknown)} (known: {', '.join(sorted(known))})"
+        )
+    return table
+
+
 def _harmonise_settings(table: Any, where: str) -> Harmonise:
     """The [harmonise] table of contract.toml: types are checked here, the values by contract lint."""
-    if not isinstance(table, dict):
-        raise ContractError(f"{where}: [harmonise] must be a table")
-    unknown = sorted(set(table) - set(Harmonise.__dataclass_fields__))
-    if unknown:
-        raise ContractError(f"{where}: [harmonise] has unknown keys {', '.join(unknown)}")
+    table = _section(table, "harmonise", Harmonise.__dataclass_fields__, where)
     default = Harmonise()
     patterns = table.get("variables", list(default.variables))
     if not isinstance(patterns, list) or not all(isinstance(p, str) for p in patterns):
@@ -383,11 +391,7 @@ def _harmonise_settings(table: Any, where: str) -> Harmonise:
 
 def _allocation(table: Any, where: str) -> Allocation:
     """The [allocation] table of contract.toml: types are checked here, the values by contract lint."""
-    if not isinstance(table, dict):
-        raise ContractError(f"{where}: [allocation] must be a table")
-    unknown = sorted(set(table) - set(Allocation.__dataclass_fields__))
-    if unknown:
-        raise ContractError(f"{where}: [allocation] has unknown keys {', '.join(unknown)}")
+    table = _section(table, "allocation", Allocation.__dataclass_fields__, where)
     default = Allocation()
     year = _optional_year(table.get("convergence_year"), f"{where}: [allocation] convergence_year")
     region = _optional_text(table.get("region"), f"{where}: [allocation] region")
@@ -420,13 +424,8 @@ def _budgets(raw: Any, where: str) -> Budgets | None:
     """`[budgets]` of contract.toml as a Budgets record (shape only; contract_lint checks that it is sound)."""
     if raw is None:
         return None
-    if not isinstance(raw, dict):
-        raise ContractError(f"{where}: [budgets] must be a table")
     known = {"source", "region", "from_year", "likelihoods", "remaining", "tcre", "tcre_likely"}
-    unknown = sorted(set(raw) - known)
-    if unknown:
-        known_keys = ", ".join(sorted(known))
-        raise ContractError(f"{where}: [budgets] has unknown keys {', '.join(unknown)} (known: {known_keys})")
+    raw = _section(raw, "budgets", known, where)
     remaining = raw.get("remaining", {})
     if not isinstance(remaining, dict) or not remaining:
         raise ContractError(f'{where}: [budgets.remaining] must map warming levels ("1.5") to lists of Gt CO2')
@@ -458,11 +457,7 @@ def _budgets(raw: Any, where: str) -> Budgets | None:
 
 def _costs_reference_required(raw: Any, where: str) -> bool:
     """`[costs] reference_required` of contract.toml (default false)."""
-    if not isinstance(raw, dict):
-        raise ContractError(f"{where}: [costs] must be a table")
-    unknown = sorted(set(raw) - {"reference_required"})
-    if unknown:
-        raise ContractError(f"{where}: [costs] has unknown keys {', '.join(unknown)} (known: reference_required)")
+    raw = _section(raw, "costs", {"reference_required"}, where)
     value = raw.get("reference_required", False)
     if not isinstance(value, bool):
         raise ContractError(f"{where}: [costs] reference_required must be true or false, not {value!r}")

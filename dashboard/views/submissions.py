@@ -16,14 +16,10 @@ if subs.empty:
     ui.stop()
 
 every = subs
-show_all = ui.url_widget(
-    st.checkbox,
+show_all = ui.url_checkbox(
     "Show all attempts",
     key="subs_all",
     param="all",
-    default=False,
-    parse=lambda raw: raw[0] == "1",
-    dump=lambda v: "1" if v else "0",
     help="Also list rejected attempts that were followed by another submission of the same model or files "
     "(as `milepost submissions --all`).",
 )
