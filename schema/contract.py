@@ -680,6 +680,10 @@ def _resolve(
     # and the hash of every contract without a [limits] table stays what it was before limits existed.
     if contract.limits_set:
         payload["limits"] = {k: getattr(contract.limits, k) for k in contract.limits_set}
+    # likewise [allocation] only where it differs from the defaults, so that contracts hashed before it existed
+    # keep their hash (ingest recognises a repeated submission by files and contract hash)
+    if contract.allocation == Allocation():
+        payload.pop("allocation", None)
     digest = hashlib.sha256(json.dumps(payload, sort_keys=True, separators=(",", ":")).encode()).hexdigest()
     object.__setattr__(contract, "hash", digest)
     return contract

@@ -20,6 +20,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from milepost.validate.cells import one_line
+
 DEFAULT_MEMORY_MB = 2048
 DEFAULT_SECONDS = 120
 ENV_MEMORY = "MILEPOST_SELFCHECK_MEMORY_MB"
@@ -83,7 +85,9 @@ def check_in_child(
         ):
             why = f"the check needed more than its memory budget of {memory_bytes >> 20:,} MB (${ENV_MEMORY} raises it)"
         else:
-            why = f"the check stopped (exit {proc.returncode}{': ' + tail[0] if tail else ''})"
+            # the child's last line may quote a cell or a path: shown on one line, escaped and shortened
+            last = one_line(tail[0])[:300] if tail else ""
+            why = f"the check stopped (exit {proc.returncode}{': ' + last if last else ''})"
         return ChildCheck(failure=why)
     xlsx = out_dir / "report.xlsx"
     return ChildCheck(

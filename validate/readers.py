@@ -22,6 +22,7 @@ import duckdb
 
 from milepost.schema.limits import Limits
 from milepost.validate import wide as wide_table
+from milepost.validate.cells import one_line
 from milepost.validate.errors import LimitExceeded, ReadError
 from milepost.validate.sql import identifier, literal, literal_list
 from milepost.validate.xlsx import ZIP_ERRORS, open_workbook
@@ -406,7 +407,8 @@ def _read_xlsx(
     try:
         names = wb.worksheets()
         if not names:
-            others = ", ".join(f"{s.name!r} ({s.kind})" for s in wb.sheets)
+            # the sheet type comes from the workbook's own relationships: escaped like any text from the file
+            others = ", ".join(f"{s.name!r} ({one_line(s.kind)})" for s in wb.sheets)
             raise ReadError("the workbook has no worksheet" + (f", only {others}" if others else ""))
         data_sheet = "data" if "data" in names else names[0]
         extra_inputs: list[InputFile] = []
@@ -491,7 +493,10 @@ def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, ta
     found, extra = _match_columns(header)
     if _is_scenarios_table(found):
         inp.kind = "scenarios"
-        frame = con.execute("SELECT * FROM read_parquet(?)", [str(path)]).df()
+        frame = con.execute("SELECT * FROM read_parquet(?) LIMIT ?", [str(path), limits.max_rows + 1]).df()
+        if len(frame) > limits.max_rows:  # bounded like a CSV scenarios table
+            frame = frame.iloc[: limits.max_rows]
+            inp.limits_hit.append(_rows_hit(limits))
         inp.scenarios = _scenario_frame(frame.astype("str").where(frame.notna(), None))
         inp.rows = len(inp.scenarios)
         return

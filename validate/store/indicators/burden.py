@@ -116,12 +116,15 @@ def _shares_sql(t: Tables) -> str:
     emissions, permits, transfer, cost_after (null where the price or cost is missing) and the market region."""
     base, conv = t.base_year, t.convergence_year
     b = t.base_index
-    w = f"least(greatest((p.year_to - {base}) / ({conv} - {base})::DOUBLE, 0.0), 1.0)"
+    # a convergence year equal to the base year (lint refuses it; a non-strict load does not) converges at once
+    w = f"coalesce(least(greatest((p.year_to - {base}) / nullif({conv} - {base}, 0)::DOUBLE, 0.0), 1.0), 1.0)"
     per_region = (
         "SELECT p.kind, c.model, c.scenario, r.region, k.market, p.year_from, p.year_to, x.unit, p.i_to,"
         " c.pop AS pop_ok,"
         " c.price AS price_ok, c.cost AS cost_ok,"
-        f" w.ghg[{b}] / sum(w.ghg[{b}]) OVER sc AS gf, w.pop[p.i_to] / sum(w.pop[p.i_to]) OVER sc AS pc,"
+        # no share where the parts sum to zero (NULL, never NaN or infinity, in allowances and transfers)
+        f" w.ghg[{b}] / nullif(sum(w.ghg[{b}]) OVER sc, 0) AS gf,"
+        f" w.pop[p.i_to] / nullif(sum(w.pop[p.i_to]) OVER sc, 0) AS pc,"
         f" {w} AS weight, m.ghg[p.i_to] AS cap, w.ghg[p.i_to] AS emitted, m.price[p.i_to] AS price,"
         " w.cost[p.i_to] AS cost"
         f" FROM {COMPLETE} c JOIN {t.market} r ON r.market = c.region"
