@@ -70,10 +70,14 @@ st.caption(
 table = summary.drop(columns=["band"]).rename(
     columns={"band_label": "band", "median": f"median transfer [{TRANSFER_UNIT}]"}
 )
+thin = int((table["models"] < 3).sum())
+if thin:
+    # as on Delay: a median over fewer than three models says more about those models than about the band
+    st.warning(f"Thin evidence: {thin} of {len(table)} medians below rest on fewer than three models (see models).")
 ui.table(
-    table[["rule_label", "region", "band", "n", f"median transfer [{TRANSFER_UNIT}]", "pays", "receives"]].rename(
-        columns={"rule_label": "rule", "pays": "scenarios paying", "receives": "scenarios receiving"}
-    ),
+    table[
+        ["rule_label", "region", "band", "n", "models", f"median transfer [{TRANSFER_UNIT}]", "pays", "receives"]
+    ].rename(columns={"rule_label": "rule", "pays": "scenarios paying", "receives": "scenarios receiving"}),
     f"regions_who_pays_{year}",
     "regions_who_pays",
 )
