@@ -38,7 +38,7 @@ class CheckResult:
     rule_counts: list[tuple[str, str, int]]
     rows: int
     con: duckdb.DuckDBPyConnection
-    scenario_attributes: Any = None  # pandas frame from the scenarios tables given, if any
+    scenario_attributes: str | None = None  # TEMP table of the scenarios tables' rows (one per scenario), if given
     truncated: bool = False
     version: str = __version__
     usable_rows: int = 0
@@ -48,16 +48,15 @@ class CheckResult:
     def scenarios(self) -> Any:
         """One row per (model, scenario) of the usable data, with `reference` and any other attributes given.
         Built on first use: a plain check never needs pandas."""
-        pairs = self.con.execute(
-            "SELECT DISTINCT CAST(model AS VARCHAR) AS model, CAST(scenario AS VARCHAR) "
-            "AS scenario FROM checked ORDER BY 1, 2"
-        ).df()
+        pairs = "SELECT DISTINCT CAST(model AS VARCHAR) AS model, CAST(scenario AS VARCHAR) AS scenario FROM checked"
         if self.scenario_attributes is None:
-            import pandas as pd
-
-            pairs["reference"] = pd.Series([None] * len(pairs), dtype="str")
-            return pairs
-        return pairs.merge(self.scenario_attributes, on=["model", "scenario"], how="left")
+            return self.con.execute(
+                f"SELECT *, NULL::VARCHAR AS reference FROM ({pairs}) ORDER BY 1, 2"  # noqa: S608 - names from the code
+            ).df()
+        return self.con.execute(
+            f"SELECT p.model, p.scenario, a.* EXCLUDE (model, scenario) FROM ({pairs}) p "  # noqa: S608 - names from the code
+            f"LEFT JOIN {self.scenario_attributes} a USING (model, scenario) ORDER BY 1, 2"
+        ).df()
 
     def passed(self, fail_on: str = "error") -> bool:
         """True when nothing reaches the fail level ('error', or 'warning' = warnings count too)."""
@@ -329,43 +328,40 @@ class _Store:
             )
 
 
-def _scenario_attributes(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> tuple[Any, list[Finding]]:
-    """The scenarios tables given (validated), merged into one frame; None when there are none. Their rows also
-    go into the TEMP table `s_listed` (path, sheet, line, model, scenario, reference) the scenario checks read."""
+def _scenario_attributes(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> tuple[str | None, list[Finding]]:
+    """The scenarios tables given (validated), merged into the TEMP table `s_attributes` (one row per model and
+    scenario, the first table's first row winning); None when there are none. Their rows also go into the TEMP
+    table `s_listed` (path, sheet, line, model, scenario, reference) the scenario checks read."""
     con.execute(
         "CREATE OR REPLACE TEMP TABLE s_listed (path VARCHAR, sheet VARCHAR, line BIGINT, model VARCHAR, "
         "scenario VARCHAR, reference VARCHAR)"
     )
-    tables = [i for i in inputs if i.kind == "scenarios" and i.scenarios is not None]
+    tables = [i for i in inputs if i.kind == "scenarios" and i.scenarios_table]
     if not tables:
         return None, []
-    import pandas as pd
+    from milepost.validate.scenario_table import repeated_rows
 
-    from milepost.validate.scenario_table import validate_scenarios
-
-    frames, findings = [], []
-    for inp in tables:
-        clean, found = validate_scenarios(inp.scenarios, inp.path, inp.sheet)
-        findings += found
-        frames.append(clean)
-        listed = clean.assign(
-            path=inp.path,
-            sheet=inp.sheet,
-            line=clean.index + 2,  # the line numbering validate_scenarios uses
-            reference=clean["reference"] if "reference" in clean.columns else None,
-        )[["path", "sheet", "line", "model", "scenario", "reference"]]
-        con.register("s_listed_frame", listed)
-        try:
-            con.execute(
-                "INSERT INTO s_listed SELECT path, sheet, line, model, scenario, "
-                "CASE WHEN trim(reference) <> '' THEN trim(reference) END FROM s_listed_frame"
-            )
-        finally:
-            con.unregister("s_listed_frame")
-    attrs = pd.concat(frames, ignore_index=True).drop_duplicates(["model", "scenario"], keep="first")
-    if "reference" not in attrs.columns:
-        attrs["reference"] = None
-    return attrs, findings
+    findings: list[Finding] = []
+    parts = []
+    for k, inp in enumerate(tables):
+        table = str(inp.scenarios_table)
+        findings += repeated_rows(con, table, inp.path, inp.sheet)
+        columns = {r[0] for r in con.execute(f"DESCRIBE {table}").fetchall()}
+        reference = "reference" if "reference" in columns else "NULL::VARCHAR"
+        con.execute(
+            f"INSERT INTO s_listed SELECT ?, ?, line, model, scenario, {reference} FROM {table}",  # noqa: S608 - generated names
+            [inp.path, inp.sheet],
+        )
+        parts.append(f"SELECT {k} AS k_, * FROM {table}")  # noqa: S608 - generated names
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE s_attributes AS SELECT * EXCLUDE (k_, line, rn_) FROM (SELECT *, "  # noqa: S608 - generated names
+        "row_number() OVER (PARTITION BY model, scenario ORDER BY k_, line) AS rn_ FROM ("
+        + " UNION ALL BY NAME ".join(parts)
+        + ")) WHERE rn_ = 1"
+    )
+    if "reference" not in {r[0] for r in con.execute("DESCRIBE s_attributes").fetchall()}:
+        con.execute("ALTER TABLE s_attributes ADD COLUMN reference VARCHAR")
+    return "s_attributes", findings
 
 
 def run_check(

@@ -10,6 +10,7 @@ import json
 from pathlib import Path
 from typing import Any
 
+from milepost.schema.limits import Limits
 from milepost.validate.bench.files import clean_submission, dirty_submission
 from milepost.validate.bench.timing import READ_FLOOR, READ_FLOOR_LABEL, Step, alternate, milepost, python, ratio_step
 
@@ -18,12 +19,27 @@ DEMO_CONTRACT = Path(__file__).resolve().parents[2] / "example_db" / "contract"
 SIZES = {2_000_000: (3.0, 6.0, None), 10_000_000: (2.5, 6.0, 1024.0)}
 
 
+def bench_contract(workdir: Path, rows: int) -> Path:
+    """The demo contract, or above the default row limit one extending it with a limit that admits `rows` (else
+    the check would read only the first 5M rows and measure that)."""
+    if rows <= Limits().max_rows:
+        return DEMO_CONTRACT
+    folder = workdir / f"contract-{rows}"
+    folder.mkdir(parents=True, exist_ok=True)
+    (folder / "contract.toml").write_text(
+        f'name = "bench-{rows}"\nextends = "{DEMO_CONTRACT.as_posix()}"\n\n[limits]\nmax_rows = {2 * rows}\n',
+        encoding="utf-8",
+    )
+    return folder
+
+
 def check_step(workdir: Path, kind: str, rows: int, repeat: int) -> Step:
     """One file checked against its floor."""
     data, scen = (clean_submission if kind == "clean" else dirty_submission)(workdir, rows)
     report = workdir / f"report-{kind}-{rows}.json"
+    contract = bench_contract(workdir, rows)
     cmd = milepost(
-        "check", str(data), str(scen), "--contract", str(DEMO_CONTRACT), "--format", "json", "--output", str(report)
+        "check", str(data), str(scen), "--contract", str(contract), "--format", "json", "--output", str(report)
     )
     jobs, floors = alternate(cmd, python("-c", READ_FLOOR, str(data)), repeat)
     summary = json.loads(report.read_text(encoding="utf-8"))["summary"]
