@@ -378,7 +378,10 @@ def run_check(
     `digests`: the files' sha256, in the order of `paths`, when the caller has computed them already.
     `known_scenarios`: (model, scenario, reference) stored already (ingest passes the database's current ones), so
     a reference may name a scenario submitted before."""
-    con = con if con is not None else duckdb.connect(config={"autoinstall_known_extensions": False})
+    if con is None:
+        from milepost.validate.store.database import connect_memory
+
+        con = connect_memory()
     files = [Path(p) for p in paths]
     con.execute(f"CREATE OR REPLACE TEMP TABLE findings ({finding_columns_ddl()})")
     limits = contract.limits

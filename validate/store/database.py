@@ -61,8 +61,11 @@ def lock_timeout_default() -> float:
 
 
 def connect_memory() -> duckdb.DuckDBPyConnection:
-    """A new in-memory connection that never tries to download extensions."""
-    return duckdb.connect(":memory:", config=dict(_NO_AUTOLOAD))
+    """A new in-memory connection that never tries to download extensions, within the memory budget of
+    `milepost.validate.memory` (spilling to a private folder beyond it)."""
+    from milepost.validate.memory import budget
+
+    return budget(duckdb.connect(":memory:", config=dict(_NO_AUTOLOAD)))
 
 
 # ---------------------------------------------------------------- schema and migrations
