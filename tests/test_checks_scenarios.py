@@ -195,3 +195,50 @@ def test_no_cost_indicator_for_a_scenario_in_a_reference_cycle(core):
         assert x == [(pytest.approx((130.0 - 90.0) / 130.0 * 100),)]  # (ref - scen) / ref * 100, by hand
     finally:
         con.close()
+
+
+@pytest.mark.parametrize("fmt", ["csv", "xlsx"])
+def test_scenario_findings_name_the_physical_line_after_blank_rows_and_rows_without_a_key(
+    data, basic, check, tmp_path, fmt
+):
+    """The line a spreadsheet or editor shows: blank rows, a row without a model and a quoted newline before the
+    finding each shift it (counting table rows instead gave lines 4 and 5 here)."""
+    _, path, _ = data
+    lines = [
+        "model,scenario,reference,note",  # 1
+        "M1,base,,",  # 2
+        "",  # 3 (blank)
+        ",orphan,,",  # 4 (no model: left out)
+        'M1,policy,base,"two',  # 5
+        'lines"',  # 6 (the quoted newline)
+        "M1,ghost,base,",  # 7: listed, no data
+        "M1,policy,base,again",  # 8: policy again, other attributes
+    ]
+    if fmt == "csv":
+        table = tmp_path / "s.csv"
+        table.write_text("\n".join(lines) + "\n")
+        at = {"scenario-without-data": 7, "conflicting-row": 8}
+    else:
+        import csv
+        import io
+
+        from openpyxl import Workbook
+
+        wb = Workbook()
+        ws = wb.active
+        ws.title = "data"
+        ws.append(["model", "scenario", "region", "variable", "unit", "year", "value"])
+        wb.create_sheet("scenarios")
+        sheet = wb["scenarios"]
+        rows = list(csv.reader(io.StringIO("\n".join(lines) + "\n")))
+        for n, row in enumerate(rows, start=1):
+            for col, cell in enumerate(row, start=1):
+                if cell:
+                    sheet.cell(row=n, column=col, value=cell)
+        table = tmp_path / "s.xlsx"
+        wb.save(table)
+        # one sheet row per record: the quoted newline stays inside its cell, so the rows after it move up one
+        at = {"scenario-without-data": 6, "conflicting-row": 7}
+    result = check([path, table], basic)
+    found = {f.rule: f.line for f in result.findings if f.rule in at}
+    assert found == at
