@@ -5,6 +5,7 @@ from __future__ import annotations
 import altair as alt
 import pandas as pd
 
+from milepost.dashboard import stats
 from milepost.dashboard.charts import PALETTE, Chart, band_scale
 
 STEP_COLOURS = alt.Scale(domain=["level", "rise", "fall"], range=["#7f7f7f", PALETTE[2], PALETTE[0]])
@@ -12,8 +13,17 @@ STEP_COLOURS = alt.Scale(domain=["level", "rise", "fall"], range=["#7f7f7f", PAL
 
 def waterfall(steps: pd.DataFrame, title: str, unit: str) -> Chart:
     """Floating bars from the base-year level through each effect to the milestone level (see
-    queries_drivers.steps); red raises emissions, blue cuts them."""
+    queries_drivers.steps); red raises emissions, blue cuts them. Steps of band medians (with `n` and `models`)
+    say in the tooltip how many scenarios and models stand behind each bar, and whether that is thin evidence."""
     order = steps.sort_values("order")["step"].tolist()
+    tooltip = [alt.Tooltip("step:N", title="step"), alt.Tooltip("value:Q", format=",.0f", title=f"{unit}")]
+    if "models" in steps:
+        steps = steps.assign(evidence=stats.evidence(steps["models"]))
+        tooltip += [
+            alt.Tooltip("n:Q", title="scenarios"),
+            alt.Tooltip("models:Q", title="models"),
+            alt.Tooltip("evidence:N", title="evidence"),
+        ]
     return (
         alt.Chart(steps)
         .mark_bar(size=38)
@@ -22,10 +32,7 @@ def waterfall(steps: pd.DataFrame, title: str, unit: str) -> Chart:
             y=alt.Y("low:Q", title=f"fossil CO2 [{unit}]"),
             y2="high:Q",
             color=alt.Color("kind:N", scale=STEP_COLOURS, title=None),
-            tooltip=[
-                alt.Tooltip("step:N", title="step"),
-                alt.Tooltip("value:Q", format=",.0f", title=f"{unit}"),
-            ],
+            tooltip=tooltip,
         )
         .properties(title=title, height=300)
     )
@@ -36,6 +43,7 @@ def levers(summary: pd.DataFrame, labels: list[str], effect_labels: dict[str, st
     data = summary[summary["kind"].isin(list(effect_labels))].copy()
     data["effect"] = data["kind"].map(effect_labels)
     data["band_label"] = [labels[int(b)] if int(b) < len(labels) else str(b) for b in data["band"]]
+    data["evidence"] = stats.evidence(data["models"])
     order = list(effect_labels.values())
     base = alt.Chart().encode(
         y=alt.Y("effect:N", sort=order, title=None),
@@ -50,6 +58,8 @@ def levers(summary: pd.DataFrame, labels: list[str], effect_labels: dict[str, st
             alt.Tooltip("band_label:N", title="band"),
             alt.Tooltip("median:Q", format=",.0f"),
             alt.Tooltip("n:Q", title="scenarios"),
+            alt.Tooltip("models:Q", title="models"),
+            alt.Tooltip("evidence:N", title="evidence"),
         ],
     )
     zero = alt.Chart().mark_rule(color="black", strokeDash=[3, 3]).encode(x=alt.datum(0))

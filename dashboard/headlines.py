@@ -8,6 +8,7 @@ from __future__ import annotations
 import pandas as pd
 
 from milepost.dashboard.queries import RATE_LABELS
+from milepost.dashboard.stats import THIN_RULE, is_thin
 from milepost.dashboard.ui import fmt
 
 
@@ -143,9 +144,61 @@ def delay(summary: pd.DataFrame, names: dict[str, str], outcome: str = "") -> st
         else:
             sign = "+" if r["balanced"] > 0 else ""
             parts.append(f"{words} {sign}{sig(r['balanced'])} (range {sig(r['low'])} to {sig(r['high'])})")
-    thin = " Thin evidence: fewer than three models." if models < 3 else ""
+    thin = f" Thin evidence: {THIN_RULE}." if is_thin(models) else ""
     text = (
         f"What delay costs, pair by pair (later start vs the earliest of the same model and goal), across {n} "
         f"pair{'s' if n != 1 else ''} from {models} model{'s' if models != 1 else ''}: " + "; ".join(parts)
     )
     return _lead(outcome, text + " (model-balanced medians)." + thin)
+
+
+def counted(n: int, models: int) -> str:
+    """'12 scenarios, 4 models' (singular where one)."""
+    return f"{n} scenario{'s' if n != 1 else ''}, {models} model{'s' if models != 1 else ''}"
+
+
+def drivers(
+    summary: pd.DataFrame,
+    counts: pd.DataFrame,
+    labels: list[str],
+    top: int,
+    bottom: int,
+    year: int,
+    unit: str,
+) -> str:
+    """'From the base year to 2050, in the high band (12 scenarios, 4 models) the median energy-intensity effect is
+    ... ; in the low band (...) ...': the intensity effects of the highest and lowest band with the evidence behind
+    each. A band resting on fewer than three models is named as thin evidence instead of being set against the
+    other (its medians stay in the page's table, flagged).
+
+    `summary` is `queries_drivers.lever_shares` at `year`; `counts` is `queries_drivers.band_counts`.
+    """
+    per_band = {int(b): (int(n), int(m)) for b, n, m in counts[["band", "n", "models"]].itertuples(index=False)}
+    bands = (top, bottom) if top != bottom else (top,)
+
+    def median(kind: str, band: int) -> float | None:
+        row = summary[(summary["kind"] == kind) & (summary["band"] == band)]
+        return None if row.empty or pd.isna(row["median"].iloc[0]) else float(row["median"].iloc[0])
+
+    words, thin = [], []
+    for band in bands:
+        n, models = per_band.get(band, (0, 0))
+        if len(bands) > 1 and is_thin(models):
+            thin.append(f"the {labels[band]} band rests on {counted(n, models)}")
+            continue
+        energy, carbon = (median(k, band) for k in ("lmdi_energy_intensity", "lmdi_carbon_intensity"))
+        words.append(
+            f"in the {labels[band]} band ({counted(n, models)}) the median energy-intensity effect is "
+            f"{fmt(energy, 0)} {unit} and the carbon-intensity effect {fmt(carbon, 0)} {unit} (carbon intensity: "
+            f"{fmt(median('carbon_share', band), 0)} % of the intensity cuts)"
+            + (f"; thin evidence: {THIN_RULE}" if is_thin(models) else "")
+        )
+    text = f"From the base year to {year}, " + "; ".join(words) if words else f"From the base year to {year}"
+    if thin:
+        text += (
+            ("; " if words else ": ")
+            + f"thin evidence ({THIN_RULE}): "
+            + " and ".join(thin)
+            + ", so the bands are not compared here (the table below shows the thin medians, flagged)"
+        )
+    return text + "."

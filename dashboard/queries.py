@@ -794,10 +794,10 @@ def delay_table(
 ALL_PAIRS = "all pairs"
 
 
-def delay_summary(pairs: pd.DataFrame, thin_below: int = 3) -> pd.DataFrame:
+def delay_summary(pairs: pd.DataFrame) -> pd.DataFrame:
     """Per group (and over all pairs, group ALL_PAIRS) and metric: pairs with a value, models, median, the
     model-balanced median (each pair 1/n of its model's pairs in the group), minimum, maximum, and whether the
-    figure rests on fewer than `thin_below` models (thin evidence)."""
+    figure is thin evidence (`stats.thin`)."""
     cols = ["group", "metric", "n", "models", "median", "balanced", "low", "high", "thin"]
     if pairs.empty:
         return pd.DataFrame(columns=cols)
@@ -813,7 +813,7 @@ def delay_summary(pairs: pd.DataFrame, thin_below: int = 3) -> pd.DataFrame:
     w = have.assign(w=stats.model_weights(have, by))
     balanced = stats.weighted_quantiles(w, by, "value", "w", {"balanced": 0.5}).set_index(by)
     out = out.join(balanced).reset_index()
-    out["thin"] = out["models"] < thin_below
+    out["thin"] = stats.thin(out["models"])
     groups = [*sorted(set(out["group"]) - {ALL_PAIRS}), ALL_PAIRS]
     out["group"] = pd.Categorical(out["group"], groups, ordered=True)
     out["metric"] = pd.Categorical(out["metric"], list(DELAY_METRICS), ordered=True)

@@ -88,15 +88,28 @@ def scenario_waterfall(df: pd.DataFrame, model: str, scenario: str, year: int) -
     return steps(float(one["start"].iloc[0]), amounts)
 
 
-def band_waterfall(df: pd.DataFrame, band: int, year: int) -> pd.DataFrame:
+def band_counts(df: pd.DataFrame, year: int) -> pd.DataFrame:
+    """Per band: the scenarios (`n`) and models with a decomposition at `year`, the evidence behind its medians."""
+    rows = df[(df["year"] == year) & df["value"].notna()].drop_duplicates(["band", "model", "scenario"])
+    return rows.groupby("band", sort=True, as_index=False).agg(n=("scenario", "size"), models=("model", "nunique"))
+
+
+def band_waterfall(df: pd.DataFrame, band: int, year: int, model_weighted: bool = False) -> pd.DataFrame:
     """A band's waterfall from medians: the median base-year CO2, then the median of each effect; the last bar is
-    their sum, which need not be the median of the milestone CO2 (medians do not add up)."""
+    their sum, which need not be the median of the milestone CO2 (medians do not add up). Each bar carries the
+    scenarios (`n`) and models behind its median; the last bar those of the effects (the fewest)."""
     rows = df[(df["band"] == band) & (df["year"] == year) & df["value"].notna()]
     if rows.empty:
-        return pd.DataFrame(columns=["step", "order", "low", "high", "value", "kind"])
-    start = float(rows.drop_duplicates(["model", "scenario"])["start"].median())
-    amounts = rows.groupby("kind")["value"].median().reindex(list(EFFECTS)).to_numpy(dtype=float)
-    return steps(start, amounts)
+        return pd.DataFrame(columns=["step", "order", "low", "high", "value", "kind", "n", "models"])
+    firsts = rows.drop_duplicates(["model", "scenario"]).assign(kind="start", value=lambda d: d["start"])
+    medians = queries.summarise(pd.concat([firsts, rows]), ["kind"], model_weighted=model_weighted)
+    medians = medians.set_index("kind").reindex(["start", *EFFECTS])
+    out = steps(float(medians["median"].iloc[0]), medians["median"].iloc[1:].to_numpy(dtype=float))
+    effects = medians.iloc[1:]
+    last = (int(effects["n"].min()), int(effects["models"].min()))
+    out["n"] = [*medians["n"].fillna(0).astype(int), last[0]]
+    out["models"] = [*medians["models"].fillna(0).astype(int), last[1]]
+    return out
 
 
 def steps(start: float, amounts: Iterable[float]) -> pd.DataFrame:
@@ -138,6 +151,14 @@ def lever_shares(df: pd.DataFrame, model_weighted: bool = False) -> pd.DataFrame
         value_name="value",
     )
     return queries.summarise(long, ["kind", "year", "band"], model_weighted=model_weighted)
+
+
+def pair_medians(pairs: pd.DataFrame, model_weighted: bool = False) -> pd.DataFrame:
+    """Per effect (in Kaya order), over the pairs of `pair_effects`: pairs with a difference (`n`), models, and the
+    median difference later - first with its quartiles."""
+    out = queries.summarise(pairs, ["effect"], "difference", model_weighted=model_weighted)
+    order = {label: i for i, label in enumerate(EFFECTS.values())}
+    return out.sort_values("effect", key=lambda e: e.map(order)).reset_index(drop=True)
 
 
 def pair_effects(rows: pd.DataFrame) -> pd.DataFrame:

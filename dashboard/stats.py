@@ -20,6 +20,27 @@ import pandas as pd
 QUANTILES = {"q25": 0.25, "median": 0.5, "q75": 0.75}
 _TOL = 1e-9
 
+# A median over fewer models than this says more about those models than about the group (common practice in
+# model intercomparisons: a finding needs several independent models behind it). Every page flags it alike.
+THIN_MODELS = 3
+THIN = "thin evidence"
+THIN_RULE = "fewer than three models"  # THIN_MODELS in words, for sentences and help texts
+
+
+def thin(models: pd.Series) -> pd.Series:
+    """True where a figure rests on fewer than THIN_MODELS models (a count of 0 too: nothing stands behind it)."""
+    return pd.to_numeric(models, errors="coerce").fillna(0) < THIN_MODELS
+
+
+def is_thin(models: int) -> bool:
+    """`thin` of one count."""
+    return int(models) < THIN_MODELS
+
+
+def evidence(models: pd.Series) -> pd.Series:
+    """The flag column of a table (shown as "evidence"): THIN where the figure is thin, else empty."""
+    return pd.Series(np.where(thin(models), THIN, ""), index=models.index, dtype="str")
+
 
 def model_weights(df: pd.DataFrame, by: list[str], value: str = "value") -> pd.Series:
     """1 / (number of the same model's rows with a value in the same group); rows without a value weigh 0."""

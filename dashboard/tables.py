@@ -16,6 +16,8 @@ import numpy as np
 import pandas as pd
 import streamlit as st
 
+from milepost.dashboard.stats import THIN_RULE
+
 Kind = Literal["text", "year", "count", "number"]
 # what an empty cell shows where its column says nothing more specific ("None" reads like a bug)
 PLACEHOLDER = "–"
@@ -79,7 +81,7 @@ COLUMNS: dict[str, Column] = {
     "balanced": Column("model-balanced median", "number", help="Each pair weighs 1/n, n its model's pairs."),
     "low": Column("min", "number"),
     "high": Column("max", "number"),
-    "thin": Column("evidence", help="Thin evidence: the figure rests on fewer than three models."),
+    "thin": Column("evidence", help=f"Thin evidence: the figure rests on {THIN_RULE}."),
     # screen and budgets
     "value": Column("value", "number", with_unit=True),
     "band_value": Column("milestone value", "number", with_unit=True),

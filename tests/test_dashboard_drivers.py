@@ -60,6 +60,11 @@ def test_drivers_headline_is_the_band_median_of_the_effects_within_the_outcome(d
         for kind in ("lmdi_energy_intensity", "lmdi_carbon_intensity"):
             median = float(np.median(rows[(rows.band == band) & (rows.kind == kind)]["effect"]))
             assert fmt(median, 0) in text, (name, kind, text)
+        # both bands rest on three models or more here, so both are stated, each with its evidence
+        mine = rows[rows.band == band].drop_duplicates(["model", "scenario"])
+        assert mine["model"].nunique() >= 3
+        assert f"in the {name} band ({len(mine)} scenarios, {mine['model'].nunique()} models)" in text
+    assert "thin evidence" not in text
     assert "within" in text  # the outcome is named
     # the band waterfalls: one chart per band
     assert len(at.get("vega_lite_chart")) == 3 + 1

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from milepost.dashboard import charts, contracts, headlines, queries, ui
+from milepost.dashboard import charts, contracts, headlines, queries, stats, ui
 from milepost.validate.store.pairs import rule_for
 
 ch, sel = ui.results_page("Delay")
@@ -31,7 +31,7 @@ st.info(headlines.delay(overall, names, sel.outcome_label), icon=":material/sche
 st.caption(
     f"{rule.describe()} Differences are later minus first, in {sel.region}; the ratio is later over first. "
     "Model-balanced median: each pair weighs 1/n, n = its model's pairs in the group, so every model counts once. "
-    "Figures resting on fewer than three models are flagged as thin evidence."
+    f"Figures resting on {stats.THIN_RULE} are flagged as {stats.THIN}."
 )
 if pairs.empty:
     st.warning("No pairs for these filters: both scenarios of a pair must pass the filters and the outcome.")
@@ -40,7 +40,7 @@ if pairs.empty:
 thin = summary[summary["thin"] & (summary["n"] > 0)]
 if len(thin):
     groups = ", ".join(sorted(set(thin["group"])))
-    st.warning(f"Thin evidence (fewer than three models): {groups}.", icon=":material/warning:")
+    st.warning(f"Thin evidence ({stats.THIN_RULE}): {groups}.", icon=":material/warning:")
 
 c1, c2, c3 = st.columns(3)
 c1.metric("Pairs", len(pairs))
@@ -61,7 +61,7 @@ with right:
 st.subheader("Across models, per group")
 labels = {**names, "npv_ratio": f"{npv_words} (ratio later/first)", "d_npv": f"Δ {npv_words}"}
 shown = summary.assign(metric=summary["metric"].map(labels)).rename(columns={"n": "pairs"})
-shown["thin"] = shown["thin"].map({True: "thin evidence", False: ""})
+shown["thin"] = stats.evidence(shown["models"])
 ui.table(shown, f"delay_summary_{sel.year}", "delay_summary")
 
 st.subheader("Pair by pair")

@@ -3,10 +3,9 @@ from the base year to each milestone, per scenario, per band median, band agains
 
 from __future__ import annotations
 
-import pandas as pd
 import streamlit as st
 
-from milepost.dashboard import charts_drivers, contracts, queries, ui
+from milepost.dashboard import charts_drivers, contracts, headlines, queries, stats, ui
 from milepost.dashboard import queries_drivers as qd
 from milepost.validate.store.pairs import rule_for
 
@@ -39,30 +38,23 @@ years = sorted(df["year"].unique().tolist())
 year = ui.url_selectbox("Milestone", years, key="drivers_year", param="dyear", default=years[-1], cast=int)
 df = ui.label_bands(df, labels)
 summary = qd.lever_shares(df, sel.model_weighted)
+counts = qd.band_counts(df, year)
 present = sorted(df["band"].unique().tolist())
 top, bottom = present[-1], present[0]
 
-
-def _median(kind: str, band: int) -> float | None:
-    row = summary[(summary["kind"] == kind) & (summary["band"] == band) & (summary["year"] == year)]
-    return None if row.empty or pd.isna(row["median"].iloc[0]) else float(row["median"].iloc[0])
-
-
-def _sentence() -> str:
-    words = []
-    for band in (top, bottom) if top != bottom else (top,):
-        cut = [(qd.EFFECTS[k], _median(k, band)) for k in ("lmdi_energy_intensity", "lmdi_carbon_intensity")]
-        share = _median("carbon_share", band)
-        words.append(
-            f"in the {labels[band]} band the median energy-intensity effect is {ui.fmt(cut[0][1], 0)} {UNIT} and the "
-            f"carbon-intensity effect {ui.fmt(cut[1][1], 0)} {UNIT} (carbon intensity: {ui.fmt(share, 0)} % of the "
-            "intensity cuts)"
-        )
-    out = f"From the base year to {year}, " + "; ".join(words) + "."
-    return out + (f" Bands by {sel.variable} in {sel.year}{sel.outcome_label and ', ' + sel.outcome_label}.")
-
-
-st.info(_sentence(), icon=":material/account_tree:")
+sentence = headlines.drivers(summary[summary["year"] == year], counts, labels, top, bottom, year, UNIT)
+st.info(
+    sentence + f" Bands by {sel.variable} in {sel.year}{sel.outcome_label and ', ' + sel.outcome_label}.",
+    icon=":material/account_tree:",
+)
+thin_bands = counts[stats.thin(counts["models"])]
+if len(thin_bands):
+    # named, never left out: the thin bands' medians stay in the waterfalls and the table, flagged
+    named = ", ".join(
+        f"{labels[b]} band ({m} model{'s' if m != 1 else ''})"
+        for b, m in thin_bands[["band", "models"]].itertuples(index=False)
+    )
+    st.warning(f"Thin evidence ({stats.THIN_RULE}) in {year}: {named}.", icon=":material/warning:")
 
 st.subheader(f"Waterfall, base year to {year}")
 mode = ui.url_selectbox(
@@ -83,18 +75,21 @@ else:
     cols = st.columns(len(present))
     for col, band in zip(cols, present, strict=True):
         with col:
-            steps = qd.band_waterfall(df, band, year)
+            steps = qd.band_waterfall(df, band, year, sel.model_weighted)
             if steps.empty:
                 st.caption(f"{labels[band]}: no decomposition")
                 continue
+            n, models = int(steps["n"].iloc[-1]), int(steps["models"].iloc[-1])
+            title = f"{labels[band]} band: median of {headlines.counted(n, models)}"
             ui.chart(
-                charts_drivers.waterfall(steps, f"{labels[band]} band (median)", UNIT),
+                charts_drivers.waterfall(steps, title + (f" ({stats.THIN})" if stats.is_thin(models) else ""), UNIT),
                 f"drivers_band{band}_{year}",
                 f"drivers_band{band}",
             )
     st.caption(
         "Band waterfalls stack the median of each effect on the median base-year CO2; medians do not add up, so "
-        "the last bar need not be the band's median milestone CO2. Red raises emissions, blue cuts them."
+        "the last bar need not be the band's median milestone CO2. Red raises emissions, blue cuts them. Each "
+        f"title counts the scenarios and models behind the band's medians; {stats.THIN_RULE} is {stats.THIN}."
     )
 
 st.subheader("Compare bands: which levers, by milestone")
@@ -105,9 +100,9 @@ st.caption(
     "intensity effects, where they cut."
 )
 shown = summary.assign(lever=summary["kind"].map({**qd.EFFECTS, "carbon_share": "carbon share of intensity cuts (%)"}))
-shown = ui.label_bands(shown, labels)
+shown = ui.label_bands(shown, labels).assign(thin=lambda d: stats.evidence(d["models"]))
 ui.table(
-    shown[["lever", "year", "band_label", "n", "models", "median", "q25", "q75"]].rename(
+    shown[["lever", "year", "band_label", "n", "models", "median", "q25", "q75", "thin"]].rename(
         columns={"band_label": "band"}
     ),
     f"drivers_levers_{sel.year}",
@@ -123,11 +118,24 @@ st.caption(f"{rule.describe()} Effects in {sel.region}, {UNIT}; difference = lat
 if pairs.empty:
     st.info("No pairs for these filters: both scenarios of a pair must pass the filters and the outcome.")
 else:
-    mean = pairs.groupby("effect", sort=False)["difference"].median()
+    medians = qd.pair_medians(pairs, sel.model_weighted)
+    # the pairs and models behind the medians: those with a difference (a pair with an undefined effect has none)
+    n_pairs, n_models = (int(medians[c].max()) if len(medians) else 0 for c in ("n", "models"))
+    balanced = " (model-balanced)" if sel.model_weighted else ""
     st.write(
-        "Median difference, later minus first start: "
-        + "; ".join(f"{effect} {ui.fmt(v, 0)} {UNIT}" for effect, v in mean.items())
+        f"Median difference{balanced}, later minus first start, over {n_pairs} pair{'s' if n_pairs != 1 else ''} "
+        f"of {n_models} model{'s' if n_models != 1 else ''}: "
+        + "; ".join(f"{e} {ui.fmt(v, 0)} {UNIT}" for e, v in zip(medians["effect"], medians["median"], strict=True))
         + "."
+        + (f" Thin evidence: {stats.THIN_RULE}." if stats.is_thin(n_models) else "")
+    )
+    ui.table(
+        medians[["effect", "n", "models", "median", "q25", "q75"]]
+        .assign(thin=stats.evidence(medians["models"]))
+        .rename(columns={"n": "pairs"}),
+        f"drivers_pair_medians_{year}",
+        "drivers_pair_medians",
+        unit=UNIT,
     )
     ui.table(pairs, f"drivers_pairs_{year}", "drivers_pairs")
 
