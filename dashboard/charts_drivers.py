@@ -70,6 +70,7 @@ def transfers(summary: pd.DataFrame, labels: list[str], unit: str) -> Chart:
     """Median transfer per region (positive = receives money, negative = pays), per band, one panel per rule."""
     data = summary.copy()
     data["band_label"] = [labels[int(b)] if int(b) < len(labels) else str(b) for b in data["band"]]
+    data["evidence"] = stats.evidence(data["models"])
     base = alt.Chart().encode(
         y=alt.Y("region:N", title=None),
         yOffset=alt.YOffset("band_label:N", sort=labels),
@@ -83,6 +84,9 @@ def transfers(summary: pd.DataFrame, labels: list[str], unit: str) -> Chart:
             alt.Tooltip("median:Q", format=",.1f", title=unit),
             alt.Tooltip("pays:Q", title="scenarios paying"),
             alt.Tooltip("receives:Q", title="scenarios receiving"),
+            alt.Tooltip("n:Q", title="scenarios"),
+            alt.Tooltip("models:Q", title="models"),
+            alt.Tooltip("evidence:N", title="evidence"),
         ],
     )
     zero = alt.Chart().mark_rule(color="black").encode(x=alt.datum(0))

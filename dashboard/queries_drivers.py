@@ -241,3 +241,35 @@ def who_pays(df: pd.DataFrame, model_weighted: bool = False) -> pd.DataFrame:
         .sum()
     )
     return summary.merge(counts, on=["rule", "year", "band", "region"], how="left")
+
+
+def market_sizes(market: pd.DataFrame, model_weighted: bool = False) -> pd.DataFrame:
+    """Per rule and market measure (`kind`: permits traded, money moved) over the rows of `market`: scenarios with
+    a value (`n`), models and the median. Money moved needs the World carbon price, permits do not, so the two
+    may rest on different scenarios: each carries its own counts."""
+    return queries.summarise(market, ["rule", "kind"], model_weighted=model_weighted)
+
+
+def trade_costs(rows: pd.DataFrame, model_weighted: bool = False) -> pd.DataFrame:
+    """Per rule, region and band over burden rows (`burden`, one milestone): the median abatement cost without
+    trade and after trade over the same scenarios, those with both (`n`, `models`), and the median GDP (PPP)
+    loss over the scenarios that have one (`n_loss`, `models_loss`)."""
+    by = ["rule", "region", "band"]
+    both = rows.dropna(subset=["cost", "cost_after_trade"])
+    cost = queries.summarise(both, by, "cost", model_weighted)[[*by, "n", "models", "median"]]
+    after = queries.summarise(both, by, "cost_after_trade", model_weighted)[[*by, "median"]]
+    loss = queries.summarise(rows.dropna(subset=["loss_pct"]), by, "loss_pct", model_weighted)
+    loss = loss[[*by, "n", "models", "median"]].rename(
+        columns={"n": "n_loss", "models": "models_loss", "median": "loss_pct"}
+    )
+    out = cost.rename(columns={"median": "cost"}).merge(after.rename(columns={"median": "cost_after_trade"}), on=by)
+    out = out.merge(loss, on=by, how="outer")
+    counts = ["n", "models", "n_loss", "models_loss"]
+    out[counts] = out[counts].fillna(0).astype("int64")
+    return out.sort_values(by).reset_index(drop=True)
+
+
+def share_medians(shares: pd.DataFrame, model_weighted: bool = False) -> pd.DataFrame:
+    """Per basis variable, region and band over `cost_shares` rows (one milestone): scenarios with a share (`n`),
+    models and the median share (a fraction)."""
+    return queries.summarise(shares, ["variable", "region", "band"], "share", model_weighted)

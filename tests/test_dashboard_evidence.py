@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import json
 
+import duckdb
 import numpy as np
 import pandas as pd
 import pyarrow as pa
@@ -153,3 +154,98 @@ def test_the_sentence_with_both_bands_thin_or_a_single_band() -> None:
     assert "thin evidence: fewer than three models" in text
     summary, counts = _lever_summary({0: -111.0}, {0: 3})
     assert "thin" not in headlines.drivers(summary, counts, ["all"], 0, 0, 2050, "Mt CO2")
+
+
+# ---------------------------------------------------------------- Regions
+
+
+@pytest.fixture(scope="module")
+def narrow_top(demo_db):
+    """Band edges that leave only the highest 2030 values (the second highest and up) in the top band: thin."""
+    con = duckdb.connect(str(demo_db), read_only=True)
+    try:
+        values = np.sort(milestone_values(con, "emissions.ghg", 2030)["value"].to_numpy())
+    finally:
+        con.close()
+    return [float(np.median(values)), float(values[-2])]
+
+
+@pytest.fixture(scope="module")
+def regions(demo_db, narrow_top):
+    return open_app(demo_db, "views/regions.py", params={"edges": " ".join(repr(e) for e in narrow_top)})
+
+
+def edge_bands(sql, edges: list[float]) -> pd.DataFrame:
+    sel = milestone_values(sql, "emissions.ghg", 2030)
+    _, band = numpy_bands(sel["value"].to_numpy(), edges)
+    return sel[["model", "scenario"]].assign(band=np.array(LABELS)[band])
+
+
+def stored(sql, kind: str, variable: str | None = None, year: int = 2050) -> pd.DataFrame:
+    extra = " AND variable = ?" if variable else ""
+    return sql.execute(
+        "SELECT model, scenario, region, variable, value FROM current_indicators WHERE kind = ? AND year_to = ?"
+        + extra,
+        [kind, year, *([variable] if variable else [])],
+    ).df()
+
+
+def test_regions_cost_and_share_tables_count_models_and_flag_the_thin_band(regions, sql, narrow_top):
+    at = regions
+    sel = edge_bands(sql, narrow_top)
+    top = sel[sel.band == "high"]
+    assert 0 < len(top) < 5 and top["model"].nunique() < 3  # the thin group this test is about (ties at 2030)
+    cost = stored(sql, "value", "cost.abatement").rename(columns={"value": "cost"}).drop(columns="variable")
+    after = stored(sql, "cost_after_trade", "per_capita").rename(columns={"value": "after"}).drop(columns="variable")
+    both = sel.merge(cost, on=["model", "scenario"]).merge(after, on=["model", "scenario", "region"])
+    loss = sel.merge(stored(sql, "loss_pct", "gdp.ppp").dropna(subset=["value"]), on=["model", "scenario"])
+    table = frame(at, "scenarios with a GDP loss")
+    table = table[table["rule"] == "equal per capita"]
+    assert len(table) == 3 * both["region"].nunique()
+    for _, r in table.iterrows():
+        mine = both[(both.region == r["region"]) & (both.band == r["band"])]
+        lost = loss[(loss.region == r["region"]) & (loss.band == r["band"])]
+        assert (r["scenarios"], r["models"]) == (len(mine), mine["model"].nunique())
+        assert (r["scenarios with a GDP loss"], r["models with a GDP loss"]) == (len(lost), lost["model"].nunique())
+        assert r["median abatement cost without trade [billion USD_2015/yr]"] == pytest.approx(np.median(mine["cost"]))
+        assert r["median cost after trade [billion USD_2015/yr]"] == pytest.approx(np.median(mine["after"]))
+        thin = mine["model"].nunique() < 3
+        assert r["evidence"] == (THIN if thin else f"{THIN} (GDP loss)" if lost["model"].nunique() < 3 else "")
+        assert thin == (r["band"] == "high")
+
+    shares = sel.merge(stored(sql, "cost_share", "cost.abatement").dropna(subset=["value"]), on=["model", "scenario"])
+    table = frame(at, "median share [%]")
+    table = table[table["share of"] == "abatement cost"]
+    for _, r in table.iterrows():
+        mine = shares[(shares.region == r["region"]) & (shares.band == r["band"])]
+        assert (r["scenarios"], r["models"]) == (len(mine), mine["model"].nunique())
+        assert r["evidence"] == (THIN if mine["model"].nunique() < 3 else "")
+    assert set(table.loc[table["evidence"] == THIN, "band"]) == {"high"}
+
+    transfers = frame(at, "scenarios paying")
+    assert set(transfers.loc[transfers["evidence"] == THIN, "band"]) == {"high"}
+    assert sum("Thin evidence" in w.value for w in at.warning) >= 3  # transfers, costs, shares
+
+
+def test_regions_market_size_and_money_sentence_count_models(regions, sql, narrow_top):
+    at = regions
+    sel = edge_bands(sql, narrow_top)
+    market = frame(at, "measure")
+    for kind, measure in (("market_value", "money moved"), ("market_permits", "permits traded")):
+        rows = sel.merge(stored(sql, kind).dropna(subset=["value"]), on=["model", "scenario"])
+        for rule, label in (("per_capita", "equal per capita"), ("grandfathering", "grandfathering")):
+            mine = rows[rows.variable == rule]
+            r = market[market["rule"].str.startswith(label) & market["measure"].str.startswith(measure)].iloc[0]
+            assert (r["scenarios"], r["models"]) == (len(mine), mine["model"].nunique())
+            assert r["median"] == pytest.approx(np.median(mine["value"]))
+            if kind == "market_value":
+                words = f"{fmt(float(np.median(mine['value'])), 0)} billion USD_2015/yr ({len(mine)} scenarios, "
+                assert words + f"{mine['model'].nunique()} models)" in at.info[0].value
+
+
+def test_regions_with_one_model_flag_every_median(demo_db):
+    at = open_app(demo_db, "views/regions.py", params={"model": "Ferrow"})
+    assert at.multiselect(key="band_models").value == ["Ferrow"]
+    assert "1 model, thin evidence)" in at.info[0].value
+    for column in ("measure", "scenarios paying", "median share [%]"):
+        assert set(frame(at, column)["evidence"]) == {THIN}

@@ -3,9 +3,11 @@ rule, at each milestone, per band."""
 
 from __future__ import annotations
 
+import numpy as np
+import pandas as pd
 import streamlit as st
 
-from milepost.dashboard import charts_drivers, queries, ui
+from milepost.dashboard import charts_drivers, headlines, queries, stats, ui
 from milepost.dashboard import queries_drivers as qd
 
 ALLOCATION_CAUTION = (
@@ -43,11 +45,26 @@ summary = ui.label_bands(qd.who_pays(at, sel.model_weighted), labels)
 summary["rule_label"] = summary["rule"].map(qd.RULES)
 market = ui.query(qd.market, sel)
 market = market[market["year"] == year]
-money = market[market["kind"] == "market_value"].groupby("rule")["value"].median()
+sizes = qd.market_sizes(market, sel.model_weighted)
+money = {
+    rule: (float(median), int(n), int(models))
+    for rule, median, n, models in sizes.loc[
+        sizes["kind"] == "market_value", ["rule", "median", "n", "models"]
+    ].itertuples(index=False)
+}
 
-words = [f"{qd.RULES[r]}: {ui.fmt(money.get(r), 0)} {TRANSFER_UNIT}" for r in rules if r in money]
+
+def _money(rule: str) -> str:
+    median, n, models = money[rule]
+    thin = f", {stats.THIN}" if stats.is_thin(models) else ""
+    return f"{qd.RULES[rule]}: {ui.fmt(median, 0)} {TRANSFER_UNIT} ({headlines.counted(n, models)}{thin})"
+
+
+medians = "model-balanced medians" if sel.model_weighted else "medians"
 st.info(
-    f"Money moved between regions in {year} (median over the selected scenarios): " + "; ".join(words) + ".",
+    f"Money moved between regions in {year} ({medians} over the selected scenarios): "
+    + "; ".join(_money(r) for r in rules if r in money)
+    + ".",
     icon=":material/public:",
 )
 
@@ -70,48 +87,91 @@ st.caption(
 table = summary.drop(columns=["band"]).rename(
     columns={"band_label": "band", "median": f"median transfer [{TRANSFER_UNIT}]"}
 )
-thin = int((table["models"] < 3).sum())
-if thin:
-    # as on Delay: a median over fewer than three models says more about those models than about the band
-    st.warning(f"Thin evidence: {thin} of {len(table)} medians below rest on fewer than three models (see models).")
+table["thin"] = stats.evidence(table["models"])
+
+
+def _thin_warning(shown: pd.DataFrame, what: str) -> None:
+    """As on Delay: a median over fewer than three models says more about those models than about the band."""
+    thin = int((shown["thin"] != "").sum())
+    if thin:
+        st.warning(
+            f"Thin evidence: {thin} of {len(shown)} {what} rest on {stats.THIN_RULE} (see models).",
+            icon=":material/warning:",
+        )
+
+
+_thin_warning(table, "medians below")
 ui.table(
     table[
-        ["rule_label", "region", "band", "n", "models", f"median transfer [{TRANSFER_UNIT}]", "pays", "receives"]
+        [
+            "rule_label",
+            "region",
+            "band",
+            "n",
+            "models",
+            f"median transfer [{TRANSFER_UNIT}]",
+            "pays",
+            "receives",
+            "thin",
+        ]
     ].rename(columns={"rule_label": "rule", "pays": "scenarios paying", "receives": "scenarios receiving"}),
     f"regions_who_pays_{year}",
     "regions_who_pays",
 )
 
 st.subheader("Market size")
-sizes = market.assign(rule=market["rule"].map(qd.RULES))
-sizes = sizes.pivot_table(index="rule", columns="kind", values="value", aggfunc="median").reset_index()
-sizes = sizes.rename(
-    columns={
-        "market_permits": f"permits traded [{PERMIT_UNIT}] (median)",
-        "market_value": f"money moved [{TRANSFER_UNIT}] (median)",
-    }
+measures = {"market_permits": f"permits traded [{PERMIT_UNIT}]", "market_value": f"money moved [{TRANSFER_UNIT}]"}
+shown_sizes = sizes.assign(
+    rule=sizes["rule"].map(qd.RULES), measure=sizes["kind"].map(measures), thin=stats.evidence(sizes["models"])
 )
-ui.table(sizes, f"regions_market_{year}", "regions_market")
-
-st.subheader("Cost with and without trade, per region")
-costs = at.groupby(["rule", "region", "band_label"], as_index=False).agg(
-    cost=("cost", "median"), cost_after_trade=("cost_after_trade", "median"), loss_pct=("loss_pct", "median")
-)
-costs["rule"] = costs["rule"].map(qd.RULES)
+_thin_warning(shown_sizes, "market medians")
 ui.table(
-    costs.rename(
-        columns={
-            "band_label": "band",
-            "cost": f"abatement cost without trade [{TRANSFER_UNIT}]",
-            "cost_after_trade": f"cost after trade [{TRANSFER_UNIT}]",
-            "loss_pct": "GDP (PPP) loss [%]",
-        }
-    ),
-    f"regions_costs_{year}",
-    "regions_costs",
+    shown_sizes[["rule", "measure", "n", "models", "median", "q25", "q75", "thin"]],
+    f"regions_market_{year}",
+    "regions_market",
 )
 st.caption(
-    "Medians over the band's scenarios. Cost after trade = abatement cost − transfer received. GDP loss against "
+    "Medians over the selected scenarios of each rule. Money moved needs the World carbon price, permits traded "
+    "do not, so each measure counts its own scenarios and models."
+)
+
+st.subheader("Cost with and without trade, per region")
+costs = ui.label_bands(qd.trade_costs(at, sel.model_weighted), labels)
+costs["rule"] = costs["rule"].map(qd.RULES)
+# the row's flag says what is thin: the costs, else the GDP loss beside them (an empty cell is not thin)
+cost_thin = stats.thin(costs["models"]) & (costs["n"] > 0)
+loss_thin = stats.thin(costs["models_loss"]) & (costs["n_loss"] > 0)
+costs["thin"] = np.select([cost_thin, loss_thin], [stats.THIN, f"{stats.THIN} (GDP loss)"], "")
+_thin_warning(costs, "rows of costs")
+ui.table(
+    costs[
+        [
+            "rule",
+            "region",
+            "band_label",
+            "n",
+            "models",
+            "cost",
+            "cost_after_trade",
+            "n_loss",
+            "models_loss",
+            "loss_pct",
+            "thin",
+        ]
+    ].rename(columns={"band_label": "band"}),
+    f"regions_costs_{year}",
+    "regions_costs",
+    columns={
+        "cost": f"median abatement cost without trade [{TRANSFER_UNIT}]",
+        "cost_after_trade": f"median cost after trade [{TRANSFER_UNIT}]",
+        "n_loss": "scenarios with a GDP loss",
+        "models_loss": "models with a GDP loss",
+        "loss_pct": "median GDP (PPP) loss [%]",
+    },
+)
+st.caption(
+    "Medians over the band's scenarios: cost without and after trade over the same scenarios (those with both), "
+    "GDP loss over those with one. Cost after trade = abatement cost − transfer received. GDP loss against "
     "each model's own reference scenario, without trade (the models' own results)."
 )
 
@@ -121,14 +181,14 @@ shares = shares[(shares["year"] == year) & shares["variable"].isin(list(qd.SHARE
 if shares.empty:
     st.info("No regional cost shares: they need regional and World cost.abatement, or GDP with a reference scenario.")
 else:
-    share_table = shares.groupby(["variable", "region", "band_label"], as_index=False).agg(
-        n=("share", "count"), share=("share", "median")
-    )
-    share_table["share"] = share_table["share"] * 100
+    share_table = ui.label_bands(qd.share_medians(shares, sel.model_weighted), labels)
+    share_table["share"] = share_table["median"] * 100
     share_table["variable"] = share_table["variable"].map(qd.SHARE_BASES)
+    share_table["thin"] = stats.evidence(share_table["models"])
+    _thin_warning(share_table, "median shares")
     ui.table(
-        share_table.rename(
-            columns={"variable": "share of", "band_label": "band", "share": "median share [%]", "n": "scenarios"}
+        share_table[["variable", "region", "band_label", "n", "models", "share", "thin"]].rename(
+            columns={"variable": "share of", "band_label": "band", "share": "median share [%]"}
         ),
         f"regions_shares_{year}",
         "regions_shares",
