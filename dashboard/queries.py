@@ -706,14 +706,17 @@ def outcome_keys(con: duckdb.DuckDBPyConnection, spec: OutcomeSpec) -> tuple[tup
 
 
 def budget_scenarios(con: duckdb.DuckDBPyConnection, sel: Selection, region: str) -> pd.DataFrame:
-    """Per selected scenario: band, milestone value, CO2 to net zero (and its end year), whether net zero is
-    reached, the budget class at `sel.likelihood` and the indicative warming (central, low, high)."""
+    """Per selected scenario: band, milestone value, CO2 to net zero (and its end year), the net-zero year with the
+    last year it was sought in and its note (as `screen_table` gives them, for `ui.net_zero_text`), the budget
+    class at `sel.likelihood` and the indicative warming (central, low, high)."""
     sql = f"""WITH {_banded(con)}
     SELECT b.model, b.scenario, b.band, b.band_value,
       max(i.value) FILTER (WHERE i.kind = 'cumulative_net_zero') AS cumulative,
       max(i.unit) FILTER (WHERE i.kind = 'cumulative_net_zero') AS unit,
       max(i.year_to) FILTER (WHERE i.kind = 'cumulative_net_zero') AS until,
       max(i.value) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_year,
+      max(i.year_to) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_searched_to,
+      max({_note(con)}) FILTER (WHERE i.kind = 'net_zero_year') AS net_zero_note,
       bool_or(i.kind = 'budget_level') AS has_level,
       max(i.value) FILTER (WHERE i.kind = 'budget_level') AS level,
       max(i.value) FILTER (WHERE i.kind = 'warming_peak') AS warming,

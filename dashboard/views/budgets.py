@@ -83,7 +83,8 @@ ui.table(
 )
 
 st.subheader("Scenarios")
-df["net_zero_year"] = ui.net_zero_text(df["net_zero_year"], df["until"])
+# the same explained cells as on Screen: "not reached by YEAR", and "(already ≤ 0)" from the stored note
+df["net_zero_year"] = ui.net_zero_text(df["net_zero_year"], df["net_zero_searched_to"], df["net_zero_note"])
 cols = ["model", "scenario", "band_label", "band_value", "cumulative", "until", "net_zero_year", "outcome"]
 cols += ["warming", "warming_low", "warming_high"]
 ui.table(
