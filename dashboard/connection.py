@@ -14,6 +14,7 @@ from pathlib import Path
 import duckdb
 import streamlit as st
 
+from milepost.dashboard import queries
 from milepost.validate.store.database import DEFAULT_DB, ENV_DB, Reader
 
 
@@ -40,8 +41,11 @@ def _release(reader: Reader) -> None:
 
 @st.cache_resource(max_entries=3, show_spinner=False, on_release=_release)
 def _open(path: str, inode: int, mtime_ns: int) -> Reader:
-    """One reader per file version: inode and mtime are part of the cache key, so a replaced file is reopened."""
-    return Reader(path)
+    """One reader per file version: inode and mtime are part of the cache key, so a replaced file is reopened.
+    The reader carries that key (queries.mark_opened): the slices cached for it are those of this version."""
+    reader = Reader(path)
+    queries.mark_opened(reader.con, (path, inode, mtime_ns))
+    return reader
 
 
 def connection(path: Path | None = None) -> duckdb.DuckDBPyConnection:

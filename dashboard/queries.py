@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-import os
 import threading
+import uuid
 from collections import OrderedDict
 from dataclasses import dataclass, field
 from typing import Any
@@ -161,25 +161,59 @@ def _banded(con: duckdb.DuckDBPyConnection, sel: Selection | None = None) -> str
 SLICE_ENTRIES = 16
 _SLICES: OrderedDict[tuple[Any, ...], pa.Table] = OrderedDict()
 _SLICES_LOCK = threading.Lock()
+_MARK_LOCK = threading.Lock()
+
+
+# Where a connection keeps the key of the file version it was opened on: a table of its own in-memory catalog
+# (the Reader's connection is an in-memory DuckDB with the file attached), which every cursor of it sees.
+_OPENED_AS = "memory.main.milepost_opened_as"
+
+
+def mark_opened(con: duckdb.DuckDBPyConnection, key: tuple[Any, ...]) -> None:
+    """Record on `con` the key of the file version it was opened on (`dashboard/connection.file_key`): the slice
+    cache keys on it, so a slice read through `con` is only ever handed to connections opened on the same key."""
+    con.execute(f"CREATE OR REPLACE TABLE {_OPENED_AS} AS SELECT ?::VARCHAR AS key", [repr(key)])
+
+
+def _opened_as(con: duckdb.DuckDBPyConnection) -> str | None:
+    """The key `mark_opened` recorded on `con`; a connection opened without one (a Reader of the bench or of a
+    test) gets a token of its own on first use, so its slices are never shared with another connection. None
+    where the connection cannot hold one (no in-memory catalog): nothing is cached then."""
+    read = f"SELECT key FROM {_OPENED_AS}"  # noqa: S608 - a constant of this module
+    try:
+        row = con.execute(read).fetchone()
+    except duckdb.CatalogException:
+        with _MARK_LOCK:  # two cursors of one connection meeting it unmarked: one token, the first
+            try:
+                con.execute(
+                    f"CREATE TABLE IF NOT EXISTS {_OPENED_AS} AS SELECT ?::VARCHAR AS key",
+                    [f"connection {uuid.uuid4()}"],
+                )
+                row = con.execute(read).fetchone()
+            except duckdb.Error:
+                return None
+    return None if row is None else str(row[0])
 
 
 def signature(con: duckdb.DuckDBPyConnection) -> tuple[Any, ...] | None:
-    """What identifies the content a connection reads: the file (path, inode, modification time, size), its
-    settings (schema version, creation time, outdated marks) and its submissions with their status. Every write
-    of a Milepost database adds a submission or changes a setting, so a connection still reading the version a
-    writer has just replaced never shares a signature with the new one. None for an in-memory database."""
+    """What identifies the content a connection reads: the key of the file version it was opened on
+    (`mark_opened`: path, inode and modification time as the connection layer saw them when it opened the file),
+    the file's settings (schema version, creation time, outdated marks) and its submissions with their status.
+
+    Never a fresh look at the file: a writer may have replaced it since the connection opened it, and the new
+    file's inode beside the old connection's rows would label them as the new version's. None for an in-memory
+    database."""
     (path,) = con.execute("SELECT path FROM duckdb_databases() WHERE database_name = current_database()").fetchall()[0]
     if not path:
         return None
-    try:
-        st = os.stat(path)
-    except OSError:
+    opened = _opened_as(con)
+    if opened is None:
         return None
     meta, subs, rows = con.execute(
         "SELECT (SELECT list((key, value) ORDER BY key) FROM meta), "
         "(SELECT list((id, status) ORDER BY id) FROM submissions), (SELECT count(*) FROM indicators)"
     ).fetchall()[0]
-    return (path, st.st_ino, st.st_mtime_ns, st.st_size, str(meta), str(subs), rows)
+    return (opened, str(meta), str(subs), rows)
 
 
 def _slice(con: duckdb.DuckDBPyConnection, sel: Selection) -> str:
