@@ -244,8 +244,10 @@ def test_regions_market_size_and_money_sentence_count_models(regions, sql, narro
 
 
 def test_regions_with_one_model_flag_every_median(demo_db):
-    at = open_app(demo_db, "views/regions.py", params={"model": "Ferrow"})
+    params = {"model": "Ferrow", "outcome": "class", "class": "2", "lik": "67%"}
+    at = open_app(demo_db, "views/regions.py", params=params)
     assert at.multiselect(key="band_models").value == ["Ferrow"]
     assert "1 model, thin evidence)" in at.info[0].value
+    assert at.info[0].value.endswith("Scenarios within the 2 °C budget (67 %).")  # what was held fixed
     for column in ("measure", "scenarios paying", "median share [%]"):
         assert set(frame(at, column)["evidence"]) == {THIN}

@@ -64,7 +64,8 @@ medians = "model-balanced medians" if sel.model_weighted else "medians"
 st.info(
     f"Money moved between regions in {year} ({medians} over the selected scenarios): "
     + "; ".join(_money(r) for r in rules if r in money)
-    + ".",
+    + "."
+    + (f" Scenarios {sel.outcome_label}." if sel.outcome_label else ""),
     icon=":material/public:",
 )
 
