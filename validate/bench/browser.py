@@ -181,7 +181,10 @@ def run(workdir: Path, full: bool = False, repeat: int = 3, rows: int | None = N
                     )
                 )
                 for page_name in PAGES:
-                    times, again, floor_new, floor_again = [], [], [], []
+                    times: list[float] = []
+                    again: list[float] = []
+                    floor_new: list[float] = []
+                    floor_again: list[float] = []
                     for _ in range(repeat):
                         for target, headline, new, old in (
                             (floor_url, FLOOR_HEADLINE, floor_new, floor_again),

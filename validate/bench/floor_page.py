@@ -58,7 +58,11 @@ def _page() -> None:
     st.caption("Conventions.")
 
 
+def _empty() -> None:
+    st.title("empty")
+
+
 st.set_page_config(page_title="floor", layout="wide")
 pages = [st.Page(_page, title=TITLES[0], url_path="screen", default=True)]
-pages += [st.Page(lambda: st.title("empty"), title=t, url_path=t.lower()) for t in TITLES[1:]]
+pages += [st.Page(_empty, title=t, url_path=t.lower()) for t in TITLES[1:]]
 st.navigation(pages).run()
