@@ -65,3 +65,9 @@ def cursor(path: Path | None = None) -> duckdb.DuckDBPyConnection:
     if not p.exists():
         raise FileNotFoundError(p)
     return _open(*file_key(p)).cursor()
+
+
+def cursor_of(key: tuple[str, int, int]) -> duckdb.DuckDBPyConnection:
+    """A fresh cursor on the reader of one version of the file (`file_key`), so an answer cached under that key is
+    read from that version even if a writer replaces the file meanwhile."""
+    return _open(*key).cursor()

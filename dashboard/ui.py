@@ -175,6 +175,26 @@ def query(fn: Callable[..., T], *args: Any, **kwargs: Any) -> T:
         cur.close()
 
 
+# Every session asks the same questions of the same file: a new browser tab is a new Streamlit session, so answers
+# kept in session state would be computed again for each reviewer. Answers are shared instead, keyed by the file's
+# version (connection.file_key: a replaced file is a new key) and the question; cache_data hands each caller a copy.
+@st.cache_data(max_entries=128, show_spinner=False)
+def _shared(version: tuple[str, int, int], name: str, _fn: Callable[..., Any], args: tuple[Any, ...]) -> Any:
+    cur = connection.cursor_of(version)
+    try:
+        return _fn(cur, *args)
+    finally:
+        cur.close()
+
+
+def shared_query(fn: Callable[..., T], *args: Any) -> T:
+    """`query`, answered once per version of the database file for every session (its arguments must be hashable
+    by Streamlit: plain values, tuples, frozen dataclasses)."""
+    name = f"{fn.__module__}.{fn.__qualname__}"
+    answer: T = _shared(connection.file_key(connection.db_path()), name, fn, args)
+    return answer
+
+
 @st.cache_data(max_entries=8, show_spinner=False)
 def _choices(version: tuple[str, int, int]) -> queries.Choices:
     return query(queries.choices)
@@ -253,11 +273,14 @@ def table(
     st.dataframe(
         df, hide_index=True, width="stretch", key=key, column_config=config, placeholder=tables.PLACEHOLDER, **kwargs
     )
+    # formula-like text gets a leading ' (milepost.validate.cells) unless the sidebar's option keeps it raw;
+    # the toggle is drawn at the end of the run, its state is the one of the run before
+    raw = bool(st.session_state.get(CSV_RAW, False))
     st.download_button(
         "CSV",
-        # formula-like text gets a leading ' (milepost.validate.cells) unless the sidebar's option keeps it raw;
-        # the toggle is drawn at the end of the run, its state is the one of the run before
-        data=csv_bytes(df, raw_text=bool(st.session_state.get(CSV_RAW, False))),
+        # written only when clicked, like the chart images: every run (a page open, a filter change) would
+        # otherwise serialise every table
+        data=lambda: csv_bytes(df, raw_text=raw),
         file_name=f"{name}.csv",
         mime="text/csv",
         key=f"{key}_csv",
@@ -506,7 +529,7 @@ def outcome_filter(ch: queries.Choices, basis: str = "raw", container: Any = Non
                     placeholder="any",
                 )  # fmt: skip
             spec = replace(spec, mode="range", indicator=indicator or "", low=low, high=high)
-    keys = query(queries.outcome_keys, spec)
+    keys = shared_query(queries.outcome_keys, spec)
     return _describe_outcome(spec, keys, dict(opts.indicators))
 
 
@@ -560,7 +583,7 @@ def net_zero_text(years: pd.Series, searched_to: pd.Series, notes: pd.Series | N
 
 def outdated_warning() -> None:
     """Say so when the stored indicators were computed under older conventions (a migration waits for an ingest)."""
-    reason = query(queries.indicators_outdated)
+    reason = shared_query(queries.indicators_outdated)
     if reason is not None:
         st.warning(f"Indicators may not match the definitions shown here: {reason}.", icon=":material/history:")
 

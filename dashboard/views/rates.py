@@ -10,7 +10,7 @@ from milepost.dashboard import charts, headlines, queries, ui
 ch, sel = ui.results_page("Rates")
 base = ch.base_year
 
-periods = ui.query(queries.rate_periods, sel.variable, sel.region)
+periods = ui.shared_query(queries.rate_periods, sel.variable, sel.region)
 after = [p for p in periods if p[0] >= sel.year]
 if periods and not after:
     st.caption(f"No stored period starts in or after {sel.year}: every stored period is offered.")
@@ -43,9 +43,9 @@ with c2:
     )
 period = after[names.index(period_name)]
 
-edges = ui.query(queries.band_edges, sel)
+edges = ui.shared_query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)
-df = ui.label_bands(ui.query(queries.rates, sel, *period), labels)
+df = ui.label_bands(ui.shared_query(queries.rates, sel, *period), labels)
 units = df.groupby("kind")["unit"].first().to_dict() if not df.empty else {}
 linear_unit = str(units.get(linear, "%/yr"))
 df["rate"] = df["kind"].map(queries.RATE_LABELS) + " [" + df["unit"].fillna("") + "]"
@@ -118,7 +118,7 @@ ui.table(
 with st.expander("Every scenario's rates (all four kinds)"):
     wide = df.pivot(index=["model", "scenario", "band_label", "band_value"], columns="rate", values="value")
     wide = wide.reset_index().rename_axis(columns=None)
-    band_unit = ui.query(queries.variable_unit, sel.variable)
+    band_unit = ui.shared_query(queries.variable_unit, sel.variable)
     ui.table(
         wide, f"rates_{period[0]}_{period[1]}", "rates_scenarios", columns={"band_value": f"{sel.year} [{band_unit}]"}
     )

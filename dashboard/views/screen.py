@@ -9,13 +9,13 @@ from milepost.dashboard import charts, queries, tables, ui
 ch, sel = ui.results_page("Screen")
 ui.caution()
 
-edges = ui.query(queries.band_edges, sel)
+edges = ui.shared_query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)
 later = [y for y in ch.milestones if y > sel.year]
 df = ui.label_bands(
-    ui.query(queries.screen_table, sel, ch.base_year, later[0] if later else None, ch.attributes), labels
+    ui.shared_query(queries.screen_table, sel, ch.base_year, later[0] if later else None, ch.attributes), labels
 )
-unit = ui.query(queries.variable_unit, sel.variable)
+unit = ui.shared_query(queries.variable_unit, sel.variable)
 
 if df.empty:
     st.warning("No scenario matches these filters.")
