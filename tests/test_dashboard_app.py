@@ -506,7 +506,7 @@ def test_selfcheck_bomb_upload_gives_a_finding_and_the_app_stays_responsive(demo
     at.file_uploader(key="check_files").set_value([(slow.name, slow.read_bytes(), "text/csv")]).run()
     assert not at.exception, [e.message for e in at.exception]
     assert any("time budget" in e.value for e in at.error)
-    assert frame(at, "how to fix")["rule"].tolist() == ["limit-exceeded"]
+    assert frame(at, "how to fix")["rule"].tolist() == ["check-aborted"]
     assert not Path(first_dir).exists()  # the previous upload's folder is gone
     monkeypatch.delenv("MILEPOST_SELFCHECK_SECONDS")
 
