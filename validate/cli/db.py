@@ -218,7 +218,9 @@ def submissions_cmd(
     every = submissions(default_db_path(db))
     rows = listed(every, show_all)
     if fmt is TextJson.json:
-        _echo_json(rows)
+        # `version` stays a number (null when rejected) for scripts; `version_label` is what the text and the
+        # dashboard show
+        _echo_json([r | {"version_label": version_label(r["version"])} for r in rows])
         return
     if not every:
         echo("No submissions yet.")
