@@ -195,3 +195,26 @@ def test_no_cost_indicator_for_a_scenario_in_a_reference_cycle(core):
         assert x == [(pytest.approx((130.0 - 90.0) / 130.0 * 100),)]  # (ref - scen) / ref * 100, by hand
     finally:
         con.close()
+
+
+def test_one_walk_finds_the_cycles_for_the_check_and_the_costs():
+    """The shared walk: a self-reference (1 step), a pair (2), a triangle (3), a scenario leading into a circle it
+    is not part of (not cyclic), a chain ending at a no-policy run, and the same names under another model."""
+    from milepost.validate.reference_cycles import cyclic_scenarios
+
+    links = [
+        ("M", "self", "self"),
+        ("M", "a", "b"),
+        ("M", "b", "a"),
+        ("M", "t1", "t2"),
+        ("M", "t2", "t3"),
+        ("M", "t3", "t1"),
+        ("M", "into", "a"),
+        ("M", "policy", "base"),
+        ("N", "a", "b"),  # N's b names nothing: no cycle in N
+    ]
+    con = duckdb.connect()
+    con.execute("CREATE TEMP TABLE l (model VARCHAR, scenario VARCHAR, reference VARCHAR)")
+    con.executemany("INSERT INTO l VALUES (?, ?, ?)", links)
+    got = con.execute(f"SELECT * FROM ({cyclic_scenarios('SELECT * FROM l')}) ORDER BY ALL").fetchall()
+    assert got == [("M", "a", 2), ("M", "b", 2), ("M", "self", 1), ("M", "t1", 3), ("M", "t2", 3), ("M", "t3", 3)]
