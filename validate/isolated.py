@@ -190,9 +190,9 @@ def _child(argv: list[str]) -> int:
     # DuckDB allocates outside Python's heap: give it a share of the budget so it fails cleanly, not by signal.
     con.execute(f"SET memory_limit = '{max(64, (memory >> 20) // 3)}MB'")
     con.execute("SET threads = 2")
-    # an in-memory database spills into `.tmp` of the working directory (the server's): keep it in out_dir,
-    # which the caller removes
-    con.execute(f"SET temp_directory = {literal(str(out_dir / 'duckdb-tmp'))}")
+    # spills go into out_dir, which the caller removes: the process's own spill folder (validate/memory.py) is
+    # removed at exit, which a child killed by its budget never reaches
+    con.execute("SET temp_directory = ?", [str(out_dir / "duckdb-tmp")])
     result = run_check([Path(p) for p in argv[3:]], contract, con=con)
     (out_dir / "report.json").write_text(reports.to_json(result), encoding="utf-8")
     con.execute(f"COPY findings TO {literal(str(out_dir / 'findings.parquet'))} (FORMAT parquet)")
