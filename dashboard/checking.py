@@ -13,7 +13,7 @@ import pandas as pd
 
 from milepost.schema.contract import Contract
 from milepost.validate.findings import FINDING_COLUMNS, SEVERITIES
-from milepost.validate.isolated import check_in_child
+from milepost.validate.isolated import check_in_child, failure_finding
 
 
 class CheckedUpload:
@@ -43,7 +43,7 @@ class CheckedUpload:
             self.counts = {s: 0 for s in SEVERITIES} | {"error": 1}
             self.rows = 0
             self.findings = pd.DataFrame(
-                [{c: None for c in FINDING_COLUMNS} | _failure_finding(child.failure, [n for n, _ in files])]
+                [{c: None for c in FINDING_COLUMNS} | failure_finding(child, [n for n, _ in files])]
             )
             self.json = ""
             return
@@ -64,13 +64,3 @@ class CheckedUpload:
 
     def close(self) -> None:
         shutil.rmtree(self.dir, ignore_errors=True)
-
-
-def _failure_finding(why: str, names: list[str]) -> dict[str, Any]:
-    return {
-        "rule": "limit-exceeded",
-        "severity": "error",
-        "path": ", ".join(names),
-        "message": why,
-        "hint": "Split the submission into smaller files, or check it with `milepost check` on your own machine.",
-    }

@@ -353,14 +353,6 @@ def _year(value: Any, where: str) -> int:
     return value
 
 
-def _optional_year(value: Any, where: str) -> int | None:
-    if value is None:
-        return None
-    if isinstance(value, bool) or not isinstance(value, int):
-        raise ContractError(f"{where}: expected a whole year, got {value!r}")
-    return value
-
-
 def _section(table: Any, name: str, known: Any, where: str) -> dict[str, Any]:
     """A `[name]` table of contract.toml whose keys are all in `known` (its shape only; lint judges the values)."""
     if not isinstance(table, dict):
@@ -381,24 +373,18 @@ def _harmonise_settings(table: Any, where: str) -> Harmonise:
     if not isinstance(patterns, list) or not all(isinstance(p, str) for p in patterns):
         raise ContractError(f"{where}: [harmonise] variables must be a list of names or patterns")
     method = _optional_text(table.get("method"), f"{where}: [harmonise] method")
-    year = _optional_year(table.get("converge_year"), f"{where}: [harmonise] converge_year")
-    return Harmonise(
-        tuple(patterns),
-        method if method is not None else default.method,
-        year if year is not None else default.converge_year,
-    )
+    # TOML has no null: a key left out is the only way to ask for the default
+    year = _year(table.get("converge_year", default.converge_year), f"{where}: [harmonise] converge_year")
+    return Harmonise(tuple(patterns), method if method is not None else default.method, year)
 
 
 def _allocation(table: Any, where: str) -> Allocation:
     """The [allocation] table of contract.toml: types are checked here, the values by contract lint."""
     table = _section(table, "allocation", Allocation.__dataclass_fields__, where)
     default = Allocation()
-    year = _optional_year(table.get("convergence_year"), f"{where}: [allocation] convergence_year")
+    year = _year(table.get("convergence_year", default.convergence_year), f"{where}: [allocation] convergence_year")
     region = _optional_text(table.get("region"), f"{where}: [allocation] region")
-    return Allocation(
-        year if year is not None else default.convergence_year,
-        region if region is not None else default.region,
-    )
+    return Allocation(year, region if region is not None else default.region)
 
 
 def _optional_number(text: str | None, where: str) -> float | None:
@@ -631,7 +617,9 @@ def _resolve(
             regions=str(spec.get("regions", "sum")),
             parts=tuple(parts),
             harmonise=_optional_text(spec.get("harmonise"), f"{vfile}: [{name}] harmonise"),
-            converge_year=_optional_year(spec.get("converge_year"), f"{vfile}: [{name}] converge_year"),
+            converge_year=(
+                _year(spec["converge_year"], f"{vfile}: [{name}] converge_year") if "converge_year" in spec else None
+            ),
         )
     for name, spec in regions.items():
         if not isinstance(spec.get("parts", []), list):

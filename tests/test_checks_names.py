@@ -76,3 +76,15 @@ def test_country_groups_sum_their_iso_codes(tmp_path, check):
     bad = [dict(r, region="FIN") if r["region"] == "SWE" else r for r in rows]
     found = rules_at(check(write_csv(tmp_path / "bad.csv", bad), contract), "unknown-region")
     assert {f.value for f in found} == {"FIN"}
+
+
+def test_several_unknown_names_each_get_their_own_hint(tmp_path, basic, check):
+    # the hints are set in one statement for all names: each must land on its own name, quotes included
+    bad = {"emisions.co2": "emissions.co2", "Energy_Primary_Coal": "energy.primary.coal", "populat'ion": "population"}
+    rows = consistent_rows(basic)
+    for i, name in zip((3, 9, 27), bad, strict=True):
+        rows[i]["variable"] = name
+    rows[40]["variable"] = "zzz.qqq"
+    found = rules_at(check(write_csv(tmp_path / "v.csv", rows), basic), "unknown-variable")
+    assert {f.value: f.expected for f in found} == bad | {"zzz.qqq": "a contract variable"}
+    assert all(f.hint == f"Did you mean {bad[f.value]}?" for f in found if f.value in bad)

@@ -242,3 +242,26 @@ def test_scenario_findings_name_the_physical_line_after_blank_rows_and_rows_with
     result = check([path, table], basic)
     found = {f.rule: f.line for f in result.findings if f.rule in at}
     assert found == at
+
+
+def test_one_walk_finds_the_cycles_for_the_check_and_the_costs():
+    """The shared walk: a self-reference (1 step), a pair (2), a triangle (3), a scenario leading into a circle it
+    is not part of (not cyclic), a chain ending at a no-policy run, and the same names under another model."""
+    from milepost.validate.reference_cycles import cyclic_scenarios
+
+    links = [
+        ("M", "self", "self"),
+        ("M", "a", "b"),
+        ("M", "b", "a"),
+        ("M", "t1", "t2"),
+        ("M", "t2", "t3"),
+        ("M", "t3", "t1"),
+        ("M", "into", "a"),
+        ("M", "policy", "base"),
+        ("N", "a", "b"),  # N's b names nothing: no cycle in N
+    ]
+    con = duckdb.connect()
+    con.execute("CREATE TEMP TABLE l (model VARCHAR, scenario VARCHAR, reference VARCHAR)")
+    con.executemany("INSERT INTO l VALUES (?, ?, ?)", links)
+    got = con.execute(f"SELECT * FROM ({cyclic_scenarios('SELECT * FROM l')}) ORDER BY ALL").fetchall()
+    assert got == [("M", "a", 2), ("M", "b", 2), ("M", "self", 1), ("M", "t1", 3), ("M", "t2", 3), ("M", "t3", 3)]

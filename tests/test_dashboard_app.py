@@ -289,6 +289,7 @@ def test_submissions_fold_retried_rejections_as_the_cli_does(demo_db, tmp_path):
     for flag in ([], ["--all"]):
         out = CliRunner().invoke(app, ["submissions", "--db", str(db), "--format", "json", *flag])
         cli[bool(flag)] = [s["id"] for s in json.loads(out.stdout)]
+        labels = {s["id"]: s["version_label"] for s in json.loads(out.stdout)}
     assert len(cli[True]) == len(cli[False]) + 1
     (first,) = set(cli[True]) - set(cli[False])
     at = open_app(db, "views/submissions.py")
@@ -298,7 +299,8 @@ def test_submissions_fold_retried_rejections_as_the_cli_does(demo_db, tmp_path):
     assert not at.exception, [e.message for e in at.exception]
     shown = frame(at, "version").set_index("submission")
     assert sorted(shown.index) == cli[True]
-    assert shown.loc[first, "version"] == "rejected, no version"
+    assert shown.loc[first, "version"] == "rejected, no version" == labels[first]
+    assert shown["version"].to_dict() == labels  # the page shows the CLI's JSON labels
     assert any(o.startswith(f"#{first} ") for o in at.selectbox(key="subs_id").options)
 
 
@@ -506,7 +508,7 @@ def test_selfcheck_bomb_upload_gives_a_finding_and_the_app_stays_responsive(demo
     at.file_uploader(key="check_files").set_value([(slow.name, slow.read_bytes(), "text/csv")]).run()
     assert not at.exception, [e.message for e in at.exception]
     assert any("time budget" in e.value for e in at.error)
-    assert frame(at, "how to fix")["rule"].tolist() == ["limit-exceeded"]
+    assert frame(at, "how to fix")["rule"].tolist() == ["check-aborted"]
     assert not Path(first_dir).exists()  # the previous upload's folder is gone
     monkeypatch.delenv("MILEPOST_SELFCHECK_SECONDS")
 

@@ -181,3 +181,44 @@ def test_the_dashboards_csv_downloads_neutralise_unless_the_sidebar_keeps_them_r
     assert {r["model"] for r in _csv_download(at, "subs_table")} == {HOSTILE_MODEL}
     at.switch_page("views/screen.py").run()  # the choice holds on the other pages
     assert at.sidebar.toggle(key="csv_raw_text").value is True
+
+
+def test_a_frame_of_mixed_cells_is_neutralised_cell_by_cell() -> None:
+    # object columns mixing text, numbers, None, NaN and bools; a pandas-3 text column with NaN; a repeated index
+    mixed = [HOSTILE_MODEL, 5, None, float("nan"), "-5.2", "@x", True, 1.5, "\t=1", "a=b"]
+    frame = pd.DataFrame(
+        {
+            "mixed": mixed,
+            "text": pd.Series(["+1+2", None, "ok", "-1e-3", "=A1", None, "", "-x", "1", "@"], dtype="str"),
+            "numbers_as_objects": pd.Series([1, 2.5, None, 3, 4, 5, 6, 7, 8, 9], dtype=object),
+            "value": [float(i) for i in range(10)],
+        }
+    )
+    frame.index = [0, 0, 1, 1, 2, 2, 3, 3, 4, 4]
+    out = cells.neutralise_frame(frame)
+    got = out["mixed"].tolist()
+    assert got[:3] == ["'" + HOSTILE_MODEL, 5, None] and pd.isna(got[3])
+    assert got[4:] == ["-5.2", "'@x", True, 1.5, "'\t=1", "a=b"]
+    text = out["text"].tolist()
+    assert [t if isinstance(t, str) else None for t in text] == [
+        "'+1+2",
+        None,
+        "ok",
+        "-1e-3",
+        "'=A1",
+        None,
+        "",
+        "'-x",
+        "1",
+        "'@",
+    ]
+    assert out["numbers_as_objects"].tolist() == frame["numbers_as_objects"].tolist()
+    assert out["value"].tolist() == frame["value"].tolist() and out.index.tolist() == frame.index.tolist()
+    # the same as the one-cell function on every cell
+    for name in frame.columns:
+        expected = [cells.neutralise(v) for v in frame[name]]
+        assert [None if pd.isna(v) else v for v in out[name]] == [None if pd.isna(v) else v for v in expected]
+    assert frame["mixed"].tolist()[0] == HOSTILE_MODEL  # the input is left as it was
+    # a categorical text column (a dashboard frame may hold one) is neutralised too
+    picked = cells.neutralise_frame(pd.DataFrame({"model": pd.Categorical(["=c", "d", "=c"])}))["model"]
+    assert [v if isinstance(v, str) else None for v in picked] == ["'=c", "d", "'=c"]

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pytest
@@ -99,3 +100,24 @@ def test_settings_change_the_contract_hash(tmp_path):
     before = load(contract_dir(tmp_path)).hash
     after = load(contract_dir(tmp_path, '[harmonise]\nmethod = "offset"\n')).hash
     assert before != after
+
+
+@pytest.mark.parametrize("bad", ["true", "2050.5", '"2050"'])
+@pytest.mark.parametrize(
+    ("harmonise", "variable", "where"),
+    [
+        ("[harmonise]\nconverge_year = {}\n", "", "[harmonise] converge_year"),
+        ("[allocation]\nconvergence_year = {}\n", "", "[allocation] convergence_year"),
+        ("", "converge_year = {}\n", "[emissions.z] converge_year"),
+    ],
+)
+def test_every_year_setting_takes_only_a_whole_year(tmp_path, bad, harmonise, variable, where):
+    variables = VARIABLES + '["emissions.z"]\nunit = "Mt CO2/yr"\n' + variable.format(bad)
+    with pytest.raises(ContractError, match=rf"{re.escape(where)}: expected a whole year, got "):
+        load(contract_dir(tmp_path, harmonise.format(bad), variables))
+
+
+def test_year_settings_left_out_take_their_defaults(tmp_path):
+    c = load(contract_dir(tmp_path))
+    assert (c.harmonise.converge_year, c.allocation.convergence_year) == (2050, 2050)
+    assert c.variables["emissions.a"].converge_year is None and c.variables["emissions.d"].converge_year == 2070

@@ -81,7 +81,12 @@ def test_ingest_accept_repeat_reject_and_list(tmp_path: Path, subs) -> None:
     assert "  rejected, no version  " in table[2]
     assert table[0].index("ver") + 3 == table[1].index("v1") + 2  # the column widens, right-aligned
     r = run("submissions", "--db", db, "--format", "json")
-    assert [s["status"] for s in json.loads(r.stdout)] == ["accepted", "rejected", "accepted"]
+    listed = json.loads(r.stdout)
+    assert [s["status"] for s in listed] == ["accepted", "rejected", "accepted"]
+    # JSON keeps the number (null: no version) and carries the label the text table printed above
+    assert [s["version"] for s in listed] == [1, None, 2]
+    assert [s["version_label"] for s in listed] == ["v1", "rejected, no version", "v2"]
+    assert all(f"  {s['version_label']}  " in line for s, line in zip(listed, table[1:], strict=True))
 
 
 def test_export_snapshot_and_diff_commands(tmp_path: Path, subs) -> None:

@@ -4,11 +4,15 @@ when the memory or time budget runs out; the parent always comes back."""
 from __future__ import annotations
 
 import json
+import os
+import sys
+from pathlib import Path
 
 import duckdb
 
 from milepost.validate.bench import bombs
-from milepost.validate.isolated import check_in_child
+from milepost.validate.findings import RULES
+from milepost.validate.isolated import STDERR_TAIL_BYTES, check_in_child, failure_finding, run_child
 
 from builders import consistent_rows, write_csv
 from conftest import BASIC_CONTRACT
@@ -27,6 +31,8 @@ def test_the_child_finds_what_the_checker_finds(tmp_path, check, basic):
     assert stored.fetchall() == sorted((f.rule, f.line) for f in here.findings)
     assert json.loads(child.json_path.read_text())["summary"]["errors"] == here.counts["error"]
     assert child.xlsx_path is not None and child.xlsx_path.stat().st_size > 0
+    # DuckDB spills inside the job's folder, which the caller removes, never into the server's working directory
+    assert Path(child.summary["temp_directory"]).is_relative_to(tmp_path / "out")
 
 
 def test_a_child_beyond_its_time_budget_is_stopped(tmp_path):
@@ -34,6 +40,8 @@ def test_a_child_beyond_its_time_budget_is_stopped(tmp_path):
     child = check_in_child([path], BASIC_CONTRACT, tmp_path / "out", seconds=0.05)
     assert child.failure is not None and "time budget of 0.05 s" in child.failure
     assert child.findings_path is None
+    assert child.failure_kind == "time"
+    assert failure_finding(child, ["empty.csv"])["rule"] == "check-aborted"
 
 
 def test_a_child_beyond_its_memory_budget_says_so(tmp_path):
@@ -42,3 +50,30 @@ def test_a_child_beyond_its_memory_budget_says_so(tmp_path):
     # however it fails (MemoryError, an allocation failure, a signal) and the parent names the budget
     child = check_in_child([path], BASIC_CONTRACT, tmp_path / "out", memory_bytes=150 << 20)
     assert child.failure is not None and "memory budget of 150 MB" in child.failure, child.failure
+    assert child.failure_kind == "memory"
+    finding = failure_finding(child, ["empty.csv"])
+    assert finding["rule"] == "check-aborted" and finding["message"] == child.failure
+
+
+def test_a_crashed_child_is_aborted_not_a_limit_and_names_its_exit_code(tmp_path, basic):
+    path = write_csv(tmp_path / "x.csv", consistent_rows(basic))
+    # a contract folder that is not there: the child fails with a ContractError before it checks anything
+    child = check_in_child([path], tmp_path / "no-contract", tmp_path / "out")
+    assert child.failure_kind == "crash"
+    assert child.failure.startswith("the check crashed (exit code 1: ") and "ContractError" in child.failure
+    finding = failure_finding(child, ["x.csv"])
+    assert finding["rule"] == "check-aborted" and "check-aborted" in RULES
+    assert finding["severity"] == RULES["check-aborted"].severity == "error"
+    assert finding["path"] == "x.csv" and "milepost check" in finding["hint"]
+
+
+def test_a_chatty_child_leaves_only_the_end_of_its_stderr(tmp_path):
+    # 20 MB on stderr, then a last line: the parent keeps the last 64 KiB, with that line, and the exit code
+    script = (
+        "import sys\nfor _ in range(20_000): sys.stderr.write('x' * 999 + '\\n')\n"
+        "sys.stderr.write('END\\n')\nsys.exit(3)"
+    )
+    ran = run_child([sys.executable, "-c", script], 60, dict(os.environ))
+    assert ran.returncode == 3 and not ran.timed_out
+    assert len(ran.stderr_tail) == STDERR_TAIL_BYTES == 64 << 10
+    assert ran.stderr_tail.endswith(b"x\nEND\n")

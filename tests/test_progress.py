@@ -7,7 +7,12 @@ import time
 
 from rich.console import Console
 
-from milepost.validate.progress import Stages
+from milepost.validate.progress import Count, Stages
+from milepost.validate.store.exports import export
+from milepost.validate.store.ingest import ingest
+
+from builders import consistent_rows, write_csv
+from conftest import BASIC_CONTRACT
 
 
 def _terminal() -> tuple[Console, io.StringIO]:
@@ -35,4 +40,23 @@ def test_a_short_command_or_a_pipe_shows_nothing() -> None:
     # standard error of pytest is captured, not a terminal: disabled whatever the time
     piped = Stages("Loading", 3, started=time.perf_counter() - 3)
     piped.step("x")
+    assert not piped.enabled and piped.progress is None
+
+
+def test_an_xlsx_export_counts_its_rows_on_the_same_kind_of_bar(tmp_path, basic) -> None:
+    db = tmp_path / "p.duckdb"
+    assert ingest([write_csv(tmp_path / "d.csv", consistent_rows(basic))], db, BASIC_CONTRACT).status == "accepted"
+    console, out = _terminal()
+    with Count("Exporting", started=time.perf_counter() - 3, console=console) as count:
+        n = export(db, "data", "xlsx", tmp_path / "d.xlsx", progress=count)
+        assert count.progress is not None and count.total == n
+    assert count.progress is None  # gone when done
+    assert "Exporting" in out.getvalue() and f"{n}/{n}" in out.getvalue()
+    # within the delay, or not on a terminal, nothing is drawn
+    console, out = _terminal()
+    with Count("Exporting", console=console, delay=3600) as quiet:
+        export(db, "data", "xlsx", tmp_path / "d.xlsx", progress=quiet)
+    assert out.getvalue() == "" and quiet.progress is None
+    piped = Count("Exporting", started=time.perf_counter() - 3)
+    piped(1, 2)
     assert not piped.enabled and piped.progress is None

@@ -140,3 +140,58 @@ def test_the_dashboards_self_check_reads_a_wide_upload(twins, basic):
         assert "wide-table" in rules and "missing-column" not in rules and "bad-value" in rules
     finally:
         upload.close()
+
+
+def _wide_temp_table(con, path: Path):
+    """The wide TEMP table a reader builds from a wide CSV (every cell as text), and its year columns."""
+    from milepost.validate.sql import literal
+    from milepost.validate.wide import wide_select, year_columns
+
+    header = list(pd.read_csv(path, nrows=0).columns)
+    years = year_columns(header, {k: k for k in KEYS})
+    src = f"read_csv({literal(str(path))}, header = true, all_varchar = true)"
+    con.execute(f"CREATE TEMP TABLE w AS {wide_select({k: k for k in KEYS}, years, header, src, 'NULL::BIGINT')}")
+    return years
+
+
+def test_the_row_limit_counts_the_long_rows_a_wide_table_makes(tmp_path, basic):
+    import duckdb
+
+    from milepost.validate.wide import fit_long_rows, long_source
+
+    wide = _wide(consistent_rows(basic)).head(6)
+    wide.loc[1, "2050"] = None  # an empty cell makes no long row
+    path = tmp_path / "w.csv"
+    wide.to_csv(path, index=False)
+    # independent count of the long rows each wide row ends at: pandas over the same frame
+    upto = wide[[c for c in wide.columns if c.isdigit()]].notna().sum(axis=1).cumsum().tolist()
+    assert upto == [4, 7, 11, 15, 19, 23]
+    con = duckdb.connect()
+    years = _wide_temp_table(con, path)
+    assert fit_long_rows(con, "w", years, max_rows=23) is None  # exactly at the limit: all of it
+    why = fit_long_rows(con, "w", years, max_rows=12)
+    # 6 wide rows are fewer than 12, but their 23 long rows are not: the first 3 rows (11 long rows) are kept
+    assert why == (
+        "more than 12 rows (max_rows, counted as long rows: one per non-empty year cell; the wide table holds 23): "
+        "only its first 3 rows (11 long rows) were read"
+    )
+    assert con.execute(f"SELECT count(*), max(line) FROM {long_source('w', years)}").fetchall() == [(11, 4)]
+
+
+@pytest.mark.xfail(
+    strict=True,
+    reason="validate/readers.py (the lead's, not touched here) does not call wide.fit_long_rows yet: "
+    "_wide_to_long(con, inp, table, limits) needs `if why := fit_long_rows(con, table, inp.wide, limits.max_rows): "
+    "inp.limits_hit.append(why)` before it unpivots",
+)
+def test_a_wide_file_beyond_max_rows_in_long_rows_is_a_limit_finding(tmp_path, check):
+    from test_limits import limited
+
+    contract = limited(tmp_path, max_rows=12)
+    wide = _wide(consistent_rows(contract)).head(6)
+    path = tmp_path / "w.csv"
+    wide.to_csv(path, index=False)
+    result = check(path, contract)
+    (f,) = rules_at(result, "limit-exceeded")
+    assert "counted as long rows" in f.message
+    assert result.rows == 12

@@ -74,9 +74,22 @@ def neutralise_frame(frame: Any) -> Any:
         column = out[name]
         if column.dtype.kind in "biufcmM":
             continue
-        texts = column.map(lambda v: isinstance(v, str) and formula_like(v))
-        if bool(texts.any()):
-            out[name] = column.map(neutralise).astype(object)
+        try:
+            text = column.str
+        except AttributeError:  # not one text in the column (only numbers, None, lists ...): nothing to do
+            continue
+        # cells that are not text come out of the string methods as NA, which `na=False` makes "no formula"
+        starts = text.startswith(FORMULA_START, na=False).to_numpy(dtype=bool)
+        if not starts.any():
+            continue
+        maybe = column[starts]
+        formula = ~maybe.str.fullmatch(_PLAIN_NUMBER.pattern, na=False).to_numpy(dtype=bool)
+        if not formula.any():
+            continue
+        values = column.astype(object)
+        # by position, not index label: a frame's index may repeat
+        values.iloc[starts.nonzero()[0][formula]] = ("'" + maybe[formula].astype(object)).to_numpy()
+        out[name] = values
     return out
 
 

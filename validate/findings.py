@@ -38,6 +38,13 @@ RULES: dict[str, Rule] = {
             "it was read only up to the limit.",
         ),
         Rule(
+            "check-aborted",
+            "error",
+            "data",
+            "The check in a child process (the dashboard's Self-check) did not finish: it went beyond its memory "
+            "or time budget, or crashed; the message says which. Nothing was checked.",
+        ),
+        Rule(
             "control-character",
             "error",
             "data",

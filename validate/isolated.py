@@ -3,8 +3,8 @@
 The dashboard's Self-check runs every upload through `check_in_child`: the child sets its own address-space limit
 (RLIMIT_AS) before it reads anything and DuckDB's memory limit below it, and the parent kills it when the time
 budget is spent. Whatever happens in the child (a limit, a crash, a kill), the parent gets a `ChildCheck` with
-the findings (or one finding saying which budget ran out), and the files the child wrote stay in `out_dir` for
-the caller to remove.
+the findings, or with `failure` saying what stopped it (`failure_finding`: one `check-aborted` finding). The
+files the child wrote, DuckDB's spill files among them, stay in `out_dir` for the caller to remove.
 
     python -m milepost.validate.isolated OUT_DIR CONTRACT_DIR MEMORY_BYTES FILE...   (the child's side)
 """
@@ -16,9 +16,10 @@ import os
 import signal
 import subprocess
 import sys
+import threading
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import IO, Any
 
 from milepost.validate.cells import one_line
 
@@ -26,6 +27,8 @@ DEFAULT_MEMORY_MB = 2048
 DEFAULT_SECONDS = 120
 ENV_MEMORY = "MILEPOST_SELFCHECK_MEMORY_MB"
 ENV_SECONDS = "MILEPOST_SELFCHECK_SECONDS"
+STDERR_TAIL_BYTES = 64 << 10  # of the child's stderr, enough for a traceback and DuckDB's advice
+ABORTED_RULE = "check-aborted"
 
 
 def budget() -> tuple[int, float]:
@@ -45,6 +48,7 @@ class ChildCheck:
     json_path: Path | None = None
     xlsx_path: Path | None = None
     failure: str | None = None
+    failure_kind: str | None = None  # "memory", "time" or "crash"
 
 
 def check_in_child(
@@ -56,39 +60,19 @@ def check_in_child(
     seconds = seconds or default_seconds
     out_dir.mkdir(parents=True, exist_ok=True)
     cmd = [sys.executable, "-m", "milepost.validate.isolated", str(out_dir), str(contract_dir), str(memory_bytes)]
-    # A session of its own, so a kill reaches DuckDB's threads and anything the child started.
-    proc = subprocess.Popen(  # noqa: S603 - our own interpreter and module, paths as separate arguments
-        [*cmd, *map(str, paths)],
-        stdout=subprocess.DEVNULL,
-        stderr=subprocess.PIPE,
-        start_new_session=True,
-        # Thread pools reserve address space per thread (OpenBLAS through numpy, glibc's malloc arenas): with a
-        # budget on address space, one thread each leaves the budget to the data.
-        env={**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MALLOC_ARENA_MAX": "2"},
-    )
-    try:
-        _, err = proc.communicate(timeout=seconds)
-    except subprocess.TimeoutExpired:
-        os.killpg(proc.pid, signal.SIGKILL)
-        proc.communicate()
+    # Thread pools reserve address space per thread (OpenBLAS through numpy, glibc's malloc arenas): with a
+    # budget on address space, one thread each leaves the budget to the data.
+    env = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MALLOC_ARENA_MAX": "2"}
+    ran = run_child([*cmd, *map(str, paths)], seconds, env)
+    if ran.timed_out:
         return ChildCheck(
             failure=f"the check took longer than its time budget of {seconds:g} s and was stopped "
-            f"(${ENV_SECONDS} raises it)"
+            f"(${ENV_SECONDS} raises it)",
+            failure_kind="time",
         )
-    lines = err.decode("utf-8", "replace").strip().splitlines() if err else []
-    tail = lines[-1:]
-    if proc.returncode != 0 or not (out_dir / "summary.json").exists():
-        # DuckDB's out-of-memory error ends with several lines of advice after the one that says what happened
-        text = " ".join(lines[-20:]).lower()
-        if proc.returncode in (-signal.SIGKILL, -signal.SIGSEGV) or any(
-            w in text for w in ("memoryerror", "out of memory", "cannot allocate", "memory allocation")
-        ):
-            why = f"the check needed more than its memory budget of {memory_bytes >> 20:,} MB (${ENV_MEMORY} raises it)"
-        else:
-            # the child's last line may quote a cell or a path: shown on one line, escaped and shortened
-            last = one_line(tail[0])[:300] if tail else ""
-            why = f"the check stopped (exit {proc.returncode}{': ' + last if last else ''})"
-        return ChildCheck(failure=why)
+    lines = ran.stderr_tail.decode("utf-8", "replace").strip().splitlines()
+    if ran.returncode != 0 or not (out_dir / "summary.json").exists():
+        return _failed(ran.returncode, lines, memory_bytes)
     xlsx = out_dir / "report.xlsx"
     return ChildCheck(
         summary=json.loads((out_dir / "summary.json").read_text(encoding="utf-8")),
@@ -96,6 +80,95 @@ def check_in_child(
         json_path=out_dir / "report.json",
         xlsx_path=xlsx if xlsx.exists() else None,
     )
+
+
+@dataclass(frozen=True)
+class Ran:
+    """How a child process ended: its exit code (negative: the signal), the end of its stderr, and whether the
+    time budget stopped it."""
+
+    returncode: int
+    stderr_tail: bytes
+    timed_out: bool
+
+
+def run_child(cmd: list[str], seconds: float, env: dict[str, str], keep: int = STDERR_TAIL_BYTES) -> Ran:
+    """Run `cmd` in a session of its own for at most `seconds`, keeping only the last `keep` bytes of its stderr."""
+    # A session of its own, so a kill reaches DuckDB's threads and anything the child started.
+    proc = subprocess.Popen(  # noqa: S603 - callers pass our own interpreter and module, paths as separate arguments
+        cmd,
+        stdin=subprocess.DEVNULL,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+        start_new_session=True,
+        env=env,
+    )
+    tail = bytearray()
+    # drained beside the wait, so a chatty child neither blocks on a full pipe nor fills the parent's memory
+    reader = threading.Thread(target=_drain, args=(proc.stderr, tail, keep), daemon=True)
+    reader.start()
+    timed_out = False
+    try:
+        proc.wait(timeout=seconds)
+    except subprocess.TimeoutExpired:
+        timed_out = True
+        os.killpg(proc.pid, signal.SIGKILL)
+        proc.wait()
+    # a grandchild that left the session could hold the pipe open: do not wait for it forever
+    reader.join(timeout=5)
+    return Ran(proc.returncode, bytes(tail[-keep:]), timed_out)
+
+
+def _drain(stream: IO[bytes], tail: bytearray, keep: int) -> None:
+    with stream:
+        while chunk := stream.read(1 << 16):
+            tail += chunk
+            if len(tail) > 2 * keep:
+                del tail[:-keep]
+
+
+def _failed(returncode: int, lines: list[str], memory_bytes: int) -> ChildCheck:
+    """Why the child ended without its results, from its exit code and the end of its stderr."""
+    budget_words = f"its memory budget of {memory_bytes >> 20:,} MB (${ENV_MEMORY} raises it)"
+    # DuckDB's out-of-memory error ends with several lines of advice after the one that says what happened
+    text = " ".join(lines[-20:]).lower()
+    if any(w in text for w in ("memoryerror", "out of memory", "cannot allocate", "memory allocation")):
+        return ChildCheck(failure=f"the check needed more than {budget_words}", failure_kind="memory")
+    if returncode in (-signal.SIGKILL, -signal.SIGSEGV):
+        # under an address-space limit a failed allocation in C code ends in SIGSEGV, and the kernel's
+        # out-of-memory killer sends SIGKILL: both are most likely the budget, but the message says what was seen
+        name = signal.Signals(-returncode).name
+        return ChildCheck(
+            failure=f"the check was killed by {name}, most likely for needing more than {budget_words}",
+            failure_kind="memory",
+        )
+    # the child's last line may quote a cell or a path: shown on one line, escaped and shortened
+    last = one_line(lines[-1])[:300] if lines else ""
+    if returncode < 0:
+        how = f"killed by signal {signal.Signals(-returncode).name}"
+    elif returncode:
+        how = f"exit code {returncode}"
+    else:
+        how = "exit code 0 without its results"
+    return ChildCheck(failure=f"the check crashed ({how}{': ' + last if last else ''})", failure_kind="crash")
+
+
+_HINTS = {
+    "memory": "Split the submission into smaller files, or check it with `milepost check` on your own machine.",
+    "time": "Split the submission into smaller files, or check it with `milepost check` on your own machine.",
+    "crash": "Check the files with `milepost check` on your own machine; if that fails too, report the message.",
+}
+
+
+def failure_finding(child: ChildCheck, names: list[str]) -> dict[str, Any]:
+    """The one finding that stands for a child that did not finish (rule `check-aborted`), for files `names`."""
+    return {
+        "rule": ABORTED_RULE,
+        "severity": "error",
+        "path": ", ".join(names),
+        "message": child.failure,
+        "hint": _HINTS.get(child.failure_kind or "crash", _HINTS["crash"]),
+    }
 
 
 def _child(argv: list[str]) -> int:
@@ -117,6 +190,9 @@ def _child(argv: list[str]) -> int:
     # DuckDB allocates outside Python's heap: give it a share of the budget so it fails cleanly, not by signal.
     con.execute(f"SET memory_limit = '{max(64, (memory >> 20) // 3)}MB'")
     con.execute("SET threads = 2")
+    # spills go into out_dir, which the caller removes: the process's own spill folder (validate/memory.py) is
+    # removed at exit, which a child killed by its budget never reaches
+    con.execute("SET temp_directory = ?", [str(out_dir / "duckdb-tmp")])
     result = run_check([Path(p) for p in argv[3:]], contract, con=con)
     (out_dir / "report.json").write_text(reports.to_json(result), encoding="utf-8")
     con.execute(f"COPY findings TO {literal(str(out_dir / 'findings.parquet'))} (FORMAT parquet)")
@@ -126,6 +202,7 @@ def _child(argv: list[str]) -> int:
         "usable_rows": result.usable_rows,
         "truncated": result.truncated,
         "rule_counts": result.rule_counts,
+        "temp_directory": con.execute("SELECT current_setting('temp_directory')").fetchall()[0][0],
     }
     try:
         reports.to_xlsx(result, out_dir / "report.xlsx")

@@ -84,6 +84,30 @@ def long_source(table: str, years: Sequence[YearColumn]) -> str:
     )
 
 
+def fit_long_rows(con: duckdb.DuckDBPyConnection, table: str, years: Sequence[YearColumn], max_rows: int) -> str | None:
+    """Keep the wide TEMP `table` within `max_rows` long rows (one per non-empty year cell, as `long_source` makes
+    them): count the cells of each wide row before anything is unpivoted, delete the rows from the first one that
+    would go beyond the limit, and say so (the text of a `limit-exceeded` finding); None when everything fits.
+    The limit is the contract's on long rows: 100,000 wide rows of 90 years are 9 million of them."""
+    if not years:
+        return None
+    cells = " + ".join(f"(coalesce(trim({y.source}), '') <> '')::BIGINT" for y in years)
+    # one pass over the wide rows (at most max_rows of them): a running count of the long rows each one ends at
+    first_over, total, kept_rows, kept_long = con.execute(
+        f"SELECT min(rowid) FILTER (WHERE upto > $max), max(upto), count(*) FILTER (WHERE upto <= $max), "  # noqa: S608 - generated names
+        f"coalesce(max(upto) FILTER (WHERE upto <= $max), 0) "
+        f"FROM (SELECT rowid, sum({cells}) OVER (ORDER BY rowid ROWS UNBOUNDED PRECEDING) AS upto FROM {table})",
+        {"max": max_rows},
+    ).fetchall()[0]
+    if first_over is None:
+        return None
+    con.execute(f"DELETE FROM {table} WHERE rowid >= ?", [first_over])  # noqa: S608 - generated names
+    return (
+        f"more than {max_rows:,} rows (max_rows, counted as long rows: one per non-empty year cell; the wide table "
+        f"holds {int(total):,}): only its first {int(kept_rows):,} rows ({int(kept_long):,} long rows) were read"
+    )
+
+
 def note(years: Sequence[YearColumn]) -> str:
     """The note a wide table's input gets in the report."""
     ys = sorted(y.year for y in years)
@@ -114,4 +138,4 @@ def locate_findings(con: duckdb.DuckDBPyConnection, inputs: Sequence[Any]) -> No
     )
 
 
-__all__ = ["YearColumn", "locate_findings", "long_source", "note", "wide_select", "year_columns"]
+__all__ = ["YearColumn", "fit_long_rows", "locate_findings", "long_source", "note", "wide_select", "year_columns"]

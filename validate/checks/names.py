@@ -40,9 +40,14 @@ def _hints_table(ctx: Context, table: str, column: str, known_sql: str, known: l
             [ctx.contract.limits.hinted_names],
         ).fetchall()
     ]
-    hints = [(h, n) for n in sample if (h := suggest(n, known)) is not None]
+    hints = {n: h for n in sample if (h := suggest(n, known)) is not None}
     if hints:
-        con.executemany(f"UPDATE {table} SET suggestion = ? WHERE name = ?", hints)  # noqa: S608 - names from the code
+        # one statement for all of them: the two lists bound as parameters and unnested side by side
+        con.execute(
+            f"UPDATE {table} AS t SET suggestion = h.suggestion FROM (SELECT unnest(?::VARCHAR[]) AS name, "  # noqa: S608 - names from the code; names and hints bound
+            "unnest(?::VARCHAR[]) AS suggestion) AS h WHERE t.name = h.name",
+            [list(hints), list(hints.values())],
+        )
     unknown = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - names from the code
     if not unknown:
         return 0, 0

@@ -10,6 +10,7 @@ partial revision may name a reference stored before.
 from __future__ import annotations
 
 from milepost.validate.checks.context import Context
+from milepost.validate.reference_cycles import cyclic_scenarios
 
 _WHERE = "l.path, l.sheet, l.line, l.model, l.scenario"
 # the data scenarios of a model, for `expected` (the first few, sorted)
@@ -112,14 +113,7 @@ def check_reference_cycle(ctx: Context) -> list[str]:
         "SELECT model, scenario, reference FROM s_known k WHERE reference IS NOT NULL AND NOT EXISTS "
         "(SELECT 1 FROM s_listed l WHERE l.model = k.model AND l.scenario = k.scenario)"
     )
-    cyclic = (
-        f"WITH RECURSIVE links AS ({links}), walk(model, start, cur, steps) AS ("  # noqa: S608 - names from the code
-        "SELECT model, scenario, reference, 1 FROM links UNION ALL "
-        "SELECT w.model, w.start, k.reference, w.steps + 1 FROM walk w JOIN links k "
-        "ON k.model = w.model AND k.scenario = w.cur "
-        "WHERE w.cur <> w.start AND w.steps <= (SELECT count(*) FROM links)) "
-        "SELECT model, start AS scenario, min(steps) AS steps FROM walk WHERE cur = start GROUP BY ALL"
-    )
+    cyclic = cyclic_scenarios(links)
     return [
         f"SELECT 'reference-cycle' AS rule, {_WHERE}, 'reference' AS column_name, l.reference AS value, "  # noqa: S608 - names from the code
         "'another scenario (the no-policy run)' AS expected, "

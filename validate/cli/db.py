@@ -2,11 +2,7 @@
 
 from __future__ import annotations
 
-import contextlib
 import json
-import sys
-import time
-from collections.abc import Callable, Iterator
 from enum import StrEnum
 from pathlib import Path
 from typing import TYPE_CHECKING, Annotated, Any
@@ -218,7 +214,9 @@ def submissions_cmd(
     every = submissions(default_db_path(db))
     rows = listed(every, show_all)
     if fmt is TextJson.json:
-        _echo_json(rows)
+        # `version` stays a number (null when rejected) for scripts; `version_label` is what the text and the
+        # dashboard show
+        _echo_json([r | {"version_label": version_label(r["version"])} for r in rows])
         return
     if not every:
         echo("No submissions yet.")
@@ -297,13 +295,14 @@ def export_cmd(
     ] = False,
 ) -> None:
     """Export data, indicators, findings or delay pairs as CSV, Parquet or XLSX."""
+    from milepost.validate.progress import Count
     from milepost.validate.store.database import default_db_path, warn
     from milepost.validate.store.exports import Filters, export
 
     filters = Filters(model or (), scenario or (), region or (), variable or (), submission or (), basis.value)
     path = default_db_path(db)
     rule = _pair_rule(path, contract, likelihood) if what is What.pairs else None
-    with progress_bar("exporting") as progress:
+    with Count("Exporting") as progress:
         n = export(
             path,
             what.value,
@@ -319,42 +318,6 @@ def export_cmd(
     if rule is not None:
         echo(rule.describe(), err=True)
     echo(f"Wrote {n:,} rows to {output}.", err=True)
-
-
-@contextlib.contextmanager
-def progress_bar(label: str, after: float = 1.0) -> Iterator[Callable[[int, int], None]]:
-    """A `progress(done, total)` callback that draws a bar on stderr once the work has taken `after` seconds;
-    silent when stderr is not a terminal (CI logs, pipes)."""
-    if not sys.stderr.isatty():
-        yield lambda done, total: None
-        return
-    from rich.console import Console
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
-
-    start = time.monotonic()
-    bar = Progress(
-        TextColumn(label),
-        BarColumn(),
-        MofNCompleteColumn(),
-        TimeElapsedColumn(),
-        console=Console(stderr=True),
-        transient=True,
-    )
-    task: list[Any] = []
-
-    def update(done: int, total: int) -> None:
-        if not task:
-            if time.monotonic() - start < after:
-                return
-            bar.start()
-            task.append(bar.add_task(label, total=total))
-        bar.update(task[0], completed=done, total=total)
-
-    try:
-        yield update
-    finally:
-        if task:
-            bar.stop()
 
 
 def _pair_rule(db: Path, contract: Path | None, likelihood: str) -> PairRule:

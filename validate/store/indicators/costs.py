@@ -22,6 +22,7 @@ Costs are model results: they exclude avoided climate damages and co-benefits.
 
 from __future__ import annotations
 
+from milepost.validate.reference_cycles import cyclic_scenarios
 from milepost.validate.store.indicators.base import Kind, Tables, cagr, frame, head
 
 # Which reference a loss was measured against, in words, for the `note` column (aliases as in `frame`).
@@ -37,14 +38,7 @@ def not_cyclic(t: Tables) -> str:
     """WHERE clause leaving out series of scenarios that name themselves as reference or whose references lead
     back to them (rule reference-cycle): measured against themselves their losses would read as 0, a real value."""
     links = f"SELECT DISTINCT model, scenario, reference FROM {t.series} WHERE reference IS NOT NULL"
-    cyclic = (
-        f"WITH RECURSIVE links AS ({links}), walk(model, start, cur, steps) AS ("
-        "SELECT model, scenario, reference, 1 FROM links UNION ALL "
-        "SELECT w.model, w.start, k.reference, w.steps + 1 FROM walk w JOIN links k "
-        "ON k.model = w.model AND k.scenario = w.cur "
-        "WHERE w.cur <> w.start AND w.steps <= (SELECT count(*) FROM links)) "
-        "SELECT DISTINCT model, start AS scenario FROM walk WHERE cur = start"
-    )
+    cyclic = cyclic_scenarios(links)
     return f" WHERE NOT EXISTS (SELECT 1 FROM ({cyclic}) cy WHERE cy.model = s.model AND cy.scenario = s.scenario)"
 
 
