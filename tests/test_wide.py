@@ -178,12 +178,6 @@ def test_the_row_limit_counts_the_long_rows_a_wide_table_makes(tmp_path, basic):
     assert con.execute(f"SELECT count(*), max(line) FROM {long_source('w', years)}").fetchall() == [(11, 4)]
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="validate/readers.py (the lead's, not touched here) does not call wide.fit_long_rows yet: "
-    "_wide_to_long(con, inp, table, limits) needs `if why := fit_long_rows(con, table, inp.wide, limits.max_rows): "
-    "inp.limits_hit.append(why)` before it unpivots",
-)
 def test_a_wide_file_beyond_max_rows_in_long_rows_is_a_limit_finding(tmp_path, check):
     from test_limits import limited
 

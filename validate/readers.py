@@ -258,7 +258,7 @@ def _read_csv(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, table:
     if d.decimal_comma and "value" in by_position:
         _ambiguous_commas(con, inp, path, options, positional, by_position["value"], table)
     if inp.wide:
-        _wide_to_long(con, inp, table, d.decimal_comma)
+        _wide_to_long(con, inp, table, limits, d.decimal_comma)
     inp.rows = con.execute(f"SELECT count(*) FROM {table}").fetchall()[0][0]  # noqa: S608 - generated names; headers and paths via validate.sql
 
 
@@ -393,8 +393,13 @@ def _set_columns(inp: InputFile, found: dict[str, str], extra: list[str], header
         inp.notes.append(wide_table.note(inp.wide))
 
 
-def _wide_to_long(con: duckdb.DuckDBPyConnection, inp: InputFile, table: str, decimal_comma: bool = False) -> None:
-    """Replace the wide TEMP `table` a reader built (see `milepost.validate.wide`) by the long table."""
+def _wide_to_long(
+    con: duckdb.DuckDBPyConnection, inp: InputFile, table: str, limits: Limits, decimal_comma: bool = False
+) -> None:
+    """Replace the wide TEMP `table` a reader built (see `milepost.validate.wide`) by the long table, within the
+    row limit counted in long rows (decided before unpivoting, so memory stays bounded)."""
+    if why := wide_table.fit_long_rows(con, table, inp.wide, limits.max_rows):
+        inp.limits_hit.append(why)
     con.execute(f"ALTER TABLE {table} RENAME TO {table}_wide")
     source = wide_table.long_source(f"{table}_wide", inp.wide)
     cols = {c: c for c in LONG_COLUMNS}
@@ -491,7 +496,7 @@ def _read_xlsx(
     finally:
         con.unregister(view)
     if inp.wide:
-        _wide_to_long(con, inp, table)
+        _wide_to_long(con, inp, table, limits)
     return extra_inputs
 
 
@@ -527,7 +532,7 @@ def _read_parquet(con: duckdb.DuckDBPyConnection, inp: InputFile, path: Path, ta
     if inp.wide:
         select = wide_table.wide_select(found, inp.wide, header, src, "file_row_number + 1")
         con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {select}")
-        _wide_to_long(con, inp, table)
+        _wide_to_long(con, inp, table, limits)
     else:
         con.execute(f"CREATE OR REPLACE TEMP TABLE {table} AS {_typed_select(found, src, 'file_row_number + 1')}")
     total = con.execute("SELECT count(*) FROM read_parquet(?)", [str(path)]).fetchall()[0][0]
