@@ -25,7 +25,7 @@ def repeated_rows(con: duckdb.DuckDBPyConnection, table: str, path: str, sheet: 
     frame = con.execute(f"SELECT * FROM {table} ORDER BY line").df()  # noqa: S608 - generated names
     kept, findings = validate_scenarios(frame, path, sheet)
     dropped = sorted(set(frame["line"]) - set(kept["line"]))
-    con.executemany(f"DELETE FROM {table} WHERE line = ?", [(int(n),) for n in dropped])  # noqa: S608 - generated names
+    con.execute(f"DELETE FROM {table} WHERE list_contains(?, line)", [[int(n) for n in dropped]])  # noqa: S608 - generated names
     return findings
 
 
