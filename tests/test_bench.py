@@ -11,7 +11,7 @@ import pytest
 from milepost.validate.bench import check, ingest
 from milepost.validate.bench.__main__ import main
 from milepost.validate.bench.files import PER_SCENARIO, clean_submission, dirty_submission
-from milepost.validate.bench.timing import Run, ratio_step, table
+from milepost.validate.bench.timing import Run, ratio_step, run_once, table
 
 pytestmark = pytest.mark.slow
 
@@ -25,6 +25,20 @@ def test_ratio_step_takes_medians_and_the_largest_peak() -> None:
     assert ratio_step("x", 10, jobs, floors, "floor", 2.0).met is True
     lines = table([s]).splitlines()
     assert lines[0].split("|")[1].strip() == "step" and "NO" in lines[2]
+
+
+def test_peak_memory_is_the_jobs_own_not_the_bench_process() -> None:
+    """Linux carries a forked child's starting size (its parent's) into its peak: a bench grown to 300 MiB must not
+    report a 30 MiB job as 300 MiB. The bound is from the job's own allocation plus an interpreter (about 10 MiB)."""
+    import sys
+
+    held = bytearray(300 << 20)
+    held[::4096] = b"\1" * len(held[::4096])  # touch every page so it is resident
+    job = "x = bytearray(30 << 20); x[::4096] = b'\\1' * len(x[::4096])"
+    run = run_once([sys.executable, "-c", job])
+    assert 30 <= run.peak_mb < 120, run
+    assert run_once([sys.executable, "-c", "import sys; sys.exit(3)"], ok=(3,)).exit == 3
+    del held
 
 
 def test_dirty_file_breaks_thirty_percent_of_rows(tmp_path: Path) -> None:

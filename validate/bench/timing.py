@@ -12,7 +12,6 @@ import statistics
 import subprocess
 import sys
 import tempfile
-import time
 from collections.abc import Callable, Sequence
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
@@ -49,6 +48,18 @@ class Run:
     exit: int
 
 
+# Linux keeps a process's peak resident memory across exec, and a child made by fork (or vfork) starts with its
+# parent's: a job started straight from this process would report at least the bench's own size (seen: every bomb
+# "peaked" at the 1,006 MiB the bench had grown to). A small launcher process starts the job and measures it, so the
+# peak is the job's alone; it times the job too, so its own start-up is not counted.
+_LAUNCHER = (
+    "import os, subprocess, sys, time; "
+    "t = time.perf_counter(); p = subprocess.Popen(sys.argv[2:]); _, s, u = os.wait4(p.pid, 0); "
+    "d = time.perf_counter() - t; "
+    "open(sys.argv[1], 'w').write(f'{d} {u.ru_maxrss} {os.waitstatus_to_exitcode(s)}')"
+)
+
+
 def run_once(
     cmd: Sequence[str],
     env: dict[str, str] | None = None,
@@ -60,17 +71,22 @@ def run_once(
     `stdout` (a file) or nowhere, standard error to a file shown when the command fails."""
     if before is not None:
         before()
-    with tempfile.TemporaryFile() as err, open(stdout or os.devnull, "wb") as out:
-        t = time.perf_counter()
-        proc = subprocess.Popen(list(cmd), stdout=out, stderr=err, env=env)  # noqa: S603 - the bench's own argv lists, no shell
-        _, status, usage = os.wait4(proc.pid, 0)
-        seconds = time.perf_counter() - t
-        proc.returncode = code = os.waitstatus_to_exitcode(status)
+    with (
+        tempfile.TemporaryFile() as err,
+        open(stdout or os.devnull, "wb") as out,
+        tempfile.TemporaryDirectory() as tmp,
+    ):
+        measured = Path(tmp) / "run"
+        launcher = [sys.executable, "-c", _LAUNCHER, str(measured), *cmd]
+        subprocess.run(launcher, stdout=out, stderr=err, env=env, check=False)  # noqa: S603 - the bench's own argv lists, no shell
         err.seek(0)
         text = err.read().decode(errors="replace")
-    if code not in ok:
+        if not measured.exists():
+            raise RuntimeError(f"{' '.join(cmd[:4])} … did not start: {text[-800:]}")
+        seconds, maxrss_kib, code = measured.read_text().split()
+    if int(code) not in ok:
         raise RuntimeError(f"{' '.join(cmd[:4])} … exited {code}: {text[-800:]}")
-    return Run(seconds, usage.ru_maxrss / 1024, code)  # ru_maxrss is in KiB on Linux
+    return Run(float(seconds), int(maxrss_kib) / 1024, int(code))  # ru_maxrss is in KiB on Linux
 
 
 def alternate(
