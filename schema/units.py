@@ -112,12 +112,20 @@ class Units:
             (carbon_to_co2, CARBON_CONTEXT, "carbon_dioxide", "carbon", 1 / CO2_PER_C, "C/CO2"),
             (nitrogen_to_n2o, NITROGEN_CONTEXT, "nitrous_oxide", "nitrous_oxide_nitrogen", 1 / N2O_PER_N, "N2O_N/N2O"),
         )
-        contexts: list[str] = []
-        for enabled, name, target, other, ratio, ratio_unit in options:
+        self._shapes = shapes
+        self._options = {o[1]: o[2:] for o in options}
+        self._added: set[str] = set()
+        for enabled, name, *_ in options:
             if enabled:
-                reg.add_context(self._species_context(name, shapes, target, other, reg.Quantity(ratio, ratio_unit)))
-                contexts.append(name)
-        self._context: tuple[str, ...] = tuple(contexts)
+                self._add_context(name)
+        self._context: tuple[str, ...] = tuple(o[1] for o in options if o[0])
+
+    def _add_context(self, name: str) -> None:
+        if name not in self._added:
+            target, other, ratio, ratio_unit = self._options[name]
+            quantity = self.reg.Quantity(ratio, ratio_unit)
+            self.reg.add_context(self._species_context(name, self._shapes, target, other, quantity))
+            self._added.add(name)
 
     def _species_context(self, name: str, shapes: tuple[str, ...], target: str, other: str, ratio: Any) -> Any:
         """A pint context converting every unit shape in `shapes` that holds species `target` into the same shape
@@ -159,9 +167,27 @@ class Units:
     @functools.lru_cache(maxsize=4096)  # noqa: B019 - one registry per contract, kept for the process
     def factor(self, source: str, target: str) -> float:
         """Multiply values in `source` by this to get `target`; raises UnitError if they do not convert."""
+        # Tonne prefixes first, as the check does without pint: pint also reads `Tt` as tex (g/km), not teratonnes.
+        quick = scale_factor(source, target)
+        return quick if quick is not None else self._factor(source, target, self._context)
+
+    def factor_if(self, option: str, source: str, target: str) -> float:
+        """The factor were the contract option `option` (CARBON_CONTEXT or NITROGEN_CONTEXT) on as well; raises
+        UnitError if the units do not convert even then."""
+        if option not in self._options:
+            raise ValueError(f"unknown unit option {option!r}")
+        # The option's context joins this registry on first use, inactive unless named: a registry of its own
+        # would cost 0.13 s more (measured).
+        try:
+            self._add_context(option)
+        except Exception as e:  # a contract unit pint cannot parse (the contract lint reports it)
+            raise UnitError(f"{option}: {type(e).__name__}: {e}") from None
+        return self._factor(source, target, tuple(dict.fromkeys((*self._context, option))))
+
+    def _factor(self, source: str, target: str, contexts: tuple[str, ...]) -> float:
         src, dst = self.parse(source), self.parse(target)
         try:
-            return float(self.reg.Quantity(1.0, src).to(dst, *self._context).magnitude)
+            return float(self.reg.Quantity(1.0, src).to(dst, *contexts).magnitude)
         except self.pint.errors.DimensionalityError:
             raise UnitError(f"{source!r} does not convert to {target!r}") from None
         except (self.pint.errors.PintError, ArithmeticError) as e:

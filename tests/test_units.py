@@ -5,7 +5,7 @@ from __future__ import annotations
 import periodictable
 import pytest
 
-from milepost.schema.units import CO2_PER_C, N2O_PER_N, UnitError, Units, normalise
+from milepost.schema.units import CO2_PER_C, N2O_PER_N, UnitError, Units, normalise, scale_factor
 
 
 @pytest.fixture(scope="module")
@@ -115,3 +115,29 @@ def test_scale_prefixes(units):
 def test_unknown_unit_is_a_unit_error(units):
     with pytest.raises(UnitError):
         units.parse("Mt BC/yr")
+
+
+@pytest.mark.parametrize("gas", ["CO2", "CH4", "N2O", "CO2e"])
+@pytest.mark.parametrize("source", ["t", "kt", "Mt", "Gt"])
+@pytest.mark.parametrize("target", ["kt", "Mt"])
+def test_tonne_prefix_shortcut_agrees_with_pint(units, gas, source, target):
+    # The check converts tonne prefixes without pint; pint's own conversion is the reference.
+    s, t = f"{source} {gas}/yr", f"{target} {gas}/yr"
+    assert scale_factor(s, t) == pytest.approx(units._factor(s, t, ()), rel=1e-12)
+
+
+def test_teratonnes_are_si_prefixed_tonnes(units):
+    # SI Brochure (BIPM, 9th edition, table 7): T = 1e12, so Tt = 1e12 t = 1e3 Gt. pint alone reads `Tt` as tex.
+    assert units.factor("Tt CO2/yr", "Gt CO2/yr") == pytest.approx(1e3)
+    with pytest.raises(UnitError):
+        units._factor("Tt CO2/yr", "Gt CO2/yr", ())
+
+
+def test_an_option_that_is_off_is_asked_without_turning_it_on(units):
+    # The hint "set carbon_to_co2 = true" asks the same registry under the option; the option stays off for factor().
+    shaped = Units(shapes=("Mt CO2/yr",))
+    assert shaped.factor_if("carbon_to_co2", "Mt C/yr", "Mt CO2/yr") == pytest.approx(CO2_PER_C, rel=1e-9)
+    with pytest.raises(UnitError):
+        shaped.factor("Mt C/yr", "Mt CO2/yr")
+    with pytest.raises(UnitError):
+        shaped.factor_if("nitrogen_to_n2o", "Mt C/yr", "Mt CO2/yr")

@@ -6,15 +6,13 @@ factor the runner multiplies values by when it builds `checked`.
 
 from __future__ import annotations
 
-from typing import Any
-
-from milepost.schema.units import UnitError, Units, normalise
+from milepost.schema.units import CARBON_CONTEXT, NITROGEN_CONTEXT, UnitError, normalise, scale_factor
 from milepost.validate.checks.context import Context
 
 # contract options ([units] in contract.toml) that make a unit of another species convert
 _OPTIONS = (
-    ("carbon_to_co2", "carbon mass (C) into CO2"),
-    ("nitrogen_to_n2o", "the nitrogen in N2O (N2O-N) into N2O"),
+    (CARBON_CONTEXT, "carbon mass (C) into CO2"),
+    (NITROGEN_CONTEXT, "the nitrogen in N2O (N2O-N) into N2O"),
 )
 
 _ROW = "o.path, o.sheet, o.line, o.model, o.scenario, o.region, o.variable, o.unit, o.year"
@@ -29,18 +27,21 @@ def build_unit_map(ctx: Context) -> bool:
     ).fetchall()
     units = ctx.contract.units
     rows: list[tuple[str, str, float | None, str, str, str | None, str | None]] = []
-    permissive: dict[str, Any] = {}  # built only for a wrong unit: a registry costs a few tenths of a second
     for variable, unit in pairs:
         target = ctx.contract.variables[variable].unit
         if unit == target:
             rows.append((variable, unit, 1.0, "same", target, None, None))
             continue
+        # kt against Mt, or a spelling of the same unit: known without importing pint (0.3 s with its registry)
+        factor = scale_factor(unit, target)
+        if factor is not None:
+            same = normalise(unit) == normalise(target)
+            rows.append((variable, unit, factor, "spelling" if same else "converted", target, None, None))
+            continue
         try:
             factor = units.factor(unit, target)
         except UnitError as e:
-            rows.append(
-                (variable, unit, None, "wrong", target, str(e), _allowing_option(ctx, unit, target, permissive))
-            )
+            rows.append((variable, unit, None, "wrong", target, str(e), _allowing_option(ctx, unit, target)))
             continue
         spelling = normalise(unit) == normalise(target) or (
             abs(factor - 1.0) < 1e-12 and units.parse(unit) == units.parse(target)
@@ -55,19 +56,14 @@ def build_unit_map(ctx: Context) -> bool:
     return any(r[3] != "same" for r in rows)
 
 
-def _allowing_option(ctx: Context, unit: str, target: str, permissive: dict[str, Any]) -> str | None:
+def _allowing_option(ctx: Context, unit: str, target: str) -> str | None:
     """The hint text for a contract option that is off here and under which `unit` would convert, else None."""
     c = ctx.contract
     for name, what in _OPTIONS:
         if getattr(c, name):
             continue
-        if name not in permissive:
-            shapes = tuple(sorted({v.unit for v in c.variables.values()}))
-            permissive[name] = Units(
-                shapes=shapes, carbon_to_co2=name == "carbon_to_co2", nitrogen_to_n2o=name == "nitrogen_to_n2o"
-            )
         try:
-            permissive[name].factor(unit, target)
+            c.units.factor_if(name, unit, target)
         except UnitError:
             continue
         return (
