@@ -8,8 +8,10 @@ years only through deflators the contract gives.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import re
+import threading
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
@@ -246,13 +248,29 @@ def scale_factor(source: str, target: str) -> float | None:
 
 class LazyUnits:
     """A `Units` built on first use: importing pint costs half a second, and a submission reported in the
-    contract's own units never needs it."""
+    contract's own units never needs it. `warm_in_background` starts building it where a caller knows it will be
+    needed, so the import overlaps work that does not hold the GIL (DuckDB queries)."""
 
     def __init__(self, **kwargs: Any) -> None:
         self._kwargs = kwargs
         self._units: Units | None = None
+        self._lock = threading.Lock()
+
+    def _built(self) -> Units:
+        with self._lock:  # one registry, however many threads ask at once
+            if self._units is None:
+                self._units = Units(**self._kwargs)
+            return self._units
+
+    def warm_in_background(self) -> None:
+        """Build the registry in a daemon thread; a failure there is left for the first real use to raise."""
+        if self._units is None:
+            threading.Thread(target=self._warm, name="pint-registry", daemon=True).start()
+
+    def _warm(self) -> None:
+        with contextlib.suppress(Exception):  # the first real use builds it again and raises in its own thread
+            self._built()
 
     def __getattr__(self, name: str) -> Any:
-        if self._units is None:
-            self._units = Units(**self._kwargs)
-        return getattr(self._units, name)
+        units = self._units if self._units is not None else self._built()
+        return getattr(units, name)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import periodictable
 import pytest
 
-from milepost.schema.units import CO2_PER_C, N2O_PER_N, UnitError, Units, normalise, scale_factor
+from milepost.schema.units import CO2_PER_C, N2O_PER_N, Deflator, LazyUnits, UnitError, Units, normalise, scale_factor
 
 
 @pytest.fixture(scope="module")
@@ -141,3 +141,17 @@ def test_an_option_that_is_off_is_asked_without_turning_it_on(units):
         shaped.factor("Mt C/yr", "Mt CO2/yr")
     with pytest.raises(UnitError):
         shaped.factor_if("nitrogen_to_n2o", "Mt C/yr", "Mt CO2/yr")
+
+
+def test_a_registry_warmed_in_the_background_is_the_one_used_and_its_failure_reaches_the_caller():
+    # The check starts building pint's registry in a thread while DuckDB works; the caller's first use waits for
+    # that one registry, and a registry that cannot be built raises there, not silently in the thread.
+    lazy = LazyUnits()
+    lazy.warm_in_background()
+    assert lazy.factor("Mt CH4/yr", "kt CH4/yr") == pytest.approx(1e3)
+    assert lazy.factor("EJ/yr", "PJ/yr") == pytest.approx(1e3)  # pint's SI prefixes
+    assert lazy._units is lazy._built()
+    broken = LazyUnits(deflators=(Deflator("USD_2010", "1/0 ((", 1.0),))
+    broken.warm_in_background()
+    with pytest.raises(TypeError):  # what pint 0.25 raises for a definition it cannot parse
+        broken.factor("EJ/yr", "PJ/yr")

@@ -18,6 +18,7 @@ from milepost.schema.contract import Contract
 from milepost.validate import __version__
 from milepost.validate.checks import ROW_CHECKS, TABLE_CHECKS, Context
 from milepost.validate.checks.structure import file_findings
+from milepost.validate.checks.units import warm_registry
 from milepost.validate.findings import FINDING_COLUMNS, RULES, SEVERITIES, Finding, finding_columns_ddl, findings_from
 from milepost.validate.progress import Stages
 from milepost.validate.readers import InputFile, read_file
@@ -444,6 +445,7 @@ def run_check(
         )
         lap("combos")
         ctx = Context(con, contract, inputs)
+        warm_registry(ctx)
         attributes, scen_findings = _scenario_attributes(con, inputs)
         con.execute("CREATE OR REPLACE TEMP TABLE s_known (model VARCHAR, scenario VARCHAR, reference VARCHAR)")
         if known_scenarios:
