@@ -99,6 +99,14 @@ def test_names_with_control_characters_get_their_own_finding(tmp_path, check, ba
     assert found[0].line == 2
 
 
+def test_control_characters_in_two_columns_are_found_in_each_and_nowhere_else(tmp_path, check, basic):
+    rows = consistent_rows(basic)
+    rows[0]["model"] = rows[0]["model"] + "\x07"
+    rows[3]["unit"] = rows[3]["unit"] + "\t"
+    found = rules_at(check(_lines(rows, tmp_path), basic), "control-character")
+    assert sorted((f.column_name, f.line) for f in found) == [("model", 2), ("unit", 5)]
+
+
 def test_a_nul_in_a_name_is_not_silent(tmp_path, check, basic):
     rows = consistent_rows(basic)
     path = _lines(rows, tmp_path)

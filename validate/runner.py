@@ -21,7 +21,7 @@ from milepost.validate.checks.structure import file_findings
 from milepost.validate.checks.units import warm_registry
 from milepost.validate.findings import FINDING_COLUMNS, RULES, SEVERITIES, Finding, finding_columns_ddl, findings_from
 from milepost.validate.progress import Stages
-from milepost.validate.readers import InputFile, read_file
+from milepost.validate.readers import KEY_TEXT, InputFile, read_file
 from milepost.validate.sql import enum_type, literal
 from milepost.validate.wide import locate_findings
 
@@ -177,8 +177,8 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
     enum = {
         c: _enum_type(
             con,
-            f"SELECT DISTINCT {c} FROM combos WHERE {c} IS NOT NULL"  # noqa: S608 - names from the code; user text via validate.sql
-            + (f" AND {c} IN ({known[c]})" if c in known else ""),
+            f"SELECT value FROM combo_values WHERE col = '{c}' AND value IS NOT NULL"  # noqa: S608 - names from the code; user text via validate.sql
+            + (f" AND value IN ({known[c]})" if c in known else ""),
         )
         for c in ("model", "scenario", "region", "variable")
     }
@@ -198,11 +198,16 @@ def _build_checked(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
     if odd == 0:
         sql = f"{keys}o.unit::{enum['unit']} AS unit, o.year, o.value FROM obs o WHERE {rows}"
     else:
+        # a blank model or scenario cell leaves its row out; with none among the distinct names, no row is tested
+        blank = con.execute(
+            "SELECT count(*) FROM combo_values "
+            "WHERE col IN ('model', 'scenario') AND (value IS NULL OR trim(value) = '')"
+        ).fetchall()[0][0]
+        named = " AND trim(o.model) <> '' AND trim(o.scenario) <> ''" if blank else ""
         sql = (
             f"{keys}m.target::{enum['unit']} AS unit, o.year, o.value * m.factor AS value "
             "FROM obs o JOIN unit_map m ON o.variable = m.variable AND o.unit = m.unit AND m.status <> 'wrong' "
-            f"JOIN c_regions r ON o.region = r.region WHERE {rows} "
-            "AND trim(o.model) <> '' AND trim(o.scenario) <> ''"
+            f"JOIN c_regions r ON o.region = r.region WHERE {rows}{named}"
         )
     # `checked` carries each row's source and line, so its row order means nothing; without keeping it DuckDB
     # writes the copy in parallel (measured: half the time of this statement).
@@ -443,6 +448,10 @@ def run_check(
             "CREATE OR REPLACE TEMP TABLE combos AS SELECT src, model, scenario, region, variable, unit, "
             "count(*) AS n FROM obs GROUP BY ALL"
         )
+        # The distinct cells of each key column: a few hundred names where `combos` holds a row per series, so
+        # the tests that ask whether any name is blank, odd or unknown read these (measured: 0.11 s -> 0.01 s).
+        per_column = [f"SELECT DISTINCT '{c}' AS col, {c} AS value FROM combos" for c in KEY_TEXT]  # noqa: S608 - names from the code
+        con.execute("CREATE OR REPLACE TEMP TABLE combo_values AS " + " UNION ALL ".join(per_column))
         lap("combos")
         ctx = Context(con, contract, inputs)
         warm_registry(ctx)

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import duckdb
 
@@ -15,15 +15,18 @@ class Context:
     """One check run.
 
     Tables in `con` (all TEMP): `obs` (view: every data row as read: src, path, sheet, line, key cells, year,
-    year_raw, value, value_raw), `c_inputs` (src -> path, sheet), `unit_map` (variable, unit -> factor, status),
-    `checked` (usable rows in contract units, one per key: src, line, key, unit, year, value), `dups` (keys that
-    occurred more than once), and the contract lookups `c_variables`, `c_parts`, `c_regions`, `c_region_parts`,
-    `c_reference`, `c_bounds`.
+    year_raw, value, value_raw), `combos` (each distinct src and key cells but the year, with its row count),
+    `combo_values` (col, value: the distinct cells of each key column), `c_inputs` (src -> path, sheet),
+    `unit_map` (variable, unit -> factor, status), `checked` (usable rows in contract units, one per key: src,
+    line, key, unit, year, value), `dups` (keys that occurred more than once), and the contract lookups
+    `c_variables`, `c_parts`, `c_regions`, `c_region_parts`, `c_reference`, `c_bounds`.
     """
 
     con: duckdb.DuckDBPyConnection
     contract: Contract
     inputs: list[InputFile]
+    # the distinct (variable, unit) pairs of contract variables, once asked (units.py)
+    unit_pairs: list[tuple[str, str]] | None = field(default=None, repr=False)
 
     @property
     def tol_rel(self) -> float:

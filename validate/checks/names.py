@@ -30,8 +30,9 @@ def _hints_table(ctx: Context, table: str, column: str, known_sql: str, known: l
     get a suggestion, so 300,000 made-up names cost one anti-join, not 300,000 fuzzy searches."""
     con = ctx.con
     con.execute(
-        f"CREATE OR REPLACE TEMP TABLE {table} AS SELECT DISTINCT {column} AS name, NULL::VARCHAR AS suggestion "  # noqa: S608 - names from the code; contract text via validate.sql
-        f"FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> '' AND {column} NOT IN ({known_sql})"
+        f"CREATE OR REPLACE TEMP TABLE {table} AS SELECT value AS name, NULL::VARCHAR AS suggestion "  # noqa: S608 - names from the code; contract text via validate.sql
+        f"FROM combo_values WHERE col = {literal(column)} AND value IS NOT NULL AND trim(value) <> '' "
+        f"AND value NOT IN ({known_sql})"
     )
     sample = [
         r[0]
@@ -52,7 +53,7 @@ def _hints_table(ctx: Context, table: str, column: str, known_sql: str, known: l
     if not unknown:
         return 0, 0
     seen = con.execute(
-        f"SELECT count(DISTINCT {column}) FROM combos WHERE {column} IS NOT NULL AND trim({column}) <> ''"  # noqa: S608 - names from the code
+        "SELECT count(*) FROM combo_values WHERE col = ? AND value IS NOT NULL AND trim(value) <> ''", [column]
     ).fetchall()[0][0]
     return int(unknown), int(seen)
 
@@ -113,8 +114,10 @@ _CONTROL = "[\\x00-\\x1f\\x7f-\\x9f\\x{feff}]"
 def check_control_characters(ctx: Context) -> list[str]:
     """control-character: a key cell (model, scenario, region, variable, unit) holding a control character."""
     cols = ("model", "scenario", "region", "variable", "unit")
-    test = " OR ".join(f"regexp_matches({c}, {literal(_CONTROL)})" for c in cols)
-    if not ctx.con.execute(f"SELECT count(*) FROM combos WHERE {test}").fetchall()[0][0]:  # noqa: S608 - names from the code
+    found = ctx.con.execute(
+        f"SELECT list(DISTINCT col) FROM combo_values WHERE regexp_matches(value, {literal(_CONTROL)})"  # noqa: S608 - names from the code
+    ).fetchall()[0][0]
+    if not found:
         return []
     return [
         f"SELECT 'control-character' AS rule, {literal(c)} AS column_name, {_ROW}, "  # noqa: S608 - names from the code; contract text via validate.sql
@@ -126,4 +129,5 @@ def check_control_characters(ctx: Context) -> list[str]:
         f"FROM obs o SEMI JOIN (SELECT src, {c} FROM combos WHERE regexp_matches({c}, {literal(_CONTROL)})) k "
         f"ON o.src = k.src AND o.{c} = k.{c}"
         for c in cols
+        if c in found  # only the columns holding one: each other query would scan every row for nothing
     ]

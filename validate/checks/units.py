@@ -19,10 +19,12 @@ _ROW = "o.path, o.sheet, o.line, o.model, o.scenario, o.region, o.variable, o.un
 
 
 def _pairs(ctx: Context) -> list[tuple[str, str]]:
-    return ctx.con.execute(
-        "SELECT DISTINCT o.variable, o.unit FROM combos o JOIN c_variables v ON o.variable = v.variable "
-        "WHERE o.unit IS NOT NULL AND trim(o.unit) <> ''"
-    ).fetchall()
+    if ctx.unit_pairs is None:
+        ctx.unit_pairs = ctx.con.execute(
+            "SELECT DISTINCT o.variable, o.unit FROM combos o JOIN c_variables v ON o.variable = v.variable "
+            "WHERE o.unit IS NOT NULL AND trim(o.unit) <> ''"
+        ).fetchall()
+    return ctx.unit_pairs
 
 
 def warm_registry(ctx: Context) -> None:
