@@ -19,10 +19,18 @@ from milepost.validate import __version__
 from milepost.validate.checks import ROW_CHECKS, TABLE_CHECKS, Context
 from milepost.validate.checks.structure import file_findings
 from milepost.validate.checks.units import warm_registry
-from milepost.validate.findings import FINDING_COLUMNS, RULES, SEVERITIES, Finding, finding_columns_ddl, findings_from
+from milepost.validate.findings import (
+    FINDING_COLUMNS,
+    FINDING_TYPES,
+    RULES,
+    SEVERITIES,
+    Finding,
+    finding_columns_ddl,
+    findings_from,
+)
 from milepost.validate.progress import Stages
 from milepost.validate.readers import KEY_TEXT, InputFile, read_file
-from milepost.validate.sql import enum_type, literal
+from milepost.validate.sql import enum_type, insert_rows, literal
 from milepost.validate.wide import locate_findings
 
 FINDINGS_PER_RULE = 1000
@@ -97,14 +105,15 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
         "CREATE OR REPLACE TEMP TABLE c_variables (variable VARCHAR, unit VARCHAR, sign VARCHAR, "
         "regions VARCHAR, required BOOLEAN)"
     )
-    con.executemany(
-        "INSERT INTO c_variables VALUES (?, ?, ?, ?, ?)",
+    insert_rows(
+        con,
+        "c_variables",
+        [*((c, "VARCHAR") for c in ("variable", "unit", "sign", "regions")), ("required", "BOOLEAN")],
         [(v.name, v.unit, v.sign, v.regions, v.required) for v in contract.variables.values()],
     )
     con.execute("CREATE OR REPLACE TEMP TABLE c_parts (total VARCHAR, part VARCHAR, factor DOUBLE)")
     parts = [(v.name, p.variable, p.factor) for v in contract.variables.values() for p in v.parts]
-    if parts:
-        con.executemany("INSERT INTO c_parts VALUES (?, ?, ?)", parts)
+    insert_rows(con, "c_parts", [("total", "VARCHAR"), ("part", "VARCHAR"), ("factor", "DOUBLE")], parts)
     con.execute("CREATE OR REPLACE TEMP TABLE c_part_counts AS SELECT total, count(*) AS n FROM c_parts GROUP BY 1")
     regions = set(contract.region_names())
     if contract.countries:
@@ -112,11 +121,10 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
 
         regions |= iso3_codes()
     con.execute("CREATE OR REPLACE TEMP TABLE c_regions (region VARCHAR)")
-    con.executemany("INSERT INTO c_regions VALUES (?)", [(r,) for r in sorted(regions)])
+    insert_rows(con, "c_regions", [("region", "VARCHAR")], [(r,) for r in sorted(regions)])
     con.execute("CREATE OR REPLACE TEMP TABLE c_region_parts (parent VARCHAR, part VARCHAR)")
     rparts = [(r.name, p) for r in contract.regions.values() for p in r.parts]
-    if rparts:
-        con.executemany("INSERT INTO c_region_parts VALUES (?, ?)", rparts)
+    insert_rows(con, "c_region_parts", [("parent", "VARCHAR"), ("part", "VARCHAR")], rparts)
     con.execute(
         "CREATE OR REPLACE TEMP TABLE c_region_counts AS SELECT parent, count(*) AS n FROM c_region_parts GROUP BY 1"
     )
@@ -125,22 +133,30 @@ def _contract_tables(con: duckdb.DuckDBPyConnection, contract: Contract) -> None
     )
     # unknown variables and units that do not convert are left out here; contract lint reports them
     ref = [(r.region, r.variable, r.year, r.value) for r in contract.references_in_contract_units()]
-    if ref:
-        con.executemany("INSERT INTO c_reference VALUES (?, ?, ?, ?)", ref)
+    columns = [("region", "VARCHAR"), ("variable", "VARCHAR"), ("year", "INTEGER"), ("value", "DOUBLE")]
+    insert_rows(con, "c_reference", columns, ref)
     con.execute(
         "CREATE OR REPLACE TEMP TABLE c_bounds (variable VARCHAR, region VARCHAR, year_from INTEGER, "
         "year_to INTEGER, low DOUBLE, high DOUBLE)"
     )
-    if contract.bounds:
-        con.executemany(
-            "INSERT INTO c_bounds VALUES (?, ?, ?, ?, ?, ?)",
-            [(b.variable, b.region, b.year_from, b.year_to, b.low, b.high) for b in contract.bounds],
-        )
+    insert_rows(
+        con,
+        "c_bounds",
+        [(c, "VARCHAR") for c in ("variable", "region")]
+        + [(c, "INTEGER") for c in ("year_from", "year_to")]
+        + [(c, "DOUBLE") for c in ("low", "high")],
+        [(b.variable, b.region, b.year_from, b.year_to, b.low, b.high) for b in contract.bounds],
+    )
 
 
 def _obs_view(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> None:
     con.execute("CREATE OR REPLACE TEMP TABLE c_inputs (src INTEGER, path VARCHAR, sheet VARCHAR)")
-    con.executemany("INSERT INTO c_inputs VALUES (?, ?, ?)", [(i, inp.path, inp.sheet) for i, inp in enumerate(inputs)])
+    insert_rows(
+        con,
+        "c_inputs",
+        [("src", "INTEGER"), ("path", "VARCHAR"), ("sheet", "VARCHAR")],
+        [(i, inp.path, inp.sheet) for i, inp in enumerate(inputs)],
+    )
     parts = []
     for i, inp in enumerate(inputs):
         if inp.kind == "data" and inp.table:
@@ -354,11 +370,7 @@ class _Store:
                 rows.append(tuple(f.to_dict()[c] if c != "severity" else sev for c in FINDING_COLUMNS))
                 self.stored[f.rule] = self.stored.get(f.rule, 0) + 1
             self.totals[(f.rule, sev)] = self.totals.get((f.rule, sev), 0) + 1
-        if rows:
-            self.con.executemany(
-                f"INSERT INTO findings ({', '.join(FINDING_COLUMNS)}) VALUES ({', '.join('?' * len(FINDING_COLUMNS))})",  # noqa: S608 - names from the code; user text via validate.sql
-                rows,
-            )
+        insert_rows(self.con, "findings", [(c, FINDING_TYPES.get(c, "VARCHAR")) for c in FINDING_COLUMNS], rows)
 
 
 def _scenario_attributes(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> tuple[str | None, list[Finding]]:
@@ -457,8 +469,12 @@ def run_check(
         warm_registry(ctx)
         attributes, scen_findings = _scenario_attributes(con, inputs)
         con.execute("CREATE OR REPLACE TEMP TABLE s_known (model VARCHAR, scenario VARCHAR, reference VARCHAR)")
-        if known_scenarios:
-            con.executemany("INSERT INTO s_known VALUES (?, ?, ?)", [tuple(k) for k in known_scenarios])
+        insert_rows(
+            con,
+            "s_known",
+            [("model", "VARCHAR"), ("scenario", "VARCHAR"), ("reference", "VARCHAR")],
+            [tuple(k) for k in known_scenarios or []],
+        )
         pre = file_findings(ctx)
         store = _Store(con, _severity_case(contract), limits.findings_stored_per_rule)
         for check in ROW_CHECKS:

@@ -8,7 +8,10 @@ CREATE TABLE AS, COPY targets, and constants inside views.
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
+from typing import Any
+
+import duckdb
 
 
 def literal(text: str) -> str:
@@ -40,4 +43,23 @@ def enum_type(values: Iterable[str]) -> str:
     return f"ENUM({', '.join(labels)})" if labels else "VARCHAR"
 
 
-__all__ = ["enum_type", "identifier", "literal", "literal_list", "qualified"]
+def insert_rows(
+    con: duckdb.DuckDBPyConnection,
+    table: str,
+    columns: Sequence[tuple[str, str]],
+    rows: Sequence[Sequence[Any]],
+) -> None:
+    """INSERT `rows` into `table` (`columns`: name and SQL type of each value of a row) in one statement: each
+    column is bound as one list and the lists are unnested side by side. DuckDB's executemany runs one INSERT per
+    row (measured: 3,000 rows 1.4 s against 9 ms), which made a check slower the more scenarios a database held."""
+    if not rows:
+        return
+    names = ", ".join(identifier(name) for name, _ in columns)
+    values = ", ".join(f"unnest(?::{sql_type}[])" for _, sql_type in columns)
+    con.execute(
+        f"INSERT INTO {qualified(table)} ({names}) SELECT {values}",
+        [[row[i] for row in rows] for i in range(len(columns))],
+    )
+
+
+__all__ = ["enum_type", "identifier", "insert_rows", "literal", "literal_list", "qualified"]

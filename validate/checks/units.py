@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from milepost.schema.units import CARBON_CONTEXT, NITROGEN_CONTEXT, LazyUnits, UnitError, normalise, scale_factor
 from milepost.validate.checks.context import Context
+from milepost.validate.sql import insert_rows
 
 # contract options ([units] in contract.toml) that make a unit of another species convert
 _OPTIONS = (
@@ -68,8 +69,9 @@ def build_unit_map(ctx: Context) -> bool:
         "CREATE OR REPLACE TEMP TABLE unit_map (variable VARCHAR, unit VARCHAR, factor DOUBLE, "
         "status VARCHAR, target VARCHAR, why VARCHAR, allows VARCHAR)"
     )
-    if rows:
-        ctx.con.executemany("INSERT INTO unit_map VALUES (?, ?, ?, ?, ?, ?, ?)", rows)
+    columns = [("variable", "VARCHAR"), ("unit", "VARCHAR"), ("factor", "DOUBLE"), ("status", "VARCHAR")]
+    columns += [("target", "VARCHAR"), ("why", "VARCHAR"), ("allows", "VARCHAR")]
+    insert_rows(ctx.con, "unit_map", columns, rows)
     return any(r[3] != "same" for r in rows)
 
 
