@@ -12,6 +12,7 @@ import duckdb
 from milepost.schema.contract import Contract
 from milepost.validate.harmonise import methods
 from milepost.validate.harmonise.settings import Choice, region_heights, variable_heights
+from milepost.validate.sql import insert_rows
 
 # Status of a series while the harmonisation runs (kept in h_series.status):
 #   direct            harmonised from its own reference value by one of the four methods
@@ -27,15 +28,13 @@ IN_OUTPUT = ("direct", "rebuilt", "rebuilt-partial", "unchanged")
 def settings_tables(con: duckdb.DuckDBPyConnection, contract: Contract, chosen: list[Choice]) -> None:
     """The per-variable choices and the hierarchy heights as small TEMP tables."""
     con.execute("CREATE OR REPLACE TEMP TABLE h_settings (variable VARCHAR, method VARCHAR, converge_year INTEGER)")
-    if chosen:
-        con.executemany(
-            "INSERT INTO h_settings VALUES (?, ?, ?)", [(c.variable, c.method, c.converge_year) for c in chosen]
-        )
+    settings = [(c.variable, c.method, c.converge_year) for c in chosen]
+    columns = [("variable", "VARCHAR"), ("method", "VARCHAR"), ("converge_year", "INTEGER")]
+    insert_rows(con, "h_settings", columns, settings)
     con.execute("CREATE OR REPLACE TEMP TABLE h_levels (kind VARCHAR, name VARCHAR, height INTEGER)")
     rows = [("variable", k, v) for k, v in variable_heights(contract).items()]
     rows += [("region", k, v) for k, v in region_heights(contract).items()]
-    if rows:
-        con.executemany("INSERT INTO h_levels VALUES (?, ?, ?)", rows)
+    insert_rows(con, "h_levels", [("kind", "VARCHAR"), ("name", "VARCHAR"), ("height", "INTEGER")], rows)
 
 
 def series_table(con: duckdb.DuckDBPyConnection, contract: Contract) -> None:
