@@ -116,6 +116,7 @@ def compute_indicators(
             market=burden.prepare_market(con, contract),
             convergence_year=contract.allocation.convergence_year,
         )
+        tables = replace(tables, budget_sums=budgets.prepare_sums(con, tables))
         burden.prepare_shares(con, tables)
         _store_gaps(con, tables, kinds, f"{target}_gaps")
         parts = [KINDS[kind].sql(tables) for kind in kinds]

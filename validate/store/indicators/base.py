@@ -49,6 +49,8 @@ class Tables:
     budget_levels  region, likelihood, label, warming, budget: the contract's carbon-budget table, one row per
                warming level and likelihood (empty without budgets; see `budgets`)
     budget_pieces  region, likelihood, label, lo, hi, anchor, warming, slope: budget_p(W) inverted piece by piece
+    budget_sums    sid, year_from, year_to, integral: each series a budget kind selects summed from the base year
+               to its net-zero year (see `budgets.prepare_sums`)
     inputs     model, scenario, region and one list per driver input (pop, gdp, energy, co2, ghg, price, cost:
                the values at each of `years` in the input's canonical unit, null where not reported; see `drivers`)
     market     region, market: the trading regions (the direct parts of the allocation's market region)
@@ -65,6 +67,7 @@ class Tables:
     discount_rate: float
     budget_levels: str = ""
     budget_pieces: str = ""
+    budget_sums: str = ""
     inputs: str = ""
     market: str = ""
     convergence_year: int = 2050

@@ -36,8 +36,7 @@ import duckdb
 
 from milepost.schema.contract import Budgets
 from milepost.validate.sql import literal
-from milepost.validate.store.indicators.base import Kind, Tables, annual_sum, head
-from milepost.validate.store.indicators.timing import net_zero_years
+from milepost.validate.store.indicators.base import Kind, Tables, annual_sum, first_at_or_below_zero, head
 
 PREFIX = "_milepost_budgets_"
 LIKELIHOOD = {"warming_peak": 50.0, "warming_peak_low": 17.0, "warming_peak_high": 83.0}
@@ -93,37 +92,47 @@ def prepare_budgets(con: duckdb.DuckDBPyConnection, budgets: Budgets | None) -> 
 
 def drop_budgets(con: duckdb.DuckDBPyConnection) -> None:
     """Remove the budget helper tables."""
-    for name in ("levels", "pieces"):
+    for name in ("levels", "pieces", "sums"):
         con.execute(f"DROP TABLE IF EXISTS {PREFIX}{name}")
 
 
-def to_net_zero(t: Tables, kind: str, budget_region_only: bool) -> str:
-    """SELECT sid, year_from, year_to, integral: the series of `kind` summed from the base year to its net-zero
-    year (or last reported year), in the variable's unit x years; integral null unless it covers the base year.
+def to_net_zero(t: Tables, spans: str) -> str:
+    """SELECT sid, year_from, year_to, integral: each series of `spans` (sid, year_from, year_to: the base year,
+    or its first reported year if later, to its last) summed from the base year to its net-zero year (or last
+    reported year), in the variable's unit x years; integral null unless it covers the base year.
 
     The net-zero year and the sum are the shared helpers of `net_zero_year` and `cumulative`, so the conventions
     cannot drift apart.
     """
     base = int(t.base_year)
-    ends = (
-        f"SELECT n.sid, {base} AS year_from, coalesce(n.year, n.year_to) AS year_to FROM ({net_zero_years(t, kind)}) n"
-    )
-    if budget_region_only:
-        ends += (
-            f" WHERE n.sid IN (SELECT s.sid FROM {t.series} s WHERE s.region IN (SELECT region FROM {t.budget_levels}))"
-        )
-    spans = f"({ends})"
+    zero = first_at_or_below_zero(t, spans)
+    ends = f"(SELECT n.sid, {base} AS year_from, coalesce(n.year, n.year_to) AS year_to FROM ({zero}) n)"
     return (
         "SELECT e.sid, e.year_from, e.year_to,"
         " CASE WHEN g.years = e.year_to - e.year_from + 1 THEN g.total END AS integral"
-        f" FROM {spans} e LEFT JOIN ({annual_sum(t, spans)}) g ON g.sid = e.sid"
+        f" FROM {ends} e LEFT JOIN ({annual_sum(t, ends)}) g ON g.sid = e.sid"
     )
+
+
+def prepare_sums(con: duckdb.DuckDBPyConnection, t: Tables) -> str:
+    """TEMP table of `to_net_zero` for every series that any budget kind selects, computed once for all of them
+    (each kind summed them again: five times the same work, measured 0.3 s of 1.3 s of indicators at 2M rows)."""
+    table = PREFIX + "sums"
+    kinds = ", ".join(literal(k.name) for k in KINDS)
+    spans = (
+        f"(SELECT s.sid, greatest({int(t.base_year)}, s.first_year) AS year_from, s.last_year AS year_to"
+        f" FROM {t.series} s WHERE s.variable IN (SELECT variable FROM {t.selection} WHERE kind IN ({kinds})))"
+    )
+    con.execute(f"DROP TABLE IF EXISTS {table}")
+    con.execute(f"CREATE TEMP TABLE {table} AS {to_net_zero(t, spans)}")
+    return table
 
 
 def _frame(t: Tables, kind: str, budget_region_only: bool) -> str:
     """FROM clause: the kind's series with their sum to net zero (alias c) and selection row (alias x)."""
+    region = f" AND s.region IN (SELECT region FROM {t.budget_levels})" if budget_region_only else ""
     return (
-        f"FROM ({to_net_zero(t, kind, budget_region_only)}) c JOIN {t.series} s ON s.sid = c.sid"
+        f"FROM {t.budget_sums} c JOIN {t.series} s ON s.sid = c.sid{region}"
         f" JOIN {t.selection} x ON x.kind = {literal(kind)} AND x.variable = s.variable"
     )
 
