@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from milepost.dashboard import charts, headlines, queries, ui
+from milepost.dashboard import charts, headlines, queries, stats, ui
 
 ch, sel = ui.results_page("Costs")
 
@@ -38,10 +38,12 @@ if df.empty:
     st.warning("No cost indicators for the selected scenarios.")
     ui.stop()
 
-thin = int((summary["n"] < 5).sum())
+# as on every page: a median over fewer than three models says more about those models than about the band
+summary["evidence"] = stats.evidence(summary["models"])
+thin = int((summary["evidence"] != "").sum())
 if thin:
     st.warning(
-        f"Thin evidence: {thin} of {len(summary)} band medians rest on fewer than 5 scenarios (see n below).",
+        f"Thin evidence: {thin} of {len(summary)} band medians rest on {stats.THIN_RULE} (see models below).",
         icon=":material/warning:",
     )
 
@@ -71,7 +73,7 @@ if top != bottom:
 
 with st.expander("Per band: scenarios, median and interquartile range"):
     ui.table(
-        summary[["metric", "unit", "year_from", "year", "band_label", "n", "n_missing", "models", "median"]]
+        summary[["metric", "unit", "year_from", "year", "band_label", "n", "n_missing", "models", "evidence", "median"]]
         .join(summary[["q25", "q75"]])
         .reset_index(drop=True),
         f"costs_bands_{sel.year}",
