@@ -199,7 +199,7 @@ def _npv_models(sql, models: tuple[str, ...] = ()) -> dict[str, int]:
     npv = sql.execute("""SELECT model, scenario, value FROM current_indicators
                          WHERE kind = 'npv' AND region = 'World' AND year_from = 2020 AND year_to = 2100""").df()
     npv = sel.assign(band=np.array(["low", "middle", "high"])[band]).merge(npv, on=["model", "scenario"])
-    return npv.groupby("band")["model"].nunique().to_dict()
+    return {str(b): int(n) for b, n in npv.groupby("band")["model"].nunique().items()}
 
 
 def test_costs_sentence_ratio_and_thin_evidence(demo_db, sql):
