@@ -265,3 +265,33 @@ def test_one_walk_finds_the_cycles_for_the_check_and_the_costs():
     con.executemany("INSERT INTO l VALUES (?, ?, ?)", links)
     got = con.execute(f"SELECT * FROM ({cyclic_scenarios('SELECT * FROM l')}) ORDER BY ALL").fetchall()
     assert got == [("M", "a", 2), ("M", "b", 2), ("M", "self", 1), ("M", "t1", 3), ("M", "t2", 3), ("M", "t3", 3)]
+
+
+@pytest.mark.parametrize("suffix", ["csv", "xlsx"])
+def test_scenario_columns_left_out_are_reported_not_dropped_unsaid(data, basic, check, tmp_path, suffix):
+    _, path, data_rows = data
+    header = ["model", "scenario", "reference", "Line", "family", "Family "]
+    rows = [["M1", "base", "", "L7", "a", "b"], ["M1", "policy", "base", "L8", "c", "d"]]
+    if suffix == "csv":
+        table = tmp_path / "s.csv"
+        table.write_text("\n".join(",".join(r) for r in [header, *rows]) + "\n")
+    else:
+        import openpyxl
+
+        wb = openpyxl.Workbook()
+        sheet = wb.active
+        sheet.title = "data"
+        sheet.append(list(data_rows[0]))
+        for r in data_rows:
+            sheet.append(list(r.values()))
+        ws = wb.create_sheet("scenarios")
+        for r in [header, *rows]:
+            ws.append(r)
+        table = tmp_path / "s.xlsx"
+        wb.save(table)
+    result = check([table] if suffix == "xlsx" else [path, table], basic)
+    (f,) = rules_at(result, "unexpected-column")
+    assert (f.severity, f.line, f.value) == ("warning", 1, "Line, Family ")
+    assert f.path == str(table)
+    # the first of the repeated names is kept as an attribute
+    assert result.con.execute("SELECT family FROM s_attributes ORDER BY scenario").fetchall() == [("a",), ("c",)]

@@ -62,7 +62,13 @@ RULES: dict[str, Rule] = {
             "data",
             "The table has one column per year; it was read as the long table (one row per non-empty year cell).",
         ),
-        Rule("unexpected-column", "warning", "data", "A column the long format does not have; it is ignored."),
+        Rule(
+            "unexpected-column",
+            "warning",
+            "data",
+            "A column the long format does not have, or a scenarios-table column named line or repeating a name; "
+            "it is ignored.",
+        ),
         Rule("bad-year", "error", "data", "The year is not a whole number inside the contract's year range."),
         Rule("bad-value", "error", "data", "The value is not a finite number."),
         Rule(

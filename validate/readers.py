@@ -567,6 +567,8 @@ def _scenarios_table(
         name = re.sub(r"\s+", "_", str(h).strip()).lower()
         if name and name not in names and name != "line":
             names[name] = c
+        elif name:  # reported (unexpected-column), never dropped unsaid
+            inp.extra_columns.append(str(h))
     cells = ", ".join(
         f"nullif(regexp_replace(CAST({identifier(c)} AS VARCHAR), {literal(_EDGE_SPACE)}, '', 'g'), '') "
         f"AS {identifier(n)}"

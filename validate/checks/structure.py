@@ -129,6 +129,21 @@ def file_findings(ctx: Context) -> list[Finding]:
                     hint="Nothing to do: findings name the year column of each value.",
                 )
             )
+        if inp.extra_columns and inp.kind == "scenarios":
+            out.append(
+                Finding(
+                    "unexpected-column",
+                    "warning",
+                    path=inp.path,
+                    line=1,
+                    sheet=inp.sheet,
+                    value=shorten(inp.extra_columns),
+                    expected="one column per name, none named line",
+                    message=f"column(s) {shorten(inp.extra_columns)} of the scenarios table were left out: the name "
+                    "line is kept for the row's line number, and a name (case and spaces aside) counts once",
+                    hint="Rename the column(s), e.g. line -> production_line, or remove the repeated one.",
+                )
+            )
         if inp.extra_columns and inp.kind == "data":
             out.append(
                 Finding(
