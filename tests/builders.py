@@ -69,6 +69,25 @@ def write_csv(
     return path
 
 
+def write_xlsx(path: Path, sheets: dict[str, list[list]]) -> Path:
+    """Write a workbook of the given sheets (name -> rows of cells, header first), in order."""
+    import openpyxl
+
+    wb = openpyxl.Workbook()
+    wb.remove(wb.active)
+    for name, rows in sheets.items():
+        ws = wb.create_sheet(name)
+        for r in rows:
+            ws.append(r)
+    wb.save(path)
+    return path
+
+
+def table_of(rows: list[dict]) -> list[list]:
+    """Rows as a header line and one list of cells per row, for `write_xlsx`."""
+    return [list(rows[0]), *(list(r.values()) for r in rows)]
+
+
 def line_of(rows: list[dict], **key: object) -> int:
     """Physical CSV line of the first row matching every key given."""
     for i, r in enumerate(rows):

@@ -9,7 +9,7 @@ import pytest
 from milepost.schema.contract import load
 from milepost.validate.store.indicators import compute_indicators
 
-from builders import consistent_rows, write_csv
+from builders import consistent_rows, table_of, write_csv, write_xlsx
 from conftest import BASIC_CONTRACT, rules_at
 
 NEW_RULES = (
@@ -276,19 +276,7 @@ def test_scenario_columns_left_out_are_reported_not_dropped_unsaid(data, basic, 
         table = tmp_path / "s.csv"
         table.write_text("\n".join(",".join(r) for r in [header, *rows]) + "\n")
     else:
-        import openpyxl
-
-        wb = openpyxl.Workbook()
-        sheet = wb.active
-        sheet.title = "data"
-        sheet.append(list(data_rows[0]))
-        for r in data_rows:
-            sheet.append(list(r.values()))
-        ws = wb.create_sheet("scenarios")
-        for r in [header, *rows]:
-            ws.append(r)
-        table = tmp_path / "s.xlsx"
-        wb.save(table)
+        table = write_xlsx(tmp_path / "s.xlsx", {"data": table_of(data_rows), "scenarios": [header, *rows]})
     result = check([table] if suffix == "xlsx" else [path, table], basic)
     (f,) = rules_at(result, "unexpected-column")
     assert (f.severity, f.line, f.value) == ("warning", 1, "Line, Family ")

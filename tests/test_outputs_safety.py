@@ -19,7 +19,7 @@ from milepost.validate.harmonise.notes import METHOD_COLUMNS
 from milepost.validate.outputs import ours
 from milepost.validate.store.ingest import ingest
 
-from builders import consistent_rows, write_csv
+from builders import consistent_rows, table_of, write_csv, write_xlsx
 from conftest import BASIC_CONTRACT
 
 runner = CliRunner()
@@ -65,14 +65,7 @@ def test_a_report_never_replaces_its_input(work: tuple[Path, Path]) -> None:
 
 
 def test_an_xlsx_submission_is_not_replaced_by_its_own_report(tmp_path: Path, basic) -> None:
-    sub = tmp_path / "sub.xlsx"
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    rows = consistent_rows(basic)
-    ws.append(list(rows[0]))
-    for r in rows:
-        ws.append(list(r.values()))
-    wb.save(sub)
+    sub = write_xlsx(tmp_path / "sub.xlsx", {"Sheet": table_of(consistent_rows(basic))})
     before = sub.read_bytes()
     res = _run("check", sub, "-c", BASIC_CONTRACT, "--format", "xlsx", "-o", sub)
     assert res.exit_code == 2 and "it is one of the input files" in res.stderr
@@ -261,14 +254,8 @@ def test_ours_tells_our_files_from_others(tmp_path: Path) -> None:
 def test_the_self_checks_report_is_never_written_over_an_upload(tmp_path: Path, basic) -> None:
     from milepost.dashboard.checking import CheckedUpload
 
-    sub = tmp_path / "report.xlsx"  # an upload that happens to carry the report's name
-    wb = openpyxl.Workbook()
-    ws = wb.active
     rows = consistent_rows(basic)
-    ws.append(list(rows[0]))
-    for r in rows:
-        ws.append(list(r.values()))
-    wb.save(sub)
+    sub = write_xlsx(tmp_path / "report.xlsx", {"Sheet": table_of(rows)})  # an upload carrying the report's name
     upload = CheckedUpload([("report.xlsx", sub.read_bytes())], basic)
     try:
         report = openpyxl.load_workbook(io.BytesIO(upload.xlsx()))

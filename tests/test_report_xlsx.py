@@ -9,7 +9,7 @@ import pytest
 
 from milepost.validate.reports import XLSX_FINDING_COLUMNS, to_xlsx
 
-from builders import consistent_rows, line_of, write_csv
+from builders import consistent_rows, line_of, table_of, write_csv, write_xlsx
 
 
 @pytest.fixture(scope="module")
@@ -84,14 +84,7 @@ def test_an_xlsx_submission_is_copied_with_its_numbers(tmp_path: Path, basic) ->
 
     rows = consistent_rows(basic)
     rows[4]["region"] = "Atlantis"
-    sub = tmp_path / "sub.xlsx"
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    ws.title = "data"
-    ws.append(list(rows[0]))
-    for r in rows:
-        ws.append(list(r.values()))
-    wb.save(sub)
+    sub = write_xlsx(tmp_path / "sub.xlsx", {"data": table_of(rows)})
     result = run_check([sub], basic)
     out = openpyxl.load_workbook(to_xlsx(result, tmp_path / "r.xlsx"))
     result.con.close()

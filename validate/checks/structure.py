@@ -129,22 +129,18 @@ def file_findings(ctx: Context) -> list[Finding]:
                     hint="Nothing to do: findings name the year column of each value.",
                 )
             )
-        if inp.extra_columns and inp.kind == "scenarios":
-            out.append(
-                Finding(
-                    "unexpected-column",
-                    "warning",
-                    path=inp.path,
-                    line=1,
-                    sheet=inp.sheet,
-                    value=shorten(inp.extra_columns),
-                    expected="one column per name, none named line",
-                    message=f"column(s) {shorten(inp.extra_columns)} of the scenarios table were left out: the name "
-                    "line is kept for the row's line number, and a name (case and spaces aside) counts once",
-                    hint="Rename the column(s), e.g. line -> production_line, or remove the repeated one.",
+        if inp.extra_columns and inp.kind in ("data", "scenarios"):
+            if inp.kind == "data":
+                expected = ", ".join(LONG_COLUMNS)
+                message = "are not part of the long format and were ignored"
+                hint = "Move scenario attributes into a scenarios table (model, scenario, ...)."
+            else:  # the scenarios reader keeps the first of equal names and reserves `line`
+                expected = "one column per name, none named line"
+                message = (
+                    "of the scenarios table were left out: the name line is kept for the row's line number, and a "
+                    "name (case and spaces aside) counts once"
                 )
-            )
-        if inp.extra_columns and inp.kind == "data":
+                hint = "Rename the column(s), e.g. line -> production_line, or remove the repeated one."
             out.append(
                 Finding(
                     "unexpected-column",
@@ -153,9 +149,9 @@ def file_findings(ctx: Context) -> list[Finding]:
                     line=1,
                     sheet=inp.sheet,
                     value=shorten(inp.extra_columns),
-                    expected=", ".join(LONG_COLUMNS),
-                    message=f"column(s) {shorten(inp.extra_columns)} are not part of the long format and were ignored",
-                    hint="Move scenario attributes into a scenarios table (model, scenario, ...).",
+                    expected=expected,
+                    message=f"column(s) {shorten(inp.extra_columns)} {message}",
+                    hint=hint,
                 )
             )
     return out

@@ -115,8 +115,8 @@ def compute_indicators(
             inputs=inputs_table,
             market=burden.prepare_market(con, contract),
             convergence_year=contract.allocation.convergence_year,
+            budget_sums=budgets.prepare_sums(con, tables),
         )
-        tables = replace(tables, budget_sums=budgets.prepare_sums(con, tables))
         burden.prepare_shares(con, tables)
         _store_gaps(con, tables, kinds, f"{target}_gaps")
         parts = [KINDS[kind].sql(tables) for kind in kinds]
