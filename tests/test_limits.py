@@ -163,3 +163,52 @@ def test_contract_show_prints_the_effective_limits(tmp_path):
     res = CliRunner().invoke(app, ["contract", "show", folder, "-f", "json"])
     shown = json.loads(res.stdout)["limits"]
     assert shown == {**dataclasses.asdict(Limits()), "max_rows": 10}
+
+
+def _stored_lines(result, rule):
+    rows = result.con.execute("SELECT line FROM findings WHERE rule = ? ORDER BY line", [rule]).fetchall()
+    return [r[0] for r in rows]
+
+
+def test_findings_beyond_the_cap_are_the_first_in_the_file_on_every_run(tmp_path, check):
+    """Rules found through a join (unknown variable, unit that does not convert) and by a plain scan (year out of
+    range), over enough rows for DuckDB to scan in parallel threads: a bare LIMIT would keep whichever rows the
+    threads met first. The expected lines are read from the file with Python's csv module."""
+    import csv
+
+    contract = limited(tmp_path, findings_stored_per_rule=40)
+    path = tmp_path / "many.csv"
+    with path.open("w", newline="") as f:
+        w = csv.writer(f)
+        w.writerow(["model", "scenario", "region", "variable", "unit", "year", "value"])
+        for k in range(360_000):
+            variable, unit, year = "emissions.co2", "Mt CO2/yr", 2030
+            if k % 3 == 0:
+                variable = f"made.up.{k % 11}"
+            elif k % 5 == 0:
+                unit = "EJ/yr"  # energy for an emission: does not convert
+            elif k % 7 == 0:
+                year = 1850
+            w.writerow(["M1", f"S{k // 1000}", "World", variable, unit, year, 1.0])
+    expected: dict[str, list[int]] = {"unknown-variable": [], "wrong-unit": [], "bad-year": []}
+    with path.open(newline="") as f:
+        for line, row in enumerate(csv.DictReader(f), start=2):
+            known = not row["variable"].startswith("made.up.")
+            rule = (
+                "unknown-variable"
+                if not known
+                else "wrong-unit"
+                if row["unit"] == "EJ/yr"
+                else "bad-year"
+                if row["year"] == "1850"
+                else None
+            )
+            if rule and len(expected[rule]) < 40:
+                expected[rule].append(line)
+    first = check(path, contract)
+    again = check(path, contract)
+    for rule, lines in expected.items():
+        assert counts(first)[rule] > 40
+        assert _stored_lines(first, rule) == lines, rule
+        assert _stored_lines(again, rule) == lines, rule
+    assert [f.to_dict() for f in first.findings] == [f.to_dict() for f in again.findings]

@@ -162,8 +162,11 @@ def _obs_view(con: duckdb.DuckDBPyConnection, inputs: list[InputFile]) -> None:
         if inp.kind == "data" and inp.table:
             sheet = literal(inp.sheet) if inp.sheet else "NULL::VARCHAR"
             # CSV tables leave `line` empty: rows are stored in file order, so the row id gives it for free.
+            # A bare row id or line column, where one will do: a filter on lines then narrows the scan to a range.
+            written, rows = con.execute(f"SELECT count(line), count(*) FROM {inp.table}").fetchall()[0]  # noqa: S608 - generated names
+            line = "rowid + 2" if not written else "line" if written == rows else "coalesce(line, rowid + 2)"
             parts.append(
-                f"SELECT {i} AS src, {literal(inp.path)} AS path, {sheet} AS sheet, coalesce(line, rowid + 2) AS line, "  # noqa: S608 - names from the code; user text via validate.sql
+                f"SELECT {i} AS src, {literal(inp.path)} AS path, {sheet} AS sheet, {line} AS line, "  # noqa: S608 - names from the code; user text via validate.sql
                 f"* EXCLUDE (line) FROM {inp.table}"
             )
     if not parts:
@@ -295,9 +298,17 @@ def _unordered(con: duckdb.DuckDBPyConnection, sql: str) -> None:
 _RULE = re.compile(r"'([a-z0-9-]+)' AS rule\b")
 
 
+# The order in which findings are kept when a rule has more than the store holds, and listed when it has more than
+# a report shows: by line (findings about a series or a sum have none and come last), then file, year and key. A
+# plain LIMIT keeps whichever rows the scan met first, and a join or an aggregate meets them in no fixed order; the
+# whole key, NULLs last, makes the kept findings the same on every run. The line comes first so that the rows up to
+# the last kept line can be picked out before a check's joins and message text.
+ORDER_KEY = "line, path, sheet, year, model, scenario, region, variable, column_name"
+
+
 class _Store:
-    """Inserts findings into the TEMP table `findings`, at most `cap` per rule; `totals` counts every one, so
-    a million empty cells cost a million counts, not a million stored rows."""
+    """Inserts findings into the TEMP table `findings`, at most `cap` per rule, the first in `ORDER_KEY` order;
+    `totals` counts every one, so a million empty cells cost a million counts, not a million stored rows."""
 
     def __init__(self, con: duckdb.DuckDBPyConnection, severity: str, cap: int) -> None:
         self.con, self.severity, self.cap = con, severity, cap
@@ -314,17 +325,44 @@ class _Store:
             sql = f"SELECT NULL::VARCHAR AS severity, * FROM ({sql})"  # noqa: S608 - names from the code; user text via validate.sql
         rules = set(_RULE.findall(sql))
         sql = f"SELECT * REPLACE ({self.severity} AS severity) FROM ({sql})"  # noqa: S608 - names from the code; user text via validate.sql
-        if len(rules) == 1 and self._insert_one(sql, rules.pop()):
-            return
-        # Counting reads only the rule column (DuckDB drops the unused message text), so a check with millions
-        # of findings stores its first `cap` without ever building the rest.
-        counts = self.con.execute(f"SELECT rule, severity, count(*) FROM ({sql}) GROUP BY ALL").fetchall()  # noqa: S608 - names from the code; user text via validate.sql
-        self._add({(r, sev): int(n) for r, sev, n in counts})
+        room = {r: self.cap - self.stored.get(r, 0) for r in rules}
+        tentative = None
+        if len(rules) == 1:
+            # One rule: insert up to the room left in one pass; under it, that was every finding of the check.
+            rule = next(iter(rules))
+            if room[rule] > 0:
+                at = self.con.execute("SELECT coalesce(max(rowid) + 1, 0) FROM findings").fetchall()[0][0]
+                limited = f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) LIMIT ?"  # noqa: S608 - names from the code; user text via validate.sql
+                n = self.con.execute(limited, [room[rule]]).fetchall()[0][0]
+                if n < room[rule]:
+                    self._count_inserted(rule, int(n))
+                    return
+                # Full: the first `room` in order have lines no later than the last of these (when every one has
+                # a line), so they are found among far fewer rows than the check reads, if they are not these.
+                full, last = self.con.execute(
+                    "SELECT count(line) = count(*), max(line) FROM findings WHERE rowid >= ?", [at]
+                ).fetchall()[0]
+                tentative = (rule, int(at), int(last) if full and last is not None else None)
+        # Counting reads only the rule column (DuckDB drops the unused message text), so a check with millions of
+        # findings stores its first `cap` without ever building the rest.
+        # With a LIMIT's rows in, the same pass counts the findings up to their last line: as many as went in, and
+        # they are the first in order (a scan in file order gives that; a join or an aggregate seldom does).
+        upto = "NULL"
+        if tentative is not None and tentative[2] is not None:
+            upto = f"count(*) FILTER (WHERE line <= {tentative[2]})"
+        counts = self.con.execute(f"SELECT rule, severity, count(*), {upto} FROM ({sql}) GROUP BY ALL").fetchall()  # noqa: S608 - names and integers from the code; user text via validate.sql
+        self._add({(r, sev): int(n) for r, sev, n, _ in counts})
         per_rule: dict[str, int] = {}
-        for rule, _, n in counts:
+        for rule, _, n, _ in counts:
             per_rule[rule] = per_rule.get(rule, 0) + int(n)
-        room = {r: self.cap - self.stored.get(r, 0) for r in per_rule}
-        over = sorted(r for r, n in per_rule.items() if n > room[r])
+        over = sorted(r for r, n in per_rule.items() if n > room.get(r, self.cap))
+        if tentative is not None:
+            rule, at, last = tentative
+            if rule in over and sum(k or 0 for *_, k in counts) != room[rule]:
+                self.con.execute("DELETE FROM findings WHERE rowid >= ?", [at])
+                self._insert_first(sql, rule, room[rule], last)
+            self.stored[rule] = self.cap
+            return
         if len(over) < len(per_rule):
             keep = f"WHERE rule NOT IN ({', '.join(literal(r) for r in over)})" if over else ""
             self.con.execute(f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) {keep}")  # noqa: S608 - names from the code; user text via validate.sql
@@ -332,34 +370,40 @@ class _Store:
                 if r not in over:
                     self.stored[r] = self.stored.get(r, 0) + n
         for rule in over:
-            if room[rule] > 0:
-                self.con.execute(
-                    # no ORDER BY: a plain LIMIT stops the scan early, where sorting would build every finding
-                    f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) WHERE rule = ? LIMIT ?",  # noqa: S608 - names from the code; user text via validate.sql
-                    [rule, room[rule]],
-                )
-                self.stored[rule] = self.cap
+            if room.get(rule, self.cap) > 0:
+                self._insert_first(sql, rule, room.get(rule, self.cap), None)
+            self.stored[rule] = self.cap
 
-    def _insert_one(self, sql: str, rule: str) -> bool:
-        """A check of one rule in one pass: insert up to the room left and count what went in. False (nothing
-        inserted) when the room is gone, or (all of it inserted) when the result may go on beyond it: then the
-        caller counts the whole result, and inserts no more of this rule."""
-        room = self.cap - self.stored.get(rule, 0)
-        if room <= 0:
-            return False
-        n = self.con.execute(f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) LIMIT ?", [room]).fetchall()[0][0]  # noqa: S608 - names from the code; user text via validate.sql
-        self.stored[rule] = self.stored.get(rule, 0) + int(n)
-        if n >= room:
-            return False
-        # under the cap: every finding of this check is in the table, so its counts come from there
+    def _insert_first(self, sql: str, rule: str, room: int, last: int | None) -> None:
+        """Store the first `room` findings of `rule` in `ORDER_KEY` order. `last`: a line that at least `room` of
+        them have reached; without it a pass over the lines alone finds the `room`-th smallest. The bound reaches
+        the check's scan of the rows (as a row-id range for a CSV), so only the rows up to it are joined and
+        given messages."""
+        # every finding column, NULL where the check leaves one out, so the order key can name them all
+        empty = ", ".join(f"NULL::{FINDING_TYPES.get(c, 'VARCHAR')} AS {c}" for c in FINDING_COLUMNS)
+        sql = f"SELECT {empty} WHERE false UNION ALL BY NAME ({sql})"
+        if last is None:
+            found = self.con.execute(
+                f"SELECT line FROM ({sql}) WHERE rule = ? AND line IS NOT NULL ORDER BY line LIMIT 1 OFFSET ?",  # noqa: S608 - names from the code; user text via validate.sql
+                [rule, room - 1],
+            ).fetchall()
+            last = int(found[0][0]) if found else None  # None: fewer lines than room, all of them are kept
+        upto = f" AND line <= {int(last)}" if last is not None else ""
+        self.con.execute(
+            f"INSERT INTO findings BY NAME SELECT * FROM ({sql}) WHERE rule = ?{upto} ORDER BY {ORDER_KEY} LIMIT ?",  # noqa: S608 - names and integers from the code; user text via validate.sql
+            [rule, room],
+        )
+
+    def _count_inserted(self, rule: str, n: int) -> None:
+        """Count the `n` findings of `rule` just inserted (every finding of its check) by severity."""
+        self.stored[rule] = self.stored.get(rule, 0) + n
         if n:
             rows = self.con.execute(
                 "SELECT severity, count(*) FROM (SELECT severity FROM findings WHERE rule = ? "
                 "ORDER BY rowid DESC LIMIT ?) GROUP BY 1",
-                [rule, int(n)],
+                [rule, n],
             ).fetchall()
             self._add({(rule, sev): int(k) for sev, k in rows})
-        return True
 
     def insert_findings(self, found: list[Finding], severity: dict[str, str]) -> None:
         """Findings made in Python (file problems, scenarios tables), under the same cap."""
@@ -498,8 +542,8 @@ def run_check(
         counts[s] = counts.get(s, 0) + n
     findings = findings_from(
         con.execute(
-            "SELECT * EXCLUDE (rn) FROM (SELECT *, row_number() OVER (PARTITION BY rule ORDER BY path, line, year) "
-            "AS rn FROM findings) WHERE rn <= ? "
+            "SELECT * EXCLUDE (rn) FROM (SELECT *, row_number() OVER (PARTITION BY rule ORDER BY "  # noqa: S608 - names from the code
+            f"{ORDER_KEY}) AS rn FROM findings) WHERE rn <= ? "
             "ORDER BY path NULLS FIRST, line NULLS LAST, rule, model, scenario, region, variable, year",
             [int(findings_per_rule)],
         )
