@@ -4,6 +4,7 @@ paths that are not files, and damaged workbooks. Each gives its own finding with
 from __future__ import annotations
 
 import os
+import re
 
 import pytest
 
@@ -54,11 +55,28 @@ def test_logical_lines_across_chunk_boundaries(tmp_path):
     text = b'a,b\r\n"x\r\ny",1\r\n\r\nc,"d\n\n"\nlast'
     path = tmp_path / "t.csv"
     path.write_bytes(text)
+    # records: "a,b" (line 1), "x\r\ny",1 (lines 2-3), a blank one (4), c,"d\n\n" (5-7), last (8)
     whole = logical_lines(path)
     for size in (1, 2, 3, 7, 64):
-        first, blank = logical_lines(path, chunk_bytes=size)
-        assert first.tolist() == whole[0].tolist() == [1, 2, 4, 5, 8], size
-        assert blank.tolist() == whole[1].tolist() == [False, False, True, False, False], size
+        number, first = logical_lines(path, chunk_bytes=size)
+        assert number.tolist() == whole[0].tolist() == [1, 2, 4, 5], size
+        assert first.tolist() == whole[1].tolist() == [1, 2, 5, 8], size
+        number, first = logical_lines(path, chunk_bytes=size, max_records=3)
+        assert number.tolist() == [1, 2, 4] and first.tolist() == [1, 2, 5], size
+
+
+def test_rows_between_long_runs_of_empty_lines_are_each_read_once(tmp_path, check, basic):
+    """DuckDB 2.0's parallel reader, keeping rejected lines, reads some rows twice in a file of 34 MB with a
+    million empty lines after each row (36 rows for 35: found by the bench's blank-lines file). Every row must be
+    read once, on its physical line; the expected lines are counted in the file's bytes."""
+    path = bombs.blank_lines_csv(tmp_path / "blank.csv", lines=34_000_000, every=1_000_000)
+    data = path.read_bytes()
+    # the physical line of each non-empty line after the header: the newlines before it, plus one
+    expected = [data.count(b"\n", 0, m.start()) + 1 for m in re.finditer(rb"[^\n]+", data)][1:]
+    result = check(path, basic)
+    assert result.rows == len(expected) == 35
+    assert [f.line for f in rules_at(result, "unknown-variable")] == expected
+    assert any("read again in one thread" in n for n in result.inputs[0].notes)
 
 
 def test_mixed_line_endings_are_read_with_a_note(tmp_path, check, basic):

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import sys
 import zipfile
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from pathlib import Path
 from typing import Any
 from xml.sax.saxutils import escape
@@ -170,8 +170,23 @@ def many_columns_csv(path: Path, columns: int = 100_000) -> Path:
     return path
 
 
-BOMBS = {
+def blank_lines_csv(path: Path, lines: int = 100_000_000, every: int = 500_000) -> Path:
+    """A header and rows, each followed by `every` empty lines, `lines` of them in all (100 MB): DuckDB skips the
+    empty lines, so the physical line of each row has to be counted through all of them. (A run of more than a
+    million empty lines is one line too long for DuckDB, `max_line_bytes`.)"""
+    row = "M,S,World,Made|Up|Name,Mt CO2/yr,2020,1\n"
+    with path.open("w") as f:
+        f.write(",".join(HEADER) + "\n")
+        block = row + "\n" * every
+        for _ in range(lines // every):
+            f.write(block)
+        f.write(row)
+    return path
+
+
+BOMBS: dict[str, Callable[[Path], Path]] = {
     "empty-rows.csv": empty_rows_csv,
+    "blank-lines.csv": blank_lines_csv,
     "unknown-variables.csv": unknown_variables_csv,
     "huge-cell.xlsx": huge_cell_xlsx,
     "lying-dimension.xlsx": lying_dimension_xlsx,
