@@ -77,3 +77,21 @@ def test_a_chatty_child_leaves_only_the_end_of_its_stderr(tmp_path):
     assert ran.returncode == 3 and not ran.timed_out
     assert len(ran.stderr_tail) == STDERR_TAIL_BYTES == 64 << 10
     assert ran.stderr_tail.endswith(b"x\nEND\n")
+
+
+def test_a_wrong_budget_setting_is_said_without_running_and_the_command_line_setting_stays_behind(
+    tmp_path, monkeypatch, basic
+):
+    path = write_csv(tmp_path / "x.csv", consistent_rows(basic))
+    for name, raw in (("MILEPOST_SELFCHECK_MEMORY_MB", "lots"), ("MILEPOST_SELFCHECK_SECONDS", "-5")):
+        with monkeypatch.context() as m:
+            m.setenv(name, raw)
+            child = check_in_child([path], BASIC_CONTRACT, tmp_path / "out")
+        assert child.failure_kind == "setting", child.failure
+        assert name in child.failure and repr(raw) in child.failure
+        assert not (tmp_path / "out").exists()  # nothing was run
+        assert name.removeprefix("MILEPOST_") in failure_finding(child, ["x.csv"])["hint"]
+    # the command line's budget does not reach the child, which sets its own: a bad one would fail it
+    monkeypatch.setenv("MILEPOST_MEMORY_MB", "not-a-number")
+    child = check_in_child([path], BASIC_CONTRACT, tmp_path / "out")
+    assert child.failure is None, child.failure

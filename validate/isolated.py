@@ -12,6 +12,7 @@ files the child wrote, DuckDB's spill files among them, stay in `out_dir` for th
 from __future__ import annotations
 
 import json
+import math
 import os
 import signal
 import subprocess
@@ -22,6 +23,7 @@ from pathlib import Path
 from typing import IO, Any
 
 from milepost.validate.cells import one_line
+from milepost.validate.errors import UsageError
 
 DEFAULT_MEMORY_MB = 2048
 DEFAULT_SECONDS = 120
@@ -32,10 +34,24 @@ ABORTED_RULE = "check-aborted"
 
 
 def budget() -> tuple[int, float]:
-    """(memory in bytes, seconds) for a child check: from the environment, else the defaults."""
-    mb = int(os.environ.get(ENV_MEMORY) or DEFAULT_MEMORY_MB)
-    seconds = float(os.environ.get(ENV_SECONDS) or DEFAULT_SECONDS)
-    return mb << 20, seconds
+    """(memory in bytes, seconds) for a child check: from the environment, else the defaults. A setting that is
+    not a positive number raises UsageError naming it."""
+    mb = _setting(ENV_MEMORY, DEFAULT_MEMORY_MB, int, "a whole number of megabytes")
+    seconds = _setting(ENV_SECONDS, DEFAULT_SECONDS, float, "a number of seconds")
+    return int(mb) << 20, float(seconds)
+
+
+def _setting(name: str, default: float, kind: type[int] | type[float], what: str) -> float:
+    raw = os.environ.get(name, "").strip()
+    if not raw:
+        return default
+    try:
+        value: float = kind(raw)
+    except ValueError:
+        value = -1.0
+    if not math.isfinite(value) or value <= 0:
+        raise UsageError(f"{name}={one_line(raw)!r} is not {what} above 0")
+    return value
 
 
 @dataclass
@@ -48,21 +64,29 @@ class ChildCheck:
     json_path: Path | None = None
     xlsx_path: Path | None = None
     failure: str | None = None
-    failure_kind: str | None = None  # "memory", "time" or "crash"
+    failure_kind: str | None = None  # "memory", "time", "crash" or "setting" (the server's budget setting)
 
 
 def check_in_child(
     paths: list[Path], contract_dir: Path, out_dir: Path, memory_bytes: int | None = None, seconds: float | None = None
 ) -> ChildCheck:
     """Check `paths` against the contract folder in a fresh process within the budget (default: `budget()`)."""
-    default_memory, default_seconds = budget()
-    memory_bytes = memory_bytes or default_memory
-    seconds = seconds or default_seconds
+    if memory_bytes is None or seconds is None:
+        try:
+            default_memory, default_seconds = budget()
+        except UsageError as e:  # the server's setting, not the upload: said as such, and nothing is run
+            return ChildCheck(failure=f"the dashboard's budget setting is wrong: {e}", failure_kind="setting")
+        memory_bytes = memory_bytes or default_memory
+        seconds = seconds or default_seconds
     out_dir.mkdir(parents=True, exist_ok=True)
     cmd = [sys.executable, "-m", "milepost.validate.isolated", str(out_dir), str(contract_dir), str(memory_bytes)]
     # Thread pools reserve address space per thread (OpenBLAS through numpy, glibc's malloc arenas): with a
-    # budget on address space, one thread each leaves the budget to the data.
-    env = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MALLOC_ARENA_MAX": "2"}
+    # budget on address space, one thread each leaves the budget to the data. The child sets its own DuckDB
+    # budget from its share, so the command line's memory setting is not passed on (a bad one would fail it).
+    from milepost.validate.memory import ENV_MEMORY as MAIN_MEMORY
+
+    env = {k: v for k, v in os.environ.items() if k != MAIN_MEMORY}
+    env |= {"OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MALLOC_ARENA_MAX": "2"}
     ran = run_child([*cmd, *map(str, paths)], seconds, env)
     if ran.timed_out:
         return ChildCheck(
@@ -157,6 +181,8 @@ _HINTS = {
     "memory": "Split the submission into smaller files, or check it with `milepost check` on your own machine.",
     "time": "Split the submission into smaller files, or check it with `milepost check` on your own machine.",
     "crash": "Check the files with `milepost check` on your own machine; if that fails too, report the message.",
+    "setting": f"Whoever runs the dashboard sets ${ENV_MEMORY} and ${ENV_SECONDS}; meanwhile `milepost check` "
+    "checks the files on your own machine.",
 }
 
 
