@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import streamlit as st
 
 from milepost.dashboard import ui
 
-st.set_page_config(page_title="Milepost", page_icon=":material/flag:", layout="wide")
+# A local image: Streamlit fetches a named icon's favicon from an outside font server, which an assessment's
+# machine may not reach and need not tell who reads the dashboard.
+st.set_page_config(page_title="Milepost", page_icon=str(Path(__file__).with_name("icon.png")), layout="wide")
 
 PAGES = [
     st.Page("views/screen.py", title="Screen", icon=":material/filter_alt:", default=True),

@@ -112,6 +112,9 @@ def test_screen_in_a_real_browser(server, browser, demo_db, tmp_path):
     page = browser.new_page(viewport={"width": 1400, "height": 900}, accept_downloads=True)
     errors: list[str] = []
     page.on("pageerror", lambda e: errors.append(str(e)))
+    # an assessment's dashboard may run where nothing outside can be reached, and should tell no one who reads it
+    outside: list[str] = []
+    page.on("request", lambda r: outside.append(r.url) if _leaves_the_machine(r.url) else None)
     page.goto(server)
     _settle(page)
     expect(page.get_by_text("emissions.ghg in 2030, World")).to_be_visible()
@@ -145,6 +148,14 @@ def test_screen_in_a_real_browser(server, browser, demo_db, tmp_path):
     expect(shared.get_by_text("emissions.ghg in 2050, World")).to_be_visible()
     expect(shared.get_by_test_id("stMetric").filter(has_text="Models")).to_contain_text("1")
     assert not errors, errors
+    assert not outside, outside
+
+
+def _leaves_the_machine(url: str) -> bool:
+    from urllib.parse import urlparse
+
+    parts = urlparse(url)
+    return parts.scheme in ("http", "https", "ws", "wss") and parts.hostname not in ("127.0.0.1", "localhost")
 
 
 def test_selfcheck_upload_and_json_report_in_a_real_browser(server, browser, demo):
