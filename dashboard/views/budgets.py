@@ -17,7 +17,7 @@ ch, sel = ui.results_page("Budgets")
 ui.caution()
 st.caption(f"⚠️ {BUDGET_CAUTION}")
 
-region = ui.query(queries.budget_region)
+region = ui.shared_query(queries.budget_region)
 if region is None:
     st.info(
         "No carbon-budget indicators are stored: the database was loaded with a contract without [budgets], "
@@ -25,20 +25,20 @@ if region is None:
     )
     ui.stop()
 
-edges = ui.query(queries.band_edges, sel)
+edges = ui.shared_query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)
-df = ui.label_bands(ui.query(queries.budget_scenarios, sel, region), labels)
+df = ui.label_bands(ui.shared_query(queries.budget_scenarios, sel, region), labels)
 if df.empty:
     st.warning("No scenario matches these filters.")
     ui.stop()
-unit = ui.query(queries.variable_unit, sel.variable)
+unit = ui.shared_query(queries.variable_unit, sel.variable)
 df["reached"] = df["net_zero_year"].notna()
 df["outcome"] = [
     queries.class_label(None if pd.isna(v) else float(v), sel.likelihood) if has else "no estimate"
     for v, has in zip(df["level"], df["has_level"], strict=True)
 ]
 
-found = contracts.find(ui.query(queries.contract_name))
+found = contracts.find(ui.shared_query(queries.contract_name))
 budgets = found.contract.budgets if found.contract is not None else None
 lik = float(sel.likelihood.rstrip("%"))
 lines = pd.DataFrame(columns=["label", "budget"])

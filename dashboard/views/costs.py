@@ -11,9 +11,9 @@ from milepost.dashboard import charts, headlines, queries, stats, ui
 
 ch, sel = ui.results_page("Costs")
 
-edges = ui.query(queries.band_edges, sel)
+edges = ui.shared_query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)
-df = ui.query(queries.costs, sel, ch.base_year)
+df = ui.shared_query(queries.costs, sel, ch.base_year)
 keys = df["kind"] + "|" + df["variable"]
 df["metric"] = keys.map({f"{k}|{v}": label for (k, v), label in queries.COST_METRICS.items()})
 by = ["kind", "variable", "metric", "unit", "year_from", "year"]
@@ -24,7 +24,7 @@ ratios = queries.band_ratio(summary, by, top=top, bottom=bottom)
 
 st.info(headlines.costs(ratios, labels, top, bottom, sel.year, sel.outcome_label), icon=":material/payments:")
 ui.caution()
-references = ui.query(queries.reference_names, sel)
+references = ui.shared_query(queries.reference_names, sel)
 named = f" (here: {', '.join(references)})" if references else ""
 st.caption(
     ui.bands_note(sel.variable, sel.year, sel.region, labels, edges, sel.model_weighted)

@@ -10,15 +10,15 @@ from milepost.validate.store.pairs import rule_for
 ch, sel = ui.results_page("Delay")
 ui.caution()
 
-found = contracts.find(ui.query(queries.contract_name))
+found = contracts.find(ui.shared_query(queries.contract_name))
 rule = rule_for(found.contract, sel.likelihood)
 later = [y for y in ch.milestones if y > sel.year]
 next_year = later[0] if later else None
 loss_year = 2050 if 2050 in ch.milestones else next_year
-rows = ui.query(queries.pair_rows, sel, rule, [sel.variable, "cost.abatement", "gdp.mer"])
+rows = ui.shared_query(queries.pair_rows, sel, rule, [sel.variable, "cost.abatement", "gdp.mer"])
 pairs, npv_period = queries.delay_table(rows, sel, next_year, loss_year)
 summary = queries.delay_summary(pairs)
-unit = ui.query(queries.variable_unit, sel.variable)
+unit = ui.shared_query(queries.variable_unit, sel.variable)
 npv_words = f"NPV of abatement cost {npv_period[0]}–{npv_period[1]}" if npv_period else "NPV of abatement cost"
 names = {
     "d_milestone": f"{sel.variable} in {sel.year} ({unit})",

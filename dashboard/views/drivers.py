@@ -21,10 +21,10 @@ ch, sel = ui.results_page("Drivers")
 ui.caution()
 st.caption(METHOD)
 
-edges = ui.query(queries.band_edges, sel)
+edges = ui.shared_query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)
-df = ui.query(qd.effects, sel, sel.region)
-gaps = ui.query(qd.gaps, sel, tuple(qd.EFFECTS))
+df = ui.shared_query(qd.effects, sel, sel.region)
+gaps = ui.shared_query(qd.gaps, sel, tuple(qd.EFFECTS))
 if df.empty:
     st.warning(
         f"No driver decomposition for these scenarios in {sel.region} ({ui.BASIS_LABELS.get(sel.basis, sel.basis)})."
@@ -110,9 +110,9 @@ ui.table(
 )
 
 st.subheader("Delay pairs: the two scenarios of each pair")
-found = contracts.find(ui.query(queries.contract_name))
+found = contracts.find(ui.shared_query(queries.contract_name))
 rule = rule_for(found.contract, sel.likelihood)
-pairs = qd.pair_effects(ui.query(queries.pair_rows, sel, rule, [qd.CO2]))
+pairs = qd.pair_effects(ui.shared_query(queries.pair_rows, sel, rule, [qd.CO2]))
 pairs = pairs[pairs["year"] == year] if len(pairs) else pairs
 st.caption(f"{rule.describe()} Effects in {sel.region}, {UNIT}; difference = later − first.")
 if pairs.empty:

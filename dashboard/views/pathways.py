@@ -17,20 +17,20 @@ with c1:
         "Variable shown", ch.data_variables, key="path_variable", param="show", default=sel.variable
     )
 with c2:
-    regions = ui.query(queries.data_regions, variable)
+    regions = ui.shared_query(queries.data_regions, variable)
     region = ui.url_selectbox("Region shown", regions, key="path_region", param="show_region", default=sel.region)
 
-edges = ui.query(queries.band_edges, sel)
+edges = ui.shared_query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)
 both = "harmonised" in ch.bases
 shown = ["raw", "harmonised"] if both else ["raw"]
-bands = {b: ui.label_bands(ui.query(queries.pathway_bands, sel, variable, region, b), labels) for b in shown}
+bands = {b: ui.label_bands(ui.shared_query(queries.pathway_bands, sel, variable, region, b), labels) for b in shown}
 if all(df.empty for df in bands.values()):
     st.warning(f"No {variable} in {region} for the selected scenarios.")
     ui.stop()
 unit = str(next(df for df in bands.values() if not df.empty)["unit"].iloc[0])
 
-chosen = ui.query(queries.selected, sel)
+chosen = ui.shared_query(queries.selected, sel)
 options = (chosen["model"] + " | " + chosen["scenario"]).tolist()
 picked = ui.url_multiselect(
     "Single scenarios",
@@ -43,11 +43,11 @@ picked = ui.url_multiselect(
 keys = [tuple(p.split(" | ", 1)) for p in picked]
 series: dict[str, pd.DataFrame | None] = dict.fromkeys(shown)
 for b in shown if keys else ():
-    found_series = ui.query(queries.scenario_series, variable, region, keys, b)
+    found_series = ui.shared_query(queries.scenario_series, variable, region, keys, b)
     found_series["label"] = found_series["model"] + " | " + found_series["scenario"]
     series[b] = found_series
 
-found = contracts.find(ui.query(queries.contract_name))
+found = contracts.find(ui.shared_query(queries.contract_name))
 # in the contract unit, like the stored data: a reference given in Gt for an Mt variable lands where it belongs
 ref = contracts.reference_value(found.contract, region, variable, ch.base_year)
 reference = None
@@ -106,7 +106,7 @@ ui.table(
 
 if both:
     st.subheader("How each series was harmonised")
-    methods = ui.label_bands(ui.query(queries.harmonisation_methods, sel, variable, region), labels)
+    methods = ui.label_bands(ui.shared_query(queries.harmonisation_methods, sel, variable, region), labels)
     if methods.empty:
         st.info(f"The selected scenarios of {variable} in {region} were stored without harmonisation.")
     else:

@@ -22,10 +22,10 @@ ch, sel = ui.results_page("Regions")
 ui.caution()
 st.caption(f"⚠️ {ALLOCATION_CAUTION}")
 
-edges = ui.query(queries.band_edges, sel)
+edges = ui.shared_query(queries.band_edges, sel)
 labels = queries.band_labels(len(edges) + 1)
-df = ui.query(qd.burden, sel)
-gaps = ui.query(qd.gaps, sel, (*qd.REGION_KINDS, *qd.MARKET_KINDS))
+df = ui.shared_query(qd.burden, sel)
+gaps = ui.shared_query(qd.gaps, sel, (*qd.REGION_KINDS, *qd.MARKET_KINDS))
 if df.empty:
     st.warning(
         "No burden-sharing indicators for these scenarios: they need World and regional emissions.ghg, regional "
@@ -43,7 +43,7 @@ df = ui.label_bands(df, labels)
 at = df[df["year"] == year]
 summary = ui.label_bands(qd.who_pays(at, sel.model_weighted), labels)
 summary["rule_label"] = summary["rule"].map(qd.RULES)
-market = ui.query(qd.market, sel)
+market = ui.shared_query(qd.market, sel)
 market = market[market["year"] == year]
 sizes = qd.market_sizes(market, sel.model_weighted)
 money = {
@@ -177,7 +177,7 @@ st.caption(
 )
 
 st.subheader(f"Regional cost shares in {year}")
-shares = ui.label_bands(ui.query(qd.cost_shares, sel), labels)
+shares = ui.label_bands(ui.shared_query(qd.cost_shares, sel), labels)
 shares = shares[(shares["year"] == year) & shares["variable"].isin(list(qd.SHARE_BASES))]
 if shares.empty:
     st.info("No regional cost shares: they need regional and World cost.abatement, or GDP with a reference scenario.")
