@@ -31,8 +31,12 @@ def test_the_child_finds_what_the_checker_finds(tmp_path, check, basic):
     assert stored.fetchall() == sorted((f.rule, f.line) for f in here.findings)
     assert json.loads(child.json_path.read_text())["summary"]["errors"] == here.counts["error"]
     assert child.xlsx_path is not None and child.xlsx_path.stat().st_size > 0
-    # DuckDB spills inside the job's folder, which the caller removes, never into the server's working directory
+    # DuckDB spills inside the job's folder, which the caller removes, never into the server's working directory,
+    # and no more than the disk budget (DuckDB's own default is 90 % of the free disk)
     assert Path(child.summary["temp_directory"]).is_relative_to(tmp_path / "out")
+    assert child.summary["max_temp_directory_size"] == "4.0 GiB"  # DEFAULT_SPILL_MB
+    smaller = check_in_child([path], BASIC_CONTRACT, tmp_path / "out2", spill_bytes=300 << 20)
+    assert smaller.summary["max_temp_directory_size"] == "300.0 MiB"
 
 
 def test_a_child_beyond_its_time_budget_is_stopped(tmp_path):

@@ -6,7 +6,7 @@ budget is spent. Whatever happens in the child (a limit, a crash, a kill), the p
 the findings, or with `failure` saying what stopped it (`failure_finding`: one `check-aborted` finding). The
 files the child wrote, DuckDB's spill files among them, stay in `out_dir` for the caller to remove.
 
-    python -m milepost.validate.isolated OUT_DIR CONTRACT_DIR MEMORY_BYTES FILE...   (the child's side)
+    python -m milepost.validate.isolated OUT_DIR CONTRACT_DIR MEMORY_BYTES SPILL_BYTES FILE...   (the child's side)
 """
 
 from __future__ import annotations
@@ -27,8 +27,10 @@ from milepost.validate.errors import UsageError
 
 DEFAULT_MEMORY_MB = 2048
 DEFAULT_SECONDS = 120
+DEFAULT_SPILL_MB = 4096
 ENV_MEMORY = "MILEPOST_SELFCHECK_MEMORY_MB"
 ENV_SECONDS = "MILEPOST_SELFCHECK_SECONDS"
+ENV_SPILL = "MILEPOST_SELFCHECK_SPILL_MB"
 STDERR_TAIL_BYTES = 64 << 10  # of the child's stderr, enough for a traceback and DuckDB's advice
 ABORTED_RULE = "check-aborted"
 
@@ -39,6 +41,12 @@ def budget() -> tuple[int, float]:
     mb = _setting(ENV_MEMORY, DEFAULT_MEMORY_MB, int, "a whole number of megabytes")
     seconds = _setting(ENV_SECONDS, DEFAULT_SECONDS, float, "a number of seconds")
     return int(mb) << 20, float(seconds)
+
+
+def spill_budget() -> int:
+    """Bytes of disk a child check may spill to (DuckDB's max_temp_directory_size; without it, 90 % of the free
+    disk): from the environment, else the default."""
+    return int(_setting(ENV_SPILL, DEFAULT_SPILL_MB, int, "a whole number of megabytes")) << 20
 
 
 def _setting(name: str, default: float, kind: type[int] | type[float], what: str) -> float:
@@ -68,18 +76,27 @@ class ChildCheck:
 
 
 def check_in_child(
-    paths: list[Path], contract_dir: Path, out_dir: Path, memory_bytes: int | None = None, seconds: float | None = None
+    paths: list[Path],
+    contract_dir: Path,
+    out_dir: Path,
+    memory_bytes: int | None = None,
+    seconds: float | None = None,
+    spill_bytes: int | None = None,
 ) -> ChildCheck:
-    """Check `paths` against the contract folder in a fresh process within the budget (default: `budget()`)."""
-    if memory_bytes is None or seconds is None:
-        try:
-            default_memory, default_seconds = budget()
-        except UsageError as e:  # the server's setting, not the upload: said as such, and nothing is run
-            return ChildCheck(failure=f"the dashboard's budget setting is wrong: {e}", failure_kind="setting")
-        memory_bytes = memory_bytes or default_memory
-        seconds = seconds or default_seconds
+    """Check `paths` against the contract folder in a fresh process within the budget (default: `budget()` and
+    `spill_budget()`)."""
+    try:
+        default_memory, default_seconds = budget()
+        spill = spill_bytes or spill_budget()
+    except UsageError as e:  # the server's setting, not the upload: said as such, and nothing is run
+        return ChildCheck(failure=f"the dashboard's budget setting is wrong: {e}", failure_kind="setting")
+    memory_bytes = memory_bytes or default_memory
+    seconds = seconds or default_seconds
     out_dir.mkdir(parents=True, exist_ok=True)
-    cmd = [sys.executable, "-m", "milepost.validate.isolated", str(out_dir), str(contract_dir), str(memory_bytes)]
+    cmd = [
+        *(sys.executable, "-m", "milepost.validate.isolated"),
+        *(str(out_dir), str(contract_dir), str(memory_bytes), str(spill)),
+    ]
     # Thread pools reserve address space per thread (OpenBLAS through numpy, glibc's malloc arenas): with a
     # budget on address space, one thread each leaves the budget to the data. The child sets its own DuckDB
     # budget from its share, so the command line's memory setting is not passed on (a bad one would fail it).
@@ -96,7 +113,7 @@ def check_in_child(
         )
     lines = ran.stderr_tail.decode("utf-8", "replace").strip().splitlines()
     if ran.returncode != 0 or not (out_dir / "summary.json").exists():
-        return _failed(ran.returncode, lines, memory_bytes)
+        return _failed(ran.returncode, lines, memory_bytes, spill)
     xlsx = out_dir / "report.xlsx"
     return ChildCheck(
         summary=json.loads((out_dir / "summary.json").read_text(encoding="utf-8")),
@@ -151,11 +168,17 @@ def _drain(stream: IO[bytes], tail: bytearray, keep: int) -> None:
                 del tail[:-keep]
 
 
-def _failed(returncode: int, lines: list[str], memory_bytes: int) -> ChildCheck:
+def _failed(returncode: int, lines: list[str], memory_bytes: int, spill_bytes: int) -> ChildCheck:
     """Why the child ended without its results, from its exit code and the end of its stderr."""
     budget_words = f"its memory budget of {memory_bytes >> 20:,} MB (${ENV_MEMORY} raises it)"
     # DuckDB's out-of-memory error ends with several lines of advice after the one that says what happened
     text = " ".join(lines[-20:]).lower()
+    if "max_temp_directory_size" in text:  # DuckDB says out of memory, but it is the disk budget that ran out
+        return ChildCheck(
+            failure=f"the check needed more than its disk budget of {spill_bytes >> 20:,} MB (${ENV_SPILL} raises "
+            f"it) for the data beyond {budget_words}",
+            failure_kind="memory",
+        )
     if any(w in text for w in ("memoryerror", "out of memory", "cannot allocate", "memory allocation")):
         return ChildCheck(failure=f"the check needed more than {budget_words}", failure_kind="memory")
     if returncode in (-signal.SIGKILL, -signal.SIGSEGV):
@@ -200,7 +223,7 @@ def failure_finding(child: ChildCheck, names: list[str]) -> dict[str, Any]:
 def _child(argv: list[str]) -> int:
     import resource
 
-    out_dir, contract_dir, memory = Path(argv[0]), Path(argv[1]), int(argv[2])
+    out_dir, contract_dir, memory, spill = Path(argv[0]), Path(argv[1]), int(argv[2]), int(argv[3])
     # Before anything is read: beyond this the child gets MemoryError (or DuckDB an out-of-memory error), and
     # the parent reports the budget; the server's own memory is never at stake.
     resource.setrlimit(resource.RLIMIT_AS, (memory, memory))
@@ -219,7 +242,8 @@ def _child(argv: list[str]) -> int:
     # spills go into out_dir, which the caller removes: the process's own spill folder (validate/memory.py) is
     # removed at exit, which a child killed by its budget never reaches
     con.execute("SET temp_directory = ?", [str(out_dir / "duckdb-tmp")])
-    result = run_check([Path(p) for p in argv[3:]], contract, con=con)
+    con.execute(f"SET max_temp_directory_size = '{spill >> 20}MiB'")  # a server's disk is not the upload's to fill
+    result = run_check([Path(p) for p in argv[4:]], contract, con=con)
     (out_dir / "report.json").write_text(reports.to_json(result), encoding="utf-8")
     con.execute(f"COPY findings TO {literal(str(out_dir / 'findings.parquet'))} (FORMAT parquet)")
     summary = {
@@ -229,6 +253,7 @@ def _child(argv: list[str]) -> int:
         "truncated": result.truncated,
         "rule_counts": result.rule_counts,
         "temp_directory": con.execute("SELECT current_setting('temp_directory')").fetchall()[0][0],
+        "max_temp_directory_size": con.execute("SELECT current_setting('max_temp_directory_size')").fetchall()[0][0],
     }
     try:
         reports.to_xlsx(result, out_dir / "report.xlsx")
