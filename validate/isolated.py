@@ -204,8 +204,8 @@ _HINTS = {
     "memory": "Split the submission into smaller files, or check it with `milepost check` on your own machine.",
     "time": "Split the submission into smaller files, or check it with `milepost check` on your own machine.",
     "crash": "Check the files with `milepost check` on your own machine; if that fails too, report the message.",
-    "setting": f"Whoever runs the dashboard sets ${ENV_MEMORY} and ${ENV_SECONDS}; meanwhile `milepost check` "
-    "checks the files on your own machine.",
+    "setting": f"Whoever runs the dashboard sets ${ENV_MEMORY}, ${ENV_SECONDS} and ${ENV_SPILL}; meanwhile "
+    "`milepost check` checks the files on your own machine.",
 }
 
 
