@@ -101,7 +101,14 @@ class Units:
         reg: Any = pint.UnitRegistry(on_redefinition="ignore", preprocessors=[_group_denominators], cache_folder=None)
         for symbol, name in SPECIES.items():
             reg.define(f"{name} = [{name}] = {symbol}")
-        for definition in ("kilotonne = 1e3 * tonne = kt", "billion = 1e9", "million = 1e6", "thousand = 1e3"):
+        # pint's `Tt` is tex (g/km), a yarn unit; in emissions it is always teratonnes (tex stays `tex`)
+        for definition in (
+            "kilotonne = 1e3 * tonne = kt",
+            "teratonne = 1e12 * tonne = Tt",
+            "billion = 1e9",
+            "million = 1e6",
+            "thousand = 1e3",
+        ):
             reg.define(definition)
         self._currencies: set[str] = set()
         for d in deflators:
@@ -169,7 +176,7 @@ class Units:
     @functools.lru_cache(maxsize=4096)  # noqa: B019 - one registry per contract, kept for the process
     def factor(self, source: str, target: str) -> float:
         """Multiply values in `source` by this to get `target`; raises UnitError if they do not convert."""
-        # Tonne prefixes first, as the check does without pint: pint also reads `Tt` as tex (g/km), not teratonnes.
+        # Tonne prefixes first, as the check does, without pint.
         quick = scale_factor(source, target)
         return quick if quick is not None else self._factor(source, target, self._context)
 
