@@ -99,3 +99,15 @@ def test_a_wrong_budget_setting_is_said_without_running_and_the_command_line_set
     monkeypatch.setenv("MILEPOST_MEMORY_MB", "not-a-number")
     child = check_in_child([path], BASIC_CONTRACT, tmp_path / "out")
     assert child.failure is None, child.failure
+
+
+def test_a_child_killed_mid_check_leaves_no_spill_folder_outside_its_job(tmp_path, monkeypatch):
+    # The command line's private spill folder is removed at exit, which a killed child never reaches; the child
+    # spills only into its job folder, which the caller removes.
+    tmp = tmp_path / "tmp"
+    tmp.mkdir()
+    monkeypatch.setenv("TMPDIR", str(tmp))
+    path = bombs.blank_lines_csv(tmp_path / "slow.csv", lines=68_000_000, every=1_000_000)  # reads for 10 s or more
+    child = check_in_child([path], BASIC_CONTRACT, tmp_path / "out", seconds=5)  # past its imports, mid-read
+    assert child.failure_kind == "time", child.failure
+    assert list(tmp.iterdir()) == []

@@ -235,13 +235,11 @@ def _child(argv: list[str]) -> int:
     from milepost.validate.store.database import connect_memory
 
     contract = load(contract_dir)
-    con = connect_memory()
     # DuckDB allocates outside Python's heap: give it a share of the budget so it fails cleanly, not by signal.
-    con.execute(f"SET memory_limit = '{max(64, (memory >> 20) // 3)}MB'")
+    # Spills go into out_dir, which the caller removes: the process's own spill folder (validate/memory.py) is
+    # removed at exit, which a child killed by its budget never reaches.
+    con = connect_memory(max(64, (memory >> 20) // 3), out_dir / "duckdb-tmp")
     con.execute("SET threads = 2")
-    # spills go into out_dir, which the caller removes: the process's own spill folder (validate/memory.py) is
-    # removed at exit, which a child killed by its budget never reaches
-    con.execute("SET temp_directory = ?", [str(out_dir / "duckdb-tmp")])
     con.execute(f"SET max_temp_directory_size = '{spill >> 20}MiB'")  # a server's disk is not the upload's to fill
     result = run_check([Path(p) for p in argv[4:]], contract, con=con)
     (out_dir / "report.json").write_text(reports.to_json(result), encoding="utf-8")

@@ -50,8 +50,11 @@ def spill_folder() -> Path:
     return _spill[0]
 
 
-def budget(con: duckdb.DuckDBPyConnection, mb: int | None = None) -> duckdb.DuckDBPyConnection:
-    """Give `con` the memory budget (`mb`, else `memory_mb()`) and the private spill folder; returns `con`."""
+def budget(
+    con: duckdb.DuckDBPyConnection, mb: int | None = None, spill: Path | None = None
+) -> duckdb.DuckDBPyConnection:
+    """Give `con` the memory budget (`mb`, else `memory_mb()`) and a spill folder (`spill`, else this process's
+    private one); returns `con`."""
     con.execute(f"SET memory_limit = '{int(mb or memory_mb())}MB'")
-    con.execute("SET temp_directory = ?", [str(spill_folder())])
+    con.execute("SET temp_directory = ?", [str(spill or spill_folder())])
     return con

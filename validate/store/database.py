@@ -60,12 +60,12 @@ def lock_timeout_default() -> float:
         raise LoadError(f"{ENV_LOCK_TIMEOUT}={raw!r} is not a number of seconds") from None
 
 
-def connect_memory() -> duckdb.DuckDBPyConnection:
+def connect_memory(mb: int | None = None, spill: Path | None = None) -> duckdb.DuckDBPyConnection:
     """A new in-memory connection that never tries to download extensions, within the memory budget of
-    `milepost.validate.memory` (spilling to a private folder beyond it)."""
+    `milepost.validate.memory` (or `mb`), spilling beyond it to a private folder (or `spill`)."""
     from milepost.validate.memory import budget
 
-    return budget(duckdb.connect(":memory:", config=dict(_NO_AUTOLOAD)))
+    return budget(duckdb.connect(":memory:", config=dict(_NO_AUTOLOAD)), mb, spill)
 
 
 # ---------------------------------------------------------------- schema and migrations
