@@ -16,7 +16,6 @@ from milepost.validate.bench.timing import (
     READ_FLOOR,
     READ_FLOOR_LABEL,
     STORE_AND_GROUP,
-    STORE_AND_GROUP_LABEL,
     Step,
     alternate,
     milepost,
@@ -81,7 +80,7 @@ def bound_step(workdir: Path, rows: int, repeat: int, rows_in_file: int) -> Step
         rows_in_file,
         jobs,
         floors,
-        STORE_AND_GROUP_LABEL,
+        READ_FLOOR_LABEL,
         None,
     )
 

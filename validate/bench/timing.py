@@ -43,7 +43,6 @@ STORE_AND_GROUP = (
     f'columns = {LONG_TYPES}, ignore_errors = true)", [sys.argv[1]]); '
     "con.execute('SELECT model, scenario, region, variable, unit, count(*) FROM t GROUP BY ALL').fetchall()"
 )
-STORE_AND_GROUP_LABEL = "the same floor (DuckDB read_csv of the file, every column aggregated)"
 LOAD_FLOOR = (
     "import duckdb, sys; con = duckdb.connect(sys.argv[2]); "
     "con.execute('CREATE TABLE data AS SELECT * FROM read_csv(?, header = true)', [sys.argv[1]]); con.close()"
